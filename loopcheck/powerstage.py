@@ -1,0 +1,69 @@
+"""A power stage as found on the board: its topology, its roles and its loops (plain data)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+# Role names, in the trade's words.
+ROLE_NAMES = (
+    "switch",            # the (high-side, for a buck) active switch, or the controller when the switch is inside it
+    "rectifier",         # the freewheeling diode, or the synchronous (low-side) switch
+    "inductor",
+    "input_cap",         # one Role per input capacitor, ranked by copper distance to the switch
+    "output_cap",
+    "sense_resistor",
+    "controller",
+    "controller_decoupling",   # the capacitor on the controller's own supply pin
+)
+
+
+@dataclass
+class Role:
+    name: str                      # one of ROLE_NAMES
+    ref: str                       # component reference
+    terminals: tuple[str, ...] = ()  # the terminals that matter for this role, REF.PIN
+    confidence: float = 1.0        # 0..1
+    evidence: str = ""             # why: "named in loopcheck.toml", "diode between SW and GND", ...
+
+
+@dataclass
+class OperatingPoint:
+    """The electrical operating point the measurements are evaluated at (SI units)."""
+
+    vin_min_v: float = 12.0
+    vin_max_v: float = 24.0
+    vout_v: float | None = None
+    iout_a: float = 1.0
+    fsw_hz: float = 500e3
+    edge_s: float = 20e-9
+    vsense_v: float | None = None          # sense voltage at iout; None: from the resistor value
+    ambient_c: float = 25.0
+    switch_capacitance_f: float = 500e-12  # switch output capacitance for the ringing estimate
+    ripple_ratio: float = 0.3              # inductor peak-to-peak ripple / iout
+    # field name -> "default" or "loopcheck.toml": every report lists the defaults as assumptions
+    sources: dict[str, str] = field(default_factory=dict)
+
+
+@dataclass
+class Stage:
+    name: str                      # "stage1", or the name given in loopcheck.toml
+    topology: str                  # "buck" | "boost" | "buck-boost"
+    switching: str                 # "discrete" | "synchronous" | "integrated"
+    switch_node: str | None        # net names
+    input_net: str | None
+    output_net: str | None
+    ground_net: str | None
+    roles: list[Role] = field(default_factory=list)
+    hot_loop: tuple[str, ...] = ()          # ordered terminals, closed (last joins first)
+    operating_point: OperatingPoint = field(default_factory=OperatingPoint)
+    confidence: float = 1.0
+    missing: list[str] = field(default_factory=list)   # what could not be found, in words
+
+    def role(self, name: str) -> Role | None:
+        for r in self.roles:
+            if r.name == name:
+                return r
+        return None
+
+    def roles_named(self, name: str) -> list[Role]:
+        return [r for r in self.roles if r.name == name]
