@@ -24,6 +24,9 @@ class Role:
     terminals: tuple[str, ...] = ()  # the terminals that matter for this role, REF.PIN
     confidence: float = 1.0        # 0..1
     evidence: str = ""             # why: "named in loopcheck.toml", "diode between SW and GND", ...
+    # pin role -> its terminals: {"gate": ("Q1.1",), "source": ("Q1.2",), "drain": ("Q1.3",)},
+    # {"cathode": ..., "anode": ...}; controller: "gate", "vin", "gnd", "sense+", "sense-", "supply", "sw"
+    pins: dict[str, tuple[str, ...]] = field(default_factory=dict)
 
 
 @dataclass
