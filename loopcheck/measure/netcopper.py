@@ -1,0 +1,159 @@
+"""Which copper belongs to which net, pad outlines, and the stackup heights the measurements need.
+
+A net's copper on a layer is taken from the Gerber X2 net attributes where the file carries them,
+else as the copper islands (connected polygons of the layer) that hold one of the net's pads,
+vias or plated holes. A ``MeasureContext`` caches these per board for one analysis run.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import shapely
+from shapely.geometry import Point, Polygon, box
+from shapely.geometry.base import BaseGeometry
+from shapely.ops import unary_union
+from shapely import affinity
+
+from ..board import Board, Pad
+from .raster import polygons_of
+
+DEFAULT_PAD_MM = 0.6            # pad size assumed where the netlist gives none
+
+
+def pad_polygon(pad: Pad) -> Polygon:
+    """The pad's outline [mm]: its netlist size and rotation, a round pad for a hole, else a 0.6 mm disc."""
+    if pad.width_mm and pad.height_mm:
+        shape = box(-pad.width_mm / 2, -pad.height_mm / 2, pad.width_mm / 2, pad.height_mm / 2)
+        if pad.rotation_deg:
+            shape = affinity.rotate(shape, pad.rotation_deg, origin=(0, 0))
+        return affinity.translate(shape, pad.x_mm, pad.y_mm)
+    if pad.width_mm:
+        return Point(pad.x_mm, pad.y_mm).buffer(pad.width_mm / 2, quad_segs=8)
+    if pad.hole_mm:
+        return Point(pad.x_mm, pad.y_mm).buffer(pad.hole_mm * 0.8, quad_segs=8)
+    return Point(pad.x_mm, pad.y_mm).buffer(DEFAULT_PAD_MM / 2, quad_segs=8)
+
+
+def layer_z_mm(board: Board) -> list[float]:
+    """Height of each copper layer's mid-plane above the bottom of the board [mm], top first."""
+    n = len(board.layers)
+    t = [board.stackup.copper_thickness_m[k] if k < len(board.stackup.copper_thickness_m)
+         else board.layers[k].thickness_m for k in range(n)]
+    z = [0.0] * n
+    for k in range(n - 2, -1, -1):
+        d = board.stackup.dielectrics[k].thickness_m if k < len(board.stackup.dielectrics) else 1.5e-3 / max(n - 1, 1)
+        z[k] = z[k + 1] + (t[k] / 2 + d + t[k + 1] / 2) * 1e3
+    return z
+
+
+def layer_thickness_m(board: Board, index: int) -> float:
+    if index < len(board.stackup.copper_thickness_m):
+        return board.stackup.copper_thickness_m[index]
+    return board.layers[index].thickness_m
+
+
+def dielectric_between(board: Board, a: int, b: int) -> tuple[float, float]:
+    """(thickness [m], eps_r) of the insulation between copper layers a and b (summed if not adjacent)."""
+    lo, hi = min(a, b), max(a, b)
+    ds = board.stackup.dielectrics[lo:hi]
+    if not ds:
+        return 1.5e-3, 4.5
+    t = sum(d.thickness_m for d in ds)
+    # series capacitors: the effective permittivity of stacked dielectrics
+    er = t / sum(d.thickness_m / d.eps_r for d in ds)
+    return t, er
+
+
+@dataclass
+class MeasureContext:
+    """Per-board caches for one analysis run (no global state)."""
+
+    board: Board
+    cache: dict[Any, Any] = field(default_factory=dict)
+
+    def islands(self, layer: int) -> tuple[list[Polygon], shapely.STRtree]:
+        key = ("islands", layer)
+        if key not in self.cache:
+            polys = polygons_of(self.board.layers[layer].geometry)
+            self.cache[key] = (polys, shapely.STRtree(polys))
+        return self.cache[key]
+
+    def net_points(self, net: str) -> list[tuple[int, float, float]]:
+        """(layer, x, y) of every pad, via and plated hole of the net (holes: where the net has copper)."""
+        pts = []
+        for pad in self.board.nets.get(net, []):
+            for layer in pad.layers:
+                if 0 <= layer < len(self.board.layers):
+                    pts.append((layer, pad.x_mm, pad.y_mm))
+        return pts
+
+    def net_copper(self, net: str) -> dict[int, BaseGeometry]:
+        """Layer index -> the net's copper on that layer (layers without any left out)."""
+        key = ("net", net)
+        if key in self.cache:
+            return self.cache[key]
+        out: dict[int, BaseGeometry] = {}
+        pts = self.net_points(net)
+        for layer in range(len(self.board.layers)):
+            lay = self.board.layers[layer]
+            if net in lay.net_copper and not lay.net_copper[net].is_empty:
+                out[layer] = lay.net_copper[net]
+                continue
+            here = [(x, y) for (l, x, y) in pts if l == layer]
+            if not here:
+                continue
+            polys, tree = self.islands(layer)
+            if not polys:
+                continue
+            hit: set[int] = set()
+            xy = np.asarray(here)
+            idx = tree.query(shapely.points(xy), predicate="intersects")
+            hit.update(int(i) for i in idx[1])
+            if not hit:
+                continue
+            out[layer] = unary_union([polys[i] for i in sorted(hit)])
+        # plated holes from the drill files that land in the net's copper on two or more layers
+        self.cache[key] = out
+        return out
+
+    def via_sites(self, net: str) -> list[tuple[float, float, float, tuple[int, ...]]]:
+        """(x, y, drill_mm, layers joined) for every plated hole of the net: netlist vias and
+        through-hole pads, and drill-file holes that land in the net's copper on two or more layers."""
+        key = ("vias", net)
+        if key in self.cache:
+            return self.cache[key]
+        copper = self.net_copper(net)
+        sites: dict[tuple[float, float], tuple[float, float, float, tuple[int, ...]]] = {}
+        for pad in self.board.nets.get(net, []):
+            if pad.hole_mm and pad.plated and len(pad.layers) > 1:
+                layers = tuple(l for l in pad.layers if l in copper)
+                if len(layers) > 1:
+                    sites[(round(pad.x_mm, 3), round(pad.y_mm, 3))] = (pad.x_mm, pad.y_mm, pad.hole_mm, layers)
+        if len(copper) > 1 and self.board.holes:
+            plated = [h for h in self.board.holes if h.plated and h.end is None]
+            if plated:
+                pts = shapely.points([(h.x_mm, h.y_mm) for h in plated])
+                inside = {layer: shapely.contains_xy(g, [h.x_mm for h in plated], [h.y_mm for h in plated])
+                          for layer, g in copper.items()}
+                for n, h in enumerate(plated):
+                    layers = tuple(sorted(l for l in copper if inside[l][n]))
+                    k = (round(h.x_mm, 3), round(h.y_mm, 3))
+                    if len(layers) > 1 and k not in sites:
+                        sites[k] = (h.x_mm, h.y_mm, h.diameter_mm, layers)
+                del pts
+        out = list(sites.values())
+        self.cache[key] = out
+        return out
+
+    def pad_copper(self, pad: Pad, layer: int) -> BaseGeometry:
+        """The pad's outline on ``layer``, clipped to the net's copper there where they overlap."""
+        poly = pad_polygon(pad)
+        cu = self.net_copper(pad.net).get(layer)
+        if cu is not None:
+            clipped = poly.intersection(cu)
+            if clipped.area > 0.2 * poly.area:
+                return clipped
+        return poly

@@ -1,0 +1,412 @@
+"""Routes: the path current takes through one net's copper between two terminals, across layers.
+
+Method (the same for DC and for the switching loop, with one addition for the loop):
+
+* The net's copper is rasterised per layer (pitch 0.05 mm, coarser on large nets so that the raster
+  stays under ``MAX_CELLS``); layers are joined at the net's vias and plated holes.
+* A shortest path (Dijkstra, ``scipy.sparse.csgraph``, 16-neighbour grid so that straight lines
+  at any angle cost within 3 % of their length) runs between the terminals' pad centres. Each step
+  costs its length times ``1 + ALPHA * pitch / d``, d the distance to the copper's edge: the path
+  keeps to a trace's centreline, where DC current in a uniform trace flows on average, and takes
+  the straight line across a plane, the shortest way, where the current spreads. The shape of the
+  DC current in a plane is not needed for the route: resistances come from the DC solver
+  (``physics.dcsolve``), the route only gives length, width and location.
+* For the switching loop, current at the edge rates returns in a plane under the conductor that
+  carries it out (the path of least inductance). ``attract_to`` adds a cost that grows with the
+  distance from the other legs of the loop (projected on the board), so a return leg in a plane
+  runs under them; where a slot or gap in the plane forces it away, the route records the detour.
+* The path is simplified (Douglas-Peucker, tolerance half the local distance to the copper's edge,
+  so the simplified line stays in copper) into segments; each segment's width is the narrowest
+  local copper width on it (twice the distance transform at the path).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import ndimage
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import dijkstra
+from shapely.geometry import LineString
+from shapely.geometry.base import BaseGeometry
+
+from ..board import Pad
+from .netcopper import MeasureContext, layer_z_mm
+from .raster import Grid, rasterise
+
+ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
+MIN_PITCH_MM = 0.05
+MAX_PITCH_MM = 0.25
+MAX_CELLS = 900_000    # copper cells of one net over all its layers
+ATTRACT_GAIN = 3.0     # loop return: extra cost per mm away from the outgoing conductor
+ATTRACT_CAP_MM = 10.0
+DETOUR_MM = 1.5        # a return leg this far from the outgoing conductor is reported as a detour
+
+# half of the 16-neighbourhood (the graph is undirected); intermediate cells a knight move crosses
+_OFFSETS = [(0, 1), (1, 0), (1, 1), (1, -1), (1, 2), (2, 1), (1, -2), (2, -1)]
+_KNIGHT_VIA = {(1, 2): [(0, 1), (1, 1)], (2, 1): [(1, 0), (1, 1)],
+               (1, -2): [(0, -1), (1, -1)], (2, -1): [(1, 0), (1, -1)]}
+
+
+class RouteError(Exception):
+    """No route: the reason in words."""
+
+
+@dataclass
+class Route:
+    """A path through one net's copper: 3D polyline (x_mm, y_mm, layer index) with per-segment widths.
+
+    Consecutive points with the same (x, y) and different layers are a via crossing.
+    """
+
+    net: str
+    start: str                                   # terminal names
+    end: str
+    points: list[tuple[float, float, int]]
+    widths_mm: list[float]                       # one per segment (len(points) - 1)
+    vias: list[tuple[float, float, int, int]]    # (x, y, from layer, to layer)
+    length_mm: float                             # copper length along the board (vias not counted)
+    straight_mm: float                           # pad centre to pad centre
+    pitch_mm: float
+    assumptions: list[str] = field(default_factory=list)
+    detour: tuple[float, float, float] | None = None   # (x, y, distance from the outgoing conductor mm)
+
+    @property
+    def xy(self) -> list[tuple[float, float]]:
+        return [(x, y) for x, y, _ in self.points]
+
+    @property
+    def min_width_mm(self) -> float:
+        ws = [w for (w, a, b) in zip(self.widths_mm, self.points[:-1], self.points[1:]) if a[2] == b[2]]
+        return min(ws) if ws else (min(self.widths_mm) if self.widths_mm else float("nan"))
+
+    def narrowest(self) -> tuple[float, float, float, int]:
+        """(width_mm, x_mm, y_mm, layer) of the narrowest in-layer segment (its midpoint)."""
+        best = None
+        for w, a, b in zip(self.widths_mm, self.points[:-1], self.points[1:]):
+            if a[2] != b[2]:
+                continue
+            if best is None or w < best[0]:
+                best = (w, (a[0] + b[0]) / 2, (a[1] + b[1]) / 2, a[2])
+        if best is None:
+            a = self.points[0]
+            return (self.widths_mm[0] if self.widths_mm else float("nan"), a[0], a[1], a[2])
+        return best
+
+    def reversed(self) -> "Route":
+        return Route(self.net, self.end, self.start, self.points[::-1], self.widths_mm[::-1],
+                     [(x, y, b, a) for (x, y, a, b) in self.vias[::-1]], self.length_mm,
+                     self.straight_mm, self.pitch_mm, list(self.assumptions), self.detour)
+
+
+@dataclass
+class NetRaster:
+    """One net's copper as a graph of raster cells over its layers."""
+
+    net: str
+    grid: Grid
+    layers: list[int]                  # board layer indices, in raster order
+    masks: np.ndarray                  # (L, ny, nx) bool
+    edt_mm: np.ndarray                 # (L, ny, nx) distance from the cell centre to the nearest non-copper cell centre
+    index: np.ndarray                  # (L, ny, nx) node id or -1
+    nodes: np.ndarray                  # (N, 3) layer slot, row, column
+    edge_a: np.ndarray
+    edge_b: np.ndarray
+    edge_len: np.ndarray               # mm (vias: their height)
+    edge_is_via: np.ndarray
+    base_cost: np.ndarray              # per node: 1 + ALPHA * pitch / edt
+    z_mm: list[float]
+
+    @property
+    def pitch_mm(self) -> float:
+        return self.grid.pitch_mm
+
+    def node_xy(self, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        n = self.nodes[nodes]
+        return self.grid.centre(n[:, 1], n[:, 2])
+
+    def nearest_node(self, layer: int, x_mm: float, y_mm: float, radius_mm: float) -> int | None:
+        """The copper cell on ``layer`` nearest to (x, y) within ``radius_mm``, or None."""
+        if layer not in self.layers:
+            return None
+        s = self.layers.index(layer)
+        j, i = self.grid.cell_of(x_mm, y_mm)
+        if self.index[s, j, i] >= 0:
+            return int(self.index[s, j, i])
+        r = max(1, int(math.ceil(radius_mm / self.pitch_mm)))
+        j0, j1 = max(j - r, 0), min(j + r + 1, self.grid.ny)
+        i0, i1 = max(i - r, 0), min(i + r + 1, self.grid.nx)
+        win = self.index[s, j0:j1, i0:i1]
+        jj, ii = np.nonzero(win >= 0)
+        if len(jj) == 0:
+            return None
+        xc, yc = self.grid.centre(jj + j0, ii + i0)
+        d = np.hypot(xc - x_mm, yc - y_mm)
+        k = int(np.argmin(d))
+        if d[k] > radius_mm + self.pitch_mm:
+            return None
+        return int(win[jj[k], ii[k]])
+
+    def costs(self, attract: np.ndarray | None = None) -> np.ndarray:
+        c = self.base_cost if attract is None else self.base_cost * attract
+        w = self.edge_len * 0.5 * (c[self.edge_a] + c[self.edge_b])
+        w[self.edge_is_via] = self.edge_len[self.edge_is_via]
+        return w
+
+
+def choose_pitch(area_mm2: float, min_width_mm: float | None = None) -> float:
+    """Raster pitch [mm]: fine enough for the copper, coarse enough to stay under MAX_CELLS."""
+    p = max(MIN_PITCH_MM, math.sqrt(max(area_mm2, 1e-9) / MAX_CELLS))
+    return float(min(p, MAX_PITCH_MM))
+
+
+def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None) -> NetRaster:
+    """The net's copper as a raster graph (cached in the context)."""
+    key = ("raster", net, pitch_mm)
+    if key in ctx.cache:
+        return ctx.cache[key]
+    copper = ctx.net_copper(net)
+    if not copper:
+        raise RouteError(f"net {net} has no copper on any layer")
+    layers = sorted(copper)
+    area = sum(g.area for g in copper.values())
+    p = pitch_mm or choose_pitch(area)
+    minx = min(g.bounds[0] for g in copper.values())
+    miny = min(g.bounds[1] for g in copper.values())
+    maxx = max(g.bounds[2] for g in copper.values())
+    maxy = max(g.bounds[3] for g in copper.values())
+    grid = Grid.covering((minx, miny, maxx, maxy), p)
+    masks = np.stack([rasterise(copper[l], grid) for l in layers])
+    edt = np.stack([ndimage.distance_transform_edt(m) * p for m in masks])
+    index = -np.ones(masks.shape, dtype=np.int64)
+    nodes = np.argwhere(masks)
+    index[masks] = np.arange(len(nodes))
+    ea, eb, el = [], [], []
+    L, ny, nx = masks.shape
+    for dj, di in _OFFSETS:
+        # cell (j, i) -> (j + dj, i + di)
+        js = slice(0, ny - dj)
+        jt = slice(dj, ny)
+        if di >= 0:
+            is_, it = slice(0, nx - di), slice(di, nx)
+        else:
+            is_, it = slice(-di, nx), slice(0, nx + di)
+        both = masks[:, js, is_] & masks[:, jt, it]
+        for mj, mi in _KNIGHT_VIA.get((dj, di), []):
+            # the two cells the knight move passes over must be copper too
+            jm = slice(mj, ny - dj + mj)
+            im = slice((0 if di >= 0 else -di) + mi, (nx - di if di >= 0 else nx) + mi)
+            both &= masks[:, jm, im]
+        a = index[:, js, is_][both]
+        b = index[:, jt, it][both]
+        ea.append(a)
+        eb.append(b)
+        el.append(np.full(len(a), p * math.hypot(dj, di)))
+    z = layer_z_mm(ctx.board)
+    via_a, via_b, via_l = [], [], []
+    tmp = NetRaster(net, grid, layers, masks, edt, index, nodes, np.zeros(0, int), np.zeros(0, int),
+                    np.zeros(0), np.zeros(0, bool), np.ones(len(nodes)), z)
+    for (x, y, drill, vlayers) in ctx.via_sites(net):
+        vl = [l for l in vlayers if l in layers]
+        ids = [tmp.nearest_node(l, x, y, max(drill / 2, p)) for l in vl]
+        pairs = [(l, n) for l, n in zip(vl, ids) if n is not None]
+        for (la, na), (lb, nb) in zip(pairs[:-1], pairs[1:]):
+            via_a.append(na)
+            via_b.append(nb)
+            via_l.append(abs(z[la] - z[lb]))
+    edge_a = np.concatenate(ea + [np.asarray(via_a, dtype=np.int64)])
+    edge_b = np.concatenate(eb + [np.asarray(via_b, dtype=np.int64)])
+    edge_len = np.concatenate(el + [np.asarray(via_l, dtype=float)])
+    is_via = np.zeros(len(edge_a), dtype=bool)
+    if via_a:
+        is_via[-len(via_a):] = True
+    e = edt[masks]
+    base = 1.0 + ALPHA * p / np.maximum(e, p)
+    out = NetRaster(net, grid, layers, masks, edt, index, nodes, edge_a, edge_b, edge_len, is_via, base, z)
+    ctx.cache[key] = out
+    return out
+
+
+def _attraction(nr: NetRaster, attract_to: BaseGeometry) -> np.ndarray:
+    """Per-node cost factor growing with the distance from ``attract_to`` (projected) [mm]."""
+    line_mask = rasterise(attract_to.buffer(nr.pitch_mm * 0.75), nr.grid)
+    if not line_mask.any():
+        return np.ones(len(nr.nodes))
+    dist = ndimage.distance_transform_edt(~line_mask) * nr.pitch_mm
+    d = dist[nr.nodes[:, 1], nr.nodes[:, 2]]
+    return 1.0 + ATTRACT_GAIN * np.minimum(d, ATTRACT_CAP_MM)
+
+
+def _simplify(xy: np.ndarray, tol: np.ndarray) -> np.ndarray:
+    """Douglas-Peucker with a per-point tolerance; returns the kept indices (sorted)."""
+    n = len(xy)
+    if n <= 2:
+        return np.arange(n)
+    keep = np.zeros(n, dtype=bool)
+    keep[0] = keep[-1] = True
+    stack = [(0, n - 1)]
+    while stack:
+        a, b = stack.pop()
+        if b - a < 2:
+            continue
+        p0, p1 = xy[a], xy[b]
+        seg = p1 - p0
+        pts = xy[a + 1:b] - p0
+        L = float(np.hypot(*seg))
+        if L < 1e-12:
+            d = np.hypot(pts[:, 0], pts[:, 1])
+        else:
+            d = np.abs(seg[0] * pts[:, 1] - seg[1] * pts[:, 0]) / L
+        excess = d - tol[a + 1:b]
+        k = int(np.argmax(excess))
+        if excess[k] > 0:
+            m = a + 1 + k
+            keep[m] = True
+            stack.append((a, m))
+            stack.append((m, b))
+    return np.nonzero(keep)[0]
+
+
+def _terminal_nodes(nr: NetRaster, pad: Pad) -> list[int]:
+    radius = max((pad.width_mm or 0.6), (pad.height_mm or 0.6), (pad.hole_mm or 0)) / 2
+    out = []
+    for layer in pad.layers:
+        n = nr.nearest_node(layer, pad.x_mm, pad.y_mm, radius)
+        if n is not None:
+            out.append(n)
+    return out
+
+
+def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
+          attract_to: BaseGeometry | None = None, pitch_mm: float | None = None) -> Route:
+    """The route through ``start.net``'s copper from ``start`` to the nearest of ``ends``.
+
+    ``attract_to``: projected geometry [mm] (the loop's other legs) that a return current follows
+    where the copper allows. Raises RouteError with the reason when there is no route.
+    """
+    if isinstance(ends, Pad):
+        ends = [ends]
+    net = start.net
+    nr = net_raster(ctx, net, pitch_mm)
+    src = _terminal_nodes(nr, start)
+    if not src:
+        raise RouteError(f"{start.terminal} lands on no copper of net {net}")
+    targets: list[tuple[int, Pad]] = []
+    for e in ends:
+        for n in _terminal_nodes(nr, e):
+            targets.append((n, e))
+    if not targets:
+        raise RouteError(f"{', '.join(e.terminal for e in ends)} land(s) on no copper of net {net}")
+    attract = _attraction(nr, attract_to) if attract_to is not None and not attract_to.is_empty else None
+    w = nr.costs(attract)
+    N = len(nr.nodes)
+    g = coo_matrix((w, (nr.edge_a, nr.edge_b)), shape=(N, N)).tocsr()
+    dist, pred, _ = dijkstra(g, directed=False, indices=src, return_predecessors=True, min_only=True)
+    tnodes = np.array([t for t, _ in targets])
+    k = int(np.argmin(dist[tnodes]))
+    if not np.isfinite(dist[tnodes[k]]):
+        raise RouteError(f"no copper of net {net} joins {start.terminal} to "
+                         f"{', '.join(sorted({e.terminal for e in ends}))}")
+    end_node, end_pad = targets[k]
+    path = [end_node]
+    while pred[path[-1]] >= 0:
+        path.append(int(pred[path[-1]]))
+    path = np.array(path[::-1])
+    return _to_route(nr, path, start, end_pad, attract_to)
+
+
+WIDTH_SEARCH_MM = 2.5   # local width is found exactly up to twice this; wider copper reads at least that
+
+
+def local_width(nr: NetRaster, nodes: np.ndarray) -> np.ndarray:
+    """Local copper width at raster nodes [mm]: the diameter of the largest disc inside the copper
+    that covers the node ("local thickness"), 2 max{edt(c) : |x - c| <= edt(c)}.
+
+    Unlike twice the distance to the edge it reads a trace's full width also where the path
+    cuts a corner or runs off the centreline.
+    """
+    slots = nr.nodes[nodes, 0]
+    jj = nr.nodes[nodes, 1]
+    ii = nr.nodes[nodes, 2]
+    p = nr.pitch_mm
+    own = nr.edt_mm[slots, jj, ii]
+    best = own.copy()
+    r_mm = min(WIDTH_SEARCH_MM, float(nr.edt_mm[np.unique(slots)].max()) if len(nodes) else 0.0)
+    R = int(math.ceil(r_mm / p))
+    if R < 1:
+        return 2 * best
+    L, ny, nx = nr.edt_mm.shape
+    padded = np.zeros((L, ny + 2 * R, nx + 2 * R))
+    padded[:, R:R + ny, R:R + nx] = nr.edt_mm
+    dj, di = np.mgrid[-R:R + 1, -R:R + 1]
+    dist = np.hypot(dj, di) * p
+    ok = dist <= r_mm
+    for a, b, d in zip(dj[ok], di[ok], dist[ok]):
+        v = padded[slots, jj + R + a, ii + R + b]
+        take = (v >= d) & (v > best)
+        best[take] = v[take]
+    return 2 * best
+
+
+def _to_route(nr: NetRaster, path: np.ndarray, start: Pad, end: Pad,
+              attract_to: BaseGeometry | None) -> Route:
+    slots = nr.nodes[path, 0]
+    xs, ys = nr.node_xy(path)
+    edt = nr.edt_mm[slots, nr.nodes[path, 1], nr.nodes[path, 2]]
+    width = local_width(nr, path)
+    xs = xs.copy()
+    ys = ys.copy()
+    xs[0], ys[0] = start.x_mm, start.y_mm
+    xs[-1], ys[-1] = end.x_mm, end.y_mm
+    points: list[tuple[float, float, int]] = []
+    widths: list[float] = []
+    vias: list[tuple[float, float, int, int]] = []
+    # runs of one layer
+    breaks = np.nonzero(np.diff(slots) != 0)[0]
+    starts = np.concatenate([[0], breaks + 1])
+    stops = np.concatenate([breaks + 1, [len(path)]])
+    for r, (a, b) in enumerate(zip(starts, stops)):
+        layer = nr.layers[int(slots[a])]
+        xy = np.column_stack([xs[a:b], ys[a:b]])
+        tol = np.maximum(0.5 * edt[a:b], 1.5 * nr.pitch_mm)
+        keep = _simplify(xy, tol) + a
+        if r > 0:
+            # the via crossing: from the previous run's last point to this run's first point
+            px, py, pl = points[-1]
+            vias.append((px, py, pl, layer))
+            widths.append(float(width[a - 1]))
+            # keep the via vertical
+            points.append((px, py, layer))
+            keep = keep[1:] if len(keep) > 1 and keep[0] == a else keep
+        for n, idx in enumerate(keep):
+            if points and points[-1][2] == layer and (n > 0 or r > 0):
+                lo = keep[n - 1] if n > 0 else a
+                seg_w = width[lo:idx + 1]
+                widths.append(float(seg_w.min()) if len(seg_w) else float(width[idx]))
+            points.append((float(xs[idx]), float(ys[idx]), layer))
+    # drop zero-length in-layer segments
+    clean_p = [points[0]]
+    clean_w: list[float] = []
+    for pnt, wv in zip(points[1:], widths):
+        q = clean_p[-1]
+        if q[2] == pnt[2] and math.hypot(pnt[0] - q[0], pnt[1] - q[1]) < 1e-9:
+            continue
+        clean_p.append(pnt)
+        clean_w.append(wv)
+    length = sum(math.hypot(b[0] - a[0], b[1] - a[1]) for a, b in zip(clean_p[:-1], clean_p[1:]) if a[2] == b[2])
+    straight = math.hypot(end.x_mm - start.x_mm, end.y_mm - start.y_mm)
+    route = Route(nr.net, start.terminal, end.terminal, clean_p, clean_w, vias, length, straight, nr.pitch_mm)
+    if attract_to is not None and not attract_to.is_empty and len(clean_p) > 1:
+        line = LineString([(x, y) for x, y, _ in clean_p])
+        # the point of the route farthest from the outgoing conductor
+        far = 0.0
+        at = (clean_p[0][0], clean_p[0][1])
+        for s in np.linspace(0, line.length, max(int(line.length / nr.pitch_mm), 2)):
+            pt = line.interpolate(s)
+            d = pt.distance(attract_to)
+            if d > far:
+                far, at = d, (pt.x, pt.y)
+        route.detour = (at[0], at[1], far)
+    return route
