@@ -1,0 +1,335 @@
+"""Stage detection on Boards built directly from Pad lists (no files: fast)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from shapely.geometry import box
+
+from loopcheck.board import Board, Outline, Pad, Stackup
+from loopcheck.errors import InputError
+from loopcheck.project import Project, StageSpec
+from loopcheck.readers.bom import read_bom
+from loopcheck.stages import component_kind, find_stages, operating_point, parse_value
+
+
+def board_from(parts: dict[str, list[tuple]], rename: dict[str, str] | None = None,
+               values: dict[str, str] | None = None) -> Board:
+    """parts: ref -> [(pin, net, x_mm, y_mm), ...]; rename maps net names (to make them meaningless)."""
+    rename = rename or {}
+    pads = [Pad(rename.get(net, net), ref, str(pin), float(x), float(y), (0,))
+            for ref, pins in parts.items() for pin, net, x, y in pins]
+    return Board("t", [], Outline(box(0, 0, 100, 100), "test"), Stackup([35e-6, 35e-6], [], 1.6e-3), pads,
+                 component_values=dict(values or {}))
+
+
+def project(**kw) -> Project:
+    return Project(path=None, fab=Path("."), name="t", **kw)
+
+
+# The LED buck of the demo boards: P-channel high side, Schottky, sense resistor in the inductor path.
+LED_BUCK = {
+    "J1": [(1, "VIN", 2, 20), (2, "GND", 2, 15)],
+    "C1": [(1, "VIN", 10, 22), (2, "GND", 10, 18)],
+    "C2": [(1, "VIN", 30, 22), (2, "GND", 30, 18)],
+    "Q1": [(1, "GATE", 14, 25), (2, "VIN", 14, 21), (3, "SW", 17, 23)],
+    "D1": [(1, "SW", 17, 17), (2, "GND", 13, 17)],
+    "L1": [(1, "SW", 22, 23), (2, "CS+", 30, 23)],
+    "RS1": [(1, "CS+", 34, 23), (2, "LED+", 37, 23)],
+    "C3": [(1, "LED+", 40, 23), (2, "GND", 40, 19)],
+    "J2": [(1, "LED+", 46, 23), (2, "GND", 46, 18)],
+    "U1": [(1, "VIN", 20, 40), (2, "EN", 20, 39), (3, "CS+", 20, 38), (4, "LED+", 20, 37),
+           (5, "GND", 25, 37), (6, "GATE", 25, 38), (7, "VCC", 25, 39), (8, "GND", 25, 40)],
+    "C4": [(1, "VCC", 28, 39), (2, "GND", 28, 41)],
+    "R1": [(1, "VIN", 15, 39), (2, "EN", 17, 39)],
+    "R2": [(1, "EN", 17, 36), (2, "GND", 17, 34)],
+}
+
+
+def roles(stage):
+    return {r.name: r.ref for r in stage.roles if r.name not in ("input_cap", "output_cap")}
+
+
+def test_kinds_and_values():
+    assert component_kind("RS1", 2) == "resistor"
+    assert component_kind("IC3", 8) == "ic"
+    assert component_kind("CN2", 2) == "connector"
+    assert component_kind("Q4", 3) == "transistor"
+    assert component_kind("XYZ1", 16) == "ic"
+    assert parse_value("0R1") == pytest.approx(0.1)
+    assert parse_value("100m") == pytest.approx(0.1)
+    assert parse_value("4u7") == pytest.approx(4.7e-6)
+    assert parse_value("10uF") == pytest.approx(10e-6)
+    assert parse_value("1k5") == pytest.approx(1500)
+    assert parse_value("0.068") == pytest.approx(0.068)
+    assert parse_value("DNP") is None
+
+
+def test_led_buck_discrete():
+    search = find_stages(board_from(LED_BUCK, values={"RS1": "0.1"}), project())
+    assert len(search.stages) == 1
+    st = search.stages[0]
+    assert (st.topology, st.switching) == ("buck", "discrete")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == ("SW", "VIN", "LED+", "GND")
+    assert roles(st) == {"inductor": "L1", "switch": "Q1", "rectifier": "D1", "controller": "U1",
+                         "sense_resistor": "RS1", "controller_decoupling": "C4"}
+    # input caps ranked by straight distance to the switch's source: C1 (4 mm) before C2
+    assert [r.ref for r in st.roles_named("input_cap")] == ["C1", "C2"]
+    assert [r.ref for r in st.roles_named("output_cap")] == ["C3"]
+    q = st.role("switch")
+    assert q.pins == {"gate": ("Q1.1",), "source": ("Q1.2",), "drain": ("Q1.3",)}   # P-channel high side
+    d = st.role("rectifier")
+    assert d.pins == {"cathode": ("D1.1",), "anode": ("D1.2",)}
+    assert st.role("sense_resistor").terminals == ("RS1.1", "RS1.2")
+    assert st.role("sense_resistor").pins == {"sense+": ("U1.3",), "sense-": ("U1.4",)}
+    assert st.role("controller").pins["gate"] == ("U1.6",)
+    assert st.role("controller_decoupling").pins == {"supply": ("U1.7",)}
+    assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "C1.2")
+    assert st.missing == []
+    for r in st.roles:
+        assert 0 < r.confidence <= 1 and r.evidence
+    # the enable divider R1 (VIN-EN) also joins two controller pins but is not in the power path
+    assert st.operating_point.vsense_v == pytest.approx(0.1 * 1.0)
+    assert "RS1" in st.operating_point.sources["vsense_v"]
+
+
+def test_meaningless_net_names():
+    nets = sorted({n for pins in LED_BUCK.values() for _, n, _, _ in pins})
+    rename = {n: f"N{i + 1:03d}" for i, n in enumerate(nets)}
+    st = find_stages(board_from(LED_BUCK, rename), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck", "discrete")
+    assert st.switch_node == rename["SW"] and st.ground_net == rename["GND"]
+    assert st.input_net == rename["VIN"] and st.output_net == rename["LED+"]
+    assert roles(st) == {"inductor": "L1", "switch": "Q1", "rectifier": "D1", "controller": "U1",
+                         "sense_resistor": "RS1", "controller_decoupling": "C4"}
+    assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "C1.2")
+
+
+SYNC_BUCK = {
+    "J1": [(1, "12V", 0, 10), (2, "0V", 0, 5)],
+    "C1": [(1, "12V", 8, 12), (2, "0V", 8, 8)],
+    "C2": [(1, "12V", 20, 12), (2, "0V", 20, 8)],
+    "M1": [(1, "GH", 10, 16), (2, "PH", 12, 16), (3, "12V", 12, 12)],     # N-channel high side: drain on VIN
+    "M2": [(1, "GL", 10, 4), (2, "0V", 12, 4), (3, "PH", 12, 8)],
+    "L1": [(1, "PH", 16, 14), (2, "5V", 24, 14)],
+    "C3": [(1, "5V", 26, 14), (2, "0V", 26, 10)],
+    "C4": [(1, "5V", 28, 14), (2, "0V", 28, 10)],
+    "CB": [(1, "BST", 14, 20), (2, "PH", 14, 18)],
+    "U1": [(1, "12V", 5, 30), (2, "GH", 6, 30), (3, "PH", 7, 30), (4, "BST", 8, 30), (5, "GL", 9, 30),
+           (6, "0V", 10, 30), (7, "FB", 11, 30), (8, "VDRV", 12, 30)],
+    "C5": [(1, "VDRV", 13, 32), (2, "0V", 13, 34)],
+    "R1": [(1, "5V", 20, 30), (2, "FB", 18, 30)],
+    "R2": [(1, "FB", 18, 28), (2, "0V", 18, 26)],
+    "J2": [(1, "5V", 30, 14), (2, "0V", 30, 10)],
+}
+
+
+def test_synchronous_buck():
+    st = find_stages(board_from(SYNC_BUCK), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck", "synchronous")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == ("PH", "12V", "5V", "0V")
+    assert roles(st) == {"inductor": "L1", "switch": "M1", "rectifier": "M2", "controller": "U1",
+                         "controller_decoupling": "C5"}
+    hs, ls = st.role("switch"), st.role("rectifier")
+    assert hs.pins == {"gate": ("M1.1",), "source": ("M1.2",), "drain": ("M1.3",)}   # bootstrap: N-channel
+    assert ls.pins == {"gate": ("M2.1",), "source": ("M2.2",), "drain": ("M2.3",)}
+    assert st.hot_loop == ("C1.1", "M1.3", "M1.2", "M2.3", "M2.2", "C1.2")
+    assert st.role("sense_resistor") is None
+    # topology from names: 5V/12V are not names it knows; the IC-pin evidence or the stated assumption
+    assert st.confidence <= 0.9
+
+
+def test_synchronous_pair_topology_from_operating_point():
+    board = board_from(SYNC_BUCK)
+    st = find_stages(board, project(operating_point={"vin_v": 5, "vout_v": 12})).stages[0]
+    assert st.topology == "boost"          # the same netlist read as a boost from 5 V to 12 V
+    assert st.input_net == "5V" and st.output_net == "12V"
+    assert st.role("switch").ref == "M2" and st.role("rectifier").ref == "M1"
+    assert st.hot_loop[0] in ("C1.1", "C2.1")     # output capacitor of the boost
+
+
+INTEGRATED = {
+    "J1": [(1, "VIN", 0, 10), (2, "GND", 0, 5)],
+    "C1": [(1, "VIN", 6, 12), (2, "GND", 6, 9)],
+    "U1": [(1, "VIN", 8, 12), (2, "VIN", 8, 11), (3, "LX", 8, 10), (4, "LX", 8, 9), (5, "GND", 10, 9),
+           (6, "GND", 10, 10), (7, "FB", 10, 11), (8, "BST", 10, 12)],
+    "C2": [(1, "BST", 12, 13), (2, "LX", 12, 11)],
+    "L1": [(1, "LX", 14, 10), (2, "VOUT", 20, 10)],
+    "C3": [(1, "VOUT", 22, 10), (2, "GND", 22, 6)],
+    "R1": [(1, "VOUT", 18, 14), (2, "FB", 16, 14)],
+    "R2": [(1, "FB", 16, 16), (2, "GND", 16, 18)],
+}
+
+
+def test_integrated_buck():
+    st = find_stages(board_from(INTEGRATED), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck", "integrated")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == ("LX", "VIN", "VOUT", "GND")
+    assert st.role("switch").ref == "U1" and st.role("controller").ref == "U1"
+    assert st.role("controller").pins["vin"] == ("U1.1", "U1.2")
+    # cap to the IC's VIN pin nearest it, the IC's ground pin nearest its return, back
+    assert st.hot_loop == ("C1.1", "U1.1", "U1.5", "C1.2")
+
+
+def test_integrated_switch_with_external_diode():
+    parts = {k: v for k, v in INTEGRATED.items()}
+    parts["D1"] = [("K", "LX", 12, 8), ("A", "GND", 12, 5)]
+    st = find_stages(board_from(parts), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck", "integrated")
+    assert st.role("rectifier").ref == "D1"
+    assert st.role("rectifier").pins == {"cathode": ("D1.K",), "anode": ("D1.A",)}
+    assert st.hot_loop[:2] == ("C1.1", "U1.1") and st.hot_loop[-3:] == ("D1.K", "D1.A", "C1.2")
+
+
+BOOST = {
+    "J1": [(1, "VBAT", 0, 10), (2, "GND", 0, 5)],
+    "C1": [(1, "VBAT", 4, 12), (2, "GND", 4, 8)],
+    "L1": [(1, "VBAT", 6, 12), (2, "SWB", 12, 12)],
+    "Q1": [(1, "G1", 12, 6), (2, "CS", 14, 6), (3, "SWB", 14, 9)],         # N-channel low side, sense at source
+    "RS1": [(1, "CS", 16, 4), (2, "GND", 18, 4)],
+    "D1": [(1, "HV", 18, 12), (2, "SWB", 15, 12)],                          # pin 1 cathode on the output
+    "C2": [(1, "HV", 22, 12), (2, "GND", 22, 8)],
+    "C3": [(1, "HV", 26, 12), (2, "GND", 26, 8)],
+    "U1": [(1, "VBAT", 5, 30), (2, "G1", 6, 30), (3, "CS", 7, 30), (4, "GND", 8, 30), (5, "FB", 9, 30),
+           (6, "COMP", 10, 30)],
+    "C4": [(1, "COMP", 11, 32), (2, "GND", 11, 34)],
+    "R1": [(1, "HV", 20, 30), (2, "FB", 18, 30)],
+    "R2": [(1, "FB", 18, 28), (2, "GND", 18, 26)],
+}
+
+
+def test_boost_discrete_with_source_sense():
+    st = find_stages(board_from(BOOST, values={"RS1": "50m", "C4": "10nF"}), project()).stages[0]
+    assert (st.topology, st.switching) == ("boost", "discrete")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == ("SWB", "VBAT", "HV", "GND")
+    assert st.role("switch").ref == "Q1" and st.role("rectifier").ref == "D1"
+    assert st.role("switch").pins == {"gate": ("Q1.1",), "source": ("Q1.2",), "drain": ("Q1.3",)}
+    assert st.role("rectifier").pins == {"cathode": ("D1.1",), "anode": ("D1.2",)}
+    assert st.role("sense_resistor").ref == "RS1"
+    # output cap + -> rectifier -> switch -> sense resistor -> ground -> cap -
+    assert st.hot_loop == ("C2.1", "D1.1", "D1.2", "Q1.3", "Q1.2", "RS1.1", "RS1.2", "C2.2")
+    assert [r.ref for r in st.roles_named("input_cap")] == ["C1"]
+    assert [r.ref for r in st.roles_named("output_cap")] == ["C2", "C3"]
+
+
+INVERTING = {
+    "J1": [(1, "N1", 0, 10), (2, "N2", 0, 5)],
+    "C1": [(1, "N1", 4, 12), (2, "N2", 4, 8)],
+    "Q1": [(1, "N5", 6, 16), (2, "N1", 6, 12), (3, "N3", 10, 12)],
+    "L1": [(1, "N3", 12, 12), (2, "N2", 12, 6)],
+    "D1": [(1, "N3", 14, 12), (2, "N4", 18, 12)],
+    "C2": [(1, "N4", 20, 12), (2, "N2", 20, 8)],
+    "U1": [(1, "N1", 5, 30), (2, "N5", 6, 30), (3, "N2", 7, 30), (4, "N6", 8, 30), (5, "N7", 9, 30)],
+    "C3": [(1, "N7", 11, 32), (2, "N2", 11, 34)],
+}
+
+
+def test_inverting_buck_boost():
+    st = find_stages(board_from(INVERTING), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck-boost", "discrete")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == ("N3", "N1", "N4", "N2")
+    assert st.role("switch").ref == "Q1" and st.role("rectifier").ref == "D1"
+    assert st.role("rectifier").pins == {"cathode": ("D1.1",), "anode": ("D1.2",)}
+    assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "C2.1", "C2.2", "C1.2")
+    assert st.role("controller_decoupling").ref == "C3"
+
+
+def test_missing_input_cap_is_reported():
+    parts = {k: v for k, v in LED_BUCK.items() if k not in ("C1", "C2")}
+    search = find_stages(board_from(parts), project())
+    st = search.stages[0]
+    assert st.roles_named("input_cap") == []
+    assert st.hot_loop == ()
+    assert any("input capacitor" in m for m in st.missing)
+    assert any("hot loop" in m for m in st.missing)
+    assert any("missing input capacitor" in m for m in search.messages)
+
+
+def test_missing_controller_is_reported():
+    parts = {k: v for k, v in LED_BUCK.items() if k not in ("U1",)}
+    st = find_stages(board_from(parts), project()).stages[0]
+    assert st.role("controller") is None and st.role("sense_resistor") is None
+    assert any(m.startswith("controller") for m in st.missing)
+    assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "C1.2")   # the loop needs no controller
+
+
+def test_no_power_stage():
+    parts = {"U1": [(i, f"N{i}", i, 0) for i in range(1, 9)], "C1": [(1, "N1", 0, 2), (2, "N2", 1, 2)],
+             "R1": [(1, "N3", 0, 3), (2, "N4", 1, 3)], "L1": [(1, "N1", 5, 5), (2, "N9", 6, 5)]}
+    search = find_stages(board_from(parts), project())
+    assert search.stages == []
+    assert any("no power stage found" in m for m in search.messages)
+
+
+def test_project_names_roles():
+    spec = StageSpec("led", roles={"input_caps": ["C2", "C1"], "sense_resistor": "RS1", "topology": "buck"},
+                     operating_point={"iout_a": 1.5})
+    st = find_stages(board_from(LED_BUCK), project(stages=[spec], operating_point={"vin_v": [20, 40]})).stages[0]
+    assert st.name == "led"
+    assert [r.ref for r in st.roles_named("input_cap")] == ["C2", "C1"]
+    assert st.role("input_cap").confidence == 1.0 and st.role("input_cap").evidence == "named in loopcheck.toml"
+    assert st.hot_loop[0] == "C2.1"
+    op = st.operating_point
+    assert (op.vin_min_v, op.vin_max_v, op.iout_a) == (20, 40, 1.5)
+    assert op.sources["iout_a"] == "loopcheck.toml [stages.led.operating_point]"
+    assert op.sources["vin_min_v"] == "loopcheck.toml [operating_point]"
+    assert op.sources["fsw_hz"] == "default"
+
+
+def test_project_corrects_ground_and_decoupling():
+    spec = StageSpec("stage1", roles={"controller_decoupling": "C3"})
+    st = find_stages(board_from(LED_BUCK), project(stages=[spec])).stages[0]
+    assert st.role("controller_decoupling").ref == "C3"
+    assert [r.ref for r in st.roles_named("output_cap")] == []   # C3 is taken: not also an output cap?
+    
+
+@pytest.mark.parametrize("roles_, key", [
+    ({"switch": "Q1", "rectifier": "Q1"}, "stages.s.rectifier"),
+    ({"input_caps": ["C1"], "output_caps": ["C1"]}, "stages.s.output_caps"),
+    ({"inductor": "L9"}, "stages.s.inductor"),
+    ({"inductor": "L1", "switch_node": "VIN"}, "stages.s.switch_node"),
+    ({"switch_node": "NOPE"}, "stages.s.switch_node"),
+    ({"topology": "flyback"}, "stages.s.topology"),
+    ({"colour": "red"}, "stages.s.colour"),
+])
+def test_contradictory_roles(roles_, key):
+    with pytest.raises(InputError) as err:
+        find_stages(board_from(LED_BUCK), project(stages=[StageSpec("s", roles=roles_)]))
+    assert key in str(err.value)
+
+
+def test_operating_point_defaults_and_errors():
+    op = operating_point(project(), "stage1")
+    assert all(v == "default" for v in op.sources.values())
+    op = operating_point(project(operating_point={"edge_ns": 10, "switch_capacitance_pf": 300}), "x")
+    assert op.edge_s == pytest.approx(10e-9) and op.switch_capacitance_f == pytest.approx(300e-12)
+    for bad in ({"iout_a": "lots"}, {"vin_v": [40, 20]}, {"fsw_hz": -1}, {"speed": 3}):
+        with pytest.raises(InputError):
+            operating_point(project(operating_point=bad), "x")
+
+
+def test_values_from_bom_file(tmp_path):
+    bom = tmp_path / "bom.csv"
+    bom.write_text('Designator;Comment;Footprint\n"C1, C2";4.7uF;1210\nRS1;0R1;2512\n')
+    assert read_bom(bom) == {"C1": "4.7uF", "C2": "4.7uF", "RS1": "0R1"}
+    board = board_from(LED_BUCK)
+    st = find_stages(board, Project(path=None, fab=tmp_path, name="t", files={"bom.csv": "bom"},
+                                    operating_point={"iout_a": 1.5})).stages[0]
+    assert st.operating_point.vsense_v == pytest.approx(0.15)
+
+
+@pytest.mark.parametrize("text", ["Ref,Value\nC1\n", "Part Number,Qty\nX,1\n", "Ref,Value\n1C,4u7\n",
+                                  "Ref,Value\nC1,1u\nC1,2u\n"])
+def test_bad_bom(tmp_path, text):
+    p = tmp_path / "b.csv"
+    p.write_text(text)
+    with pytest.raises(InputError) as err:
+        read_bom(p)
+    assert "b.csv" in str(err.value)
+
+
+def test_placement_csv_headers(tmp_path):
+    p = tmp_path / "pos.csv"
+    p.write_text("# placement\nRefDes,Val,PosX,PosY,Rot\nU1,CTRL,1,2,0\nL1,22uH,3,4,90\n")
+    assert read_bom(p) == {"U1": "CTRL", "L1": "22uH"}
