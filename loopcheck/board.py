@@ -108,6 +108,8 @@ class Board:
     component_values: dict[str, str] = field(default_factory=dict)   # ref -> value ("10uF")
     assumptions: list[str] = field(default_factory=list)
     source: str = ""                         # the folder, zip or project file given
+    # each fab file read or set aside -> its role and how that was decided (for inspect)
+    inputs: dict[str, str] = field(default_factory=dict)
 
     @cached_property
     def nets(self) -> dict[str, list[Pad]]:
