@@ -1,0 +1,105 @@
+"""Small helpers shared by the measurement modules: building Measurements, reading part values."""
+
+from __future__ import annotations
+
+import re
+from typing import Any
+
+from ..findings import Drawing, Measurement
+from ..powerstage import OperatingPoint, Stage
+from . import QUANTITIES, base_quantity
+
+
+def measurement(quantity: str, value: float | None, stage: Stage | str | None, **kw: Any) -> Measurement:
+    """A Measurement with unit and label from ``QUANTITIES`` (path.<name>.<what> takes path.<what>'s)."""
+    unit, label = QUANTITIES[base_quantity(quantity)]
+    if quantity.startswith("path.") and quantity.count(".") == 2:
+        label = f"{quantity.split('.')[1].replace('_', ' ')} path: {label}"
+    name = stage.name if isinstance(stage, Stage) else stage
+    kw.setdefault("assumptions", ())
+    kw["assumptions"] = tuple(kw["assumptions"])
+    return Measurement(quantity=quantity, value=None if value is None else float(value), unit=unit,
+                       label=label, stage=name, **kw)
+
+
+def not_made(quantity: str, stage: Stage | str | None, reason: str, **kw: Any) -> Measurement:
+    return measurement(quantity, None, stage, not_made=reason, **kw)
+
+
+def polyline(points, layer: str | None = None) -> Drawing:
+    return Drawing("polyline", [(float(x), float(y)) for x, y, *_ in points], layer)
+
+
+def polygon(points, layer: str | None = None) -> Drawing:
+    return Drawing("polygon", [(float(x), float(y)) for x, y, *_ in points], layer)
+
+
+def point(x: float, y: float, layer: str | None = None) -> Drawing:
+    return Drawing("point", [(float(x), float(y))], layer)
+
+
+_PREFIX = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "m": 1e-3, "k": 1e3, "K": 1e3,
+           "M": 1e6, "R": 1.0, "r": 1.0, "": 1.0}
+
+
+def parse_value(text: str | float | None) -> float | None:
+    """A part value in SI units: "0.068", "68m", "68mR", "0R068", "10uF", "4u7", "2.2k" -> float; None if unreadable."""
+    if text is None:
+        return None
+    if isinstance(text, (int, float)):
+        return float(text)
+    s = str(text).strip().replace(" ", "").replace("Ω", "").replace("ohm", "").replace("Ohm", "")
+    s = re.sub(r"(?i)(F|H|V|A)$", "", s)
+    m = re.fullmatch(r"([0-9]*\.?[0-9]+(?:[eE][-+]?[0-9]+)?)([fpnuµmkKMRr]?)", s)
+    if m:
+        return float(m.group(1)) * _PREFIX[m.group(2)]
+    m = re.fullmatch(r"([0-9]*)([fpnuµmkKMRr])([0-9]+)", s)     # 4u7, 0R068, 2k2
+    if m:
+        return float(f"{m.group(1) or 0}.{m.group(3)}") * _PREFIX[m.group(2)]
+    return None
+
+
+def duty_cycle(stage: Stage, op: OperatingPoint, vin_v: float) -> tuple[float, str | None]:
+    """The stage's duty cycle at ``vin_v``, and an assumption when vout is not known."""
+    vout = op.vout_v
+    if vout is None or vin_v <= 0:
+        return 0.5, "output voltage not known: duty cycle taken as 0.5"
+    if stage.topology == "boost":
+        d = 1.0 - vin_v / vout if vout > vin_v else 0.0
+    elif stage.topology == "buck-boost":
+        d = abs(vout) / (abs(vout) + vin_v)
+    else:
+        d = min(vout / vin_v, 1.0)
+    return float(min(max(d, 0.0), 0.98)), None
+
+
+def switch_current(stage: Stage, op: OperatingPoint) -> tuple[float, float, list[str]]:
+    """(peak switch current [A], switched voltage [V], assumptions) at the operating point.
+
+    Buck: the switch turns off the inductor's peak current iout (1 + r/2) against vin_max;
+    boost: iout / (1 - D) (1 + r/2) against vout; buck-boost: iout / (1 - D) (1 + r/2) against vin + vout.
+    """
+    notes: list[str] = []
+    r = op.ripple_ratio
+    d, note = duty_cycle(stage, op, op.vin_min_v if stage.topology != "buck" else op.vin_max_v)
+    if note:
+        notes.append(note)
+    if stage.topology == "boost":
+        i_l = op.iout_a / max(1 - d, 0.05)
+        v = op.vout_v if op.vout_v else op.vin_max_v
+    elif stage.topology == "buck-boost":
+        i_l = op.iout_a / max(1 - d, 0.05)
+        v = op.vin_max_v + abs(op.vout_v or op.vin_max_v)
+    else:
+        i_l = op.iout_a
+        v = op.vin_max_v
+    return i_l * (1 + r / 2), v, notes
+
+
+def op_assumptions(op: OperatingPoint, names: tuple[str, ...]) -> list[str]:
+    """Operating-point values used by a measurement, marked where they are defaults."""
+    out = []
+    for n in names:
+        src = op.sources.get(n, "default")
+        out.append(f"{n} = {getattr(op, n)!r} ({src})")
+    return out

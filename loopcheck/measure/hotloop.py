@@ -1,0 +1,371 @@
+"""The switching (hot) loop: its path through the copper, enclosed area, partial inductance, and
+what that inductance does at the switching edges (overshoot, ringing, energy per edge).
+
+The loop is the stage's ordered terminal list, closed. Between two terminals of one part the
+current passes through the part (a straight conductor between the pad centres, as wide as the
+smaller pad); between two terminals of one net it follows a route through the copper
+(``routes.route``), attracted towards the loop's other legs because at the edge rates the return
+current takes the path of least inductance, under the conductor that carries it out.
+
+Inductance: the partial-inductance sum over the loop's straight segments (Ruehli 1972; Paul,
+"Inductance: Loop and Partial", 2010), each segment a flat strip of its local width and its
+layer's copper thickness (``physics.inductance.polyline_loop_inductance``). Where a solid plane
+that is not part of the loop lies on the adjacent layer under a segment, the plane carries an
+image current (a perfect-conductor image at the plane, valid above the frequency where the plane
+is thicker than a skin depth, a few MHz for 1 oz copper): the mutual inductance with the mirrored
+segments is subtracted, which reproduces the microstrip inductance per length of a trace over a
+plane.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from shapely.geometry import LineString, Polygon
+from shapely.ops import polygonize, unary_union
+
+from ..board import Pad
+from ..findings import Measurement
+from ..powerstage import Stage
+from .common import measurement, not_made, op_assumptions, point, polygon, polyline, switch_current
+from .netcopper import MeasureContext, dielectric_between, layer_thickness_m, layer_z_mm
+from .routes import DETOUR_MM, Route, RouteError, route
+
+PLANE_COVERAGE = 0.9      # share of a segment's footprint the adjacent copper must cover to count as a plane
+MAX_STRIP_WIDTH_MM = 5.0  # a plane leg's current at the edge rates spreads little beyond the conductor it follows
+
+
+@dataclass
+class LoopPath:
+    """The closed hot loop as 3D segments (mm), with the routes it is made of."""
+
+    terminals: tuple[str, ...]
+    points: list[tuple[float, float, int]]       # not repeated: the last joins the first
+    widths_mm: list[float]                       # per segment, the closing one last
+    kinds: list[str]                             # per segment: "copper", "via", "part"
+    routes: list[Route] = field(default_factory=list)
+    parts: list[tuple[str, str]] = field(default_factory=list)   # (from, to) through a part
+    assumptions: list[str] = field(default_factory=list)
+    problems: list[str] = field(default_factory=list)
+
+    @property
+    def vias(self) -> list[tuple[float, float, int, int]]:
+        return [v for r in self.routes for v in r.vias]
+
+    def projected(self) -> list[tuple[float, float]]:
+        return [(x, y) for x, y, _ in self.points]
+
+
+def enclosed_area(xy: list[tuple[float, float]]) -> tuple[float, object]:
+    """Projected area [mm^2] enclosed by a closed polyline, and the region as a geometry.
+
+    Self-crossing paths are split into their faces (polygonize of the noded path), so a figure
+    eight counts both lobes; a path that goes out and back along itself encloses nothing.
+    """
+    if len(xy) < 3:
+        return 0.0, Polygon()
+    ring = LineString(list(xy) + [xy[0]])
+    faces = list(polygonize(unary_union(ring)))
+    if not faces:
+        return 0.0, Polygon()
+    region = unary_union(faces).buffer(0)
+    return float(region.area), region
+
+
+def _pad(ctx: MeasureContext, term: str) -> Pad | None:
+    return ctx.board.terminals.get(term)
+
+
+def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
+    """Trace the closed loop through its terminals. Raises RouteError with the reason."""
+    board = ctx.board
+    pads = []
+    for t in terminals:
+        p = _pad(ctx, t)
+        if p is None:
+            raise RouteError(f"terminal {t} is not in the netlist")
+        pads.append(p)
+    n = len(pads)
+    if n < 3:
+        raise RouteError(f"a loop needs at least three terminals, got {n}")
+    legs: list[tuple[int, str]] = []          # (index of the leg's first terminal, "net"|"part")
+    for k in range(n):
+        a, b = pads[k], pads[(k + 1) % n]
+        if a.ref and a.ref == b.ref:
+            legs.append((k, "part"))
+        elif a.net == b.net:
+            legs.append((k, "net"))
+        else:
+            legs.append((k, "gap"))
+    notes: list[str] = []
+    # pass 1: plain routes; pass 2: each net leg attracted to the others (return under outgoing)
+    plain: dict[int, Route] = {}
+    for k, kind in legs:
+        if kind == "net":
+            plain[k] = route(ctx, pads[k], pads[(k + 1) % n])
+
+    def leg_line(k: int, kind: str, routes: dict[int, Route]):
+        if kind == "net":
+            return LineString(routes[k].xy) if len(routes[k].points) > 1 else None
+        a, b = pads[k], pads[(k + 1) % n]
+        return LineString([(a.x_mm, a.y_mm), (b.x_mm, b.y_mm)])
+
+    final: dict[int, Route] = {}
+    for k, kind in legs:
+        if kind != "net":
+            continue
+        others = [leg_line(j, kd, plain) for j, kd in legs if j != k]
+        others = [o for o in others if o is not None and o.length > 0]
+        attract = unary_union(others) if others else None
+        r = route(ctx, pads[k], pads[(k + 1) % n], attract_to=attract)
+        # keep the attracted route only where it lowers the loop (it runs nearer the other legs)
+        final[k] = r
+        if r.detour and r.detour[2] > DETOUR_MM and attract is not None:
+            cover = _copper_under(ctx, r, attract)
+            if cover is not None and cover > 0.5:
+                notes.append(
+                    f"a gap in the {r.net} copper forces the return current from {r.start} to {r.end} away "
+                    f"from the conductor it would run under, by {r.detour[2]:.1f} mm near "
+                    f"({r.detour[0]:.1f}, {r.detour[1]:.1f})")
+    points: list[tuple[float, float, int]] = []
+    widths: list[float] = []
+    kinds: list[str] = []
+    parts: list[tuple[str, str]] = []
+    def kind_of(p, q) -> str:
+        return "via" if p[2] != q[2] and p[:2] == q[:2] else "copper"
+
+    for k, kind in legs:
+        a, b = pads[k], pads[(k + 1) % n]
+        if kind == "net":
+            r = final[k]
+            pts = list(r.points)
+            ws = list(r.widths_mm)
+            ks = [kind_of(p, q) for p, q in zip(pts[:-1], pts[1:])]
+            if points and points[-1] == pts[0]:
+                pts = pts[1:]
+            elif points:
+                # the previous leg ended on another layer of a through-hole pad: a part lead
+                ws = [_part_width(a)] + ws
+                ks = ["part"] + ks
+            points.extend(pts)
+            widths.extend(ws)
+            kinds.extend(ks)
+        else:
+            # through the part (or a gap between two terminals that share neither a net nor a part)
+            if kind == "gap":
+                notes.append(f"{a.terminal} and {b.terminal} share neither a net nor a part: joined by a "
+                             f"straight line")
+            else:
+                parts.append((a.terminal, b.terminal))
+            if not points:
+                points.append((a.x_mm, a.y_mm, _layer_of(a)))
+            layer = points[-1][2] if points[-1][2] in b.layers else _layer_of(b)
+            points.append((b.x_mm, b.y_mm, layer))
+            widths.append(_part_width(a, b))
+            kinds.append("part")
+    # the loop is closed: the repeated first point goes, its segment becomes the closing one
+    if len(points) > 1 and points[-1] == points[0]:
+        points.pop()
+    else:
+        widths.append(_part_width(pads[0]))
+        kinds.append("part")
+    if parts:
+        notes.append("current through a part is taken as a straight conductor between its pad centres, "
+                     "as wide as its smaller pad (the package's own inductance is not included)")
+    return LoopPath(tuple(terminals), points, widths, kinds, list(final.values()), parts, notes)
+
+
+def _layer_of(p: Pad) -> int:
+    return p.layers[0] if p.layers else 0
+
+
+def _part_width(a: Pad, b: Pad | None = None) -> float:
+    """Width [mm] of the strip that stands in for a part: its smaller pad dimension (0.6 mm unknown)."""
+    def size(p: Pad) -> float:
+        dims = [x for x in (p.width_mm, p.height_mm) if x] or [x for x in (p.hole_mm,) if x]
+        return min(dims) if dims else 0.6
+    return min(size(a), size(b)) if b is not None else size(a)
+
+
+def _copper_under(ctx: MeasureContext, r: Route, attract) -> float | None:
+    """Share of the conductor a return leg should follow that lies over the leg's own net copper
+    (on the layers the leg uses): near 1 with a detour means a gap forced it."""
+    layers = {p[2] for p in r.points}
+    cu = unary_union([g for l, g in ctx.net_copper(r.net).items() if l in layers])
+    if cu.is_empty:
+        return None
+    near = attract.intersection(LineString(r.xy).buffer(max(r.straight_mm, 1.0)))
+    if near.is_empty or near.length == 0:
+        return None
+    return float(near.intersection(cu).length / near.length)
+
+
+def _plane_images(ctx: MeasureContext, loop: LoopPath, z_mm: list[float]) -> list[tuple[int, float, int]]:
+    """For each copper segment over a solid plane that is not the loop's own copper there:
+    (segment index, plane height z [mm], plane layer)."""
+    board = ctx.board
+    out = []
+    n = len(loop.points)
+    own_by_layer: dict[int, list] = {}
+    for i in range(n):
+        a, b = loop.points[i], loop.points[(i + 1) % n]
+        if a[2] == b[2] and loop.kinds[i] == "copper":
+            own_by_layer.setdefault(a[2], []).append(LineString([a[:2], b[:2]]).buffer(loop.widths_mm[i] / 2 + 0.3))
+    own = {l: unary_union(g) for l, g in own_by_layer.items()}
+    plane_cache: dict[int, object] = {}
+    for i in range(n):
+        a, b = loop.points[i], loop.points[(i + 1) % n]
+        if a[2] != b[2] or loop.kinds[i] == "via":
+            continue
+        k = a[2]
+        seg = LineString([a[:2], b[:2]])
+        if seg.length == 0:
+            continue
+        best = None
+        for m in (k - 1, k + 1):
+            if m < 0 or m >= len(board.layers):
+                continue
+            h_m, _ = dielectric_between(board, k, m)
+            foot = seg.buffer(loop.widths_mm[i] / 2 + h_m * 1e3, cap_style="flat")
+            if m not in plane_cache:
+                g = board.layers[m].geometry
+                if m in own:
+                    g = g.difference(own[m].buffer(2 * h_m * 1e3))
+                plane_cache[m] = g
+            cover = foot.intersection(plane_cache[m]).area / foot.area if foot.area > 0 else 0.0
+            if cover >= PLANE_COVERAGE and (best is None or h_m < best[0]):
+                best = (h_m, m)
+        if best is not None:
+            out.append((i, z_mm[best[1]], best[1]))
+    return out
+
+
+def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[str], dict]:
+    """Partial-inductance estimate of the closed loop [H], assumptions, detail numbers."""
+    from ..physics import inductance
+
+    board = ctx.board
+    z = layer_z_mm(board)
+    n = len(loop.points)
+    pts = np.array([(x, y, z[l]) for x, y, l in loop.points]) * 1e-3
+    starts = pts
+    ends = np.roll(pts, -1, axis=0)
+    gmd = np.zeros(n)
+    for i in range(n):
+        a = loop.points[i]
+        L = float(np.linalg.norm(ends[i] - starts[i])) * 1e3
+        w = loop.widths_mm[i]
+        if loop.kinds[i] == "via":
+            gmd[i] = 0.5 * w * 1e-3          # a round barrel: its radius
+            continue
+        w = min(w, MAX_STRIP_WIDTH_MM, max(L, 0.1))
+        gmd[i] = float(inductance.strip_equivalent_radius(w * 1e-3, layer_thickness_m(board, a[2])))
+    seg_len = np.linalg.norm(ends - starts, axis=1)
+    keep = seg_len > 1e-9
+    mat = inductance.partial_inductance_matrix(starts[keep], ends[keep], gmd[keep])
+    L_free = float(mat.sum())
+    notes = []
+    images = [(j, zp, m) for j, zp, m in _plane_images(ctx, loop, z) if keep[j]]
+    L_img = 0.0
+    if images:
+        # mutual inductance with the image loop: each imaged segment mirrored in its plane,
+        # carrying the opposite current (so its mutual with the loop is subtracted)
+        idx = np.nonzero(keep)[0]
+        ai, bj = np.meshgrid(idx, [j for j, _, _ in images], indexing="ij")
+        zp = np.array([zp for _, zp, _ in images]) * 1e-3
+        zp_b = np.broadcast_to(zp[None, :], ai.shape)
+        b0 = starts[bj].copy()
+        b1 = ends[bj].copy()
+        b0[..., 2] = 2 * zp_b - b0[..., 2]
+        b1[..., 2] = 2 * zp_b - b1[..., 2]
+        g = 0.5 * (gmd[ai] + gmd[bj])
+        m = inductance.segment_mutual_inductance(starts[ai].reshape(-1, 3), ends[ai].reshape(-1, 3),
+                                                 b0.reshape(-1, 3), b1.reshape(-1, 3), g.reshape(-1))
+        L_img = float(np.sum(m))
+        layers = sorted({board.layers[m_].name for _, _, m_ in images})
+        notes.append(f"{len(images)} of {n} loop segments run over a solid plane ({', '.join(layers)}): "
+                     f"image currents in the plane counted (perfect-conductor image)")
+    L = L_free - L_img
+    if L <= 0:
+        notes.append("the image correction exceeded the free-space value; the free-space value is reported")
+        L = L_free
+    detail = {"free_space_nH": L_free * 1e9, "plane_image_nH": -L_img * 1e9,
+              "segments_over_plane": len(images)}
+    return L, notes, detail
+
+
+def measure_hot_loop(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
+    """hot_loop.area, .inductance, .vias, .overshoot, .ringing_frequency, .edge_energy for one stage."""
+    names = ("hot_loop.area", "hot_loop.inductance", "hot_loop.vias", "hot_loop.overshoot",
+             "hot_loop.ringing_frequency", "hot_loop.edge_energy")
+    if not stage.hot_loop:
+        reason = "the stage's hot loop was not found" + (f" ({'; '.join(stage.missing)})" if stage.missing else "")
+        return [not_made(q, stage, reason) for q in names]
+    terms = tuple(stage.hot_loop)
+    try:
+        loop = build_loop(ctx, terms)
+    except RouteError as exc:
+        return [not_made(q, stage, f"hot loop not traced: {exc}", terminals=terms) for q in names]
+    board = ctx.board
+    nets = tuple(dict.fromkeys(ctx.board.terminals[t].net for t in terms))
+    area, region = enclosed_area(loop.projected())
+    c = region.centroid if not region.is_empty else LineString(loop.projected() + [loop.projected()[0]]).centroid
+    cx, cy = float(c.x), float(c.y)
+    path_draw = polyline(loop.projected() + [loop.projected()[0]])
+    region_draw = [polygon(list(p.exterior.coords)) for p in getattr(region, "geoms", [region])
+                   if not p.is_empty and hasattr(p, "exterior")]
+    base = dict(terminals=terms, nets=nets, x_mm=cx, y_mm=cy)
+    common = list(loop.assumptions)
+    common.append("route: centreline-weighted shortest path through the copper raster "
+                  f"(pitch {min((r.pitch_mm for r in loop.routes), default=0.05):.3f} mm); return legs drawn "
+                  "towards the outgoing conductor")
+    path3d = [(round(x, 4), round(y, 4), board.layers[l].name) for x, y, l in loop.points]
+    out = [measurement("hot_loop.area", area, stage, drawings=region_draw + [path_draw],
+                       assumptions=common + ["projected on the board plane; self-crossings split into faces"],
+                       detail={"path": path3d, "perimeter_mm": LineString(loop.projected() + [loop.projected()[0]]).length},
+                       **base)]
+    try:
+        L, notes, det = loop_inductance(ctx, loop)
+    except (ImportError, AttributeError) as exc:
+        L, notes, det = None, [], {}
+        reason = f"inductance engine not available: {exc}"
+    op = stage.operating_point
+    vias = loop.vias
+    out.append(measurement("hot_loop.vias", len(vias), stage,
+                           drawings=[point(x, y) for x, y, _, _ in vias],
+                           detail={"vias": [{"x_mm": x, "y_mm": y, "from": board.layers[a].name,
+                                             "to": board.layers[b].name} for x, y, a, b in vias]},
+                           assumptions=["each layer change of a route through a via or plated hole counts"], **base))
+    if L is None:
+        for q in names[1:]:
+            if q != "hot_loop.vias":
+                out.append(not_made(q, stage, reason, **base))
+        return out
+    L_nH = L * 1e9
+    ind_notes = common + notes + [
+        "partial-inductance sum over straight flat-strip segments, local copper width, layer copper "
+        "thickness (Ruehli 1972; Grover 1946 flat-strip equivalent radius)",
+        f"plane legs taken at most {MAX_STRIP_WIDTH_MM:g} mm wide"]
+    out.append(measurement("hot_loop.inductance", L_nH, stage, drawings=[path_draw], assumptions=ind_notes,
+                           detail={**det, "segments": len(loop.points)}, **base))
+    i_sw, v_sw, sw_notes = switch_current(stage, op)
+    didt = i_sw / op.edge_s
+    dv = L * didt
+    op_notes = op_assumptions(op, ("iout_a", "edge_s", "vin_max_v", "ripple_ratio"))
+    out.append(measurement("hot_loop.overshoot", 100.0 * dv / v_sw, stage,
+                           assumptions=sw_notes + op_notes + [
+                               "dV = L_loop di/dt, di/dt = I_switch / t_edge, I_switch the inductor's peak current"],
+                           detail={"overshoot_v": dv, "di_dt_a_per_ns": didt * 1e-9, "switch_current_a": i_sw,
+                                   "switched_voltage_v": v_sw}, **base))
+    C = op.switch_capacitance_f
+    f = 1.0 / (2 * math.pi * math.sqrt(L * C))
+    out.append(measurement("hot_loop.ringing_frequency", f / 1e6, stage,
+                           assumptions=op_assumptions(op, ("switch_capacitance_f",)) +
+                           ["f = 1 / (2 pi sqrt(L_loop C_switch))"], detail={"capacitance_pf": C * 1e12}, **base))
+    E = 0.5 * L * i_sw ** 2
+    out.append(measurement("hot_loop.edge_energy", E * 1e9, stage,
+                           assumptions=op_notes + ["E = L_loop I_switch^2 / 2; up to E * 2 f_sw of loss, an upper bound"],
+                           detail={"loss_bound_w": 2 * E * op.fsw_hz, "switch_current_a": i_sw}, **base))
+    return out
