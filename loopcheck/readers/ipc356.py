@@ -1,0 +1,514 @@
+"""Read an IPC-D-356 / IPC-D-356A netlist with the project's own fixed-column parser.
+
+The standard is IPC-D-356A, "Bare Substrate Electrical Test Data Format", IPC, 1998 (and its
+predecessor IPC-D-356). Records are 80-column card images; a test record puts each field in
+fixed columns. The column layout below was checked against two public, independent parsers'
+documentation of the standard (gerbv's ``src/ipcd356a.c``, which quotes the column numbers of
+the document, and pcb-tools' ``gerber/ipc356.py``), which agree, and against the real netlist
+in the corpus (``spec-examples/ipc-d-356.ipc``).
+
+Test records 317 (through feature), 327 (surface feature), 367 (read like 317) and their
+continuations 017 / 027 / 067 (another test point of the same net, read the same way);
+columns are 1-based and inclusive, as in the standard:
+
+=======  =================================================================================
+cols     field
+=======  =================================================================================
+1-3      record code: col 1 ``3`` test record (``0`` continuation), col 2 ``1`` through /
+         ``2`` surface / others, col 3 ``7``
+4-17     net name (14 characters; ``N/C`` or blank: no net; ``NNAME<n>``: an alias, below)
+18-20    blank
+21-26    reference designator (``VIA`` for a via)
+27       ``-``
+28-31    pin (terminal) number or name
+32       ``M`` for a mid-net point, else blank
+33       ``D`` when a hole follows, else blank
+34-37    hole diameter (4 digits)
+38       ``P`` plated, ``U`` unplated
+39       ``A``
+40-41    access: ``00`` all layers (through), ``01`` primary side (top), ``nn`` layer nn
+42       ``X``
+43       sign of X (``+``, ``-`` or blank)
+44-49    X location (6 digits)
+50       ``Y``
+51       sign of Y
+52-57    Y location (6 digits)
+58       ``X``
+59-62    feature size along X (4 digits)
+63       ``Y`` (absent: a round feature of the X size)
+64-67    feature size along Y
+68       ``R``
+69-71    rotation (3 digits)
+72       blank
+73       ``S``
+74       solder mask: 0 none, 1 primary side, 2 secondary side, 3 both
+75-80    optional information (not read)
+=======  =================================================================================
+
+Dimensions are integers in the units of the ``P  UNITS`` parameter record:
+``CUST`` or ``CUST 0``: inch, 0.0001 inch, degrees; ``CUST 1``: mm, 0.001 mm, degrees;
+``CUST 2``: inch, 0.0001 inch, radians (both parsers above); ``SI``: 0.001 mm (gerbv);
+``ENGLISH``: 0.0001 inch (from memory of the original IPC-D-356, not checked). A file without
+a UNITS record is read as ``CUST 0`` and says so in a note. Hole, location and feature size
+use the same resolution.
+
+Net names: the field holds 14 characters, so IPC-D-356A gives longer names (or names with
+spaces) as aliases: a parameter record ``P  NNAME<n> <full name>`` and ``NNAME<n>`` in the
+net-name field of the test records. Both are resolved here; a name that fills all 14 columns
+without an alias may have been cut by the writer, and a note says so.
+
+Conductor records 378 (cols 4-17 net, cols 19-21 ``L`` + layer) and outline records 389
+(cols 4-17 ``BOARD_EDGE``, ``PANEL_EDGE``, ``SCORE_LINE``, ``OTHER_FAB``) carry free-form
+data after those columns, continued on 078 / 089 lines: the first ``X<w>[Y<h>]`` word is the
+line (aperture) size, then ``X``/``Y`` words give points, each coordinate modal (a word may
+give X or Y alone), and ``*`` ends one path. They are read into point lists in mm.
+
+A parameter ``P  IMAGE`` other than ``PRIMARY`` (a panel or step-and-repeat image) makes the
+records after it skipped, with a note, until ``P  IMAGE PRIMARY``. Record 999 ends the file.
+
+Errors: a test record shorter than its location fields (57 columns), a field cut off by the
+end of the line, a non-numeric number or an unknown units record is an
+:class:`~loopcheck.errors.InputError` naming the file and line. Blank lines, comments and
+record types this reader does not use are tolerated and counted in ``notes``.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from loopcheck.errors import InputError
+from loopcheck.limits import DEFAULT_LIMITS, InputLimits
+
+Point = tuple[float, float]
+
+_INCH_TENTHOUSANDTHS_MM = 0.0001 * 25.4   # one unit of CUST 0 / CUST 2, in mm
+_MICRON_MM = 0.001                        # one unit of CUST 1 / SI, in mm
+
+
+@dataclass(frozen=True)
+class NetPoint:
+    """One test record: a component pad or a via, in mm."""
+
+    net: str                      # "" when the record names no net (blank or N/C)
+    ref: str                      # reference designator; "" for a via
+    pin: str                      # "" for a via
+    x_mm: float
+    y_mm: float
+    access: int                   # 0 = through (all layers), 1 = top, N = layer N
+    hole_mm: float | None         # drilled diameter; None without a hole field
+    plated: bool | None           # None without a hole field
+    width_mm: float | None        # feature size along x; None when not given
+    height_mm: float | None       # along y (= width for a round feature)
+    rotation_deg: float
+    is_via: bool
+    midpoint: bool                # a mid-net point (col 32 "M")
+    line: int                     # 1-based line number in the file
+    record: str = "317"           # record code as written: 317, 327, 367, 017, ...
+    soldermask: int | None = None
+
+    @property
+    def terminal(self) -> str:
+        return f"{self.ref}.{self.pin}" if self.ref else ""
+
+
+@dataclass(frozen=True)
+class Conductor:
+    """A 378 record: copper of one net on one layer as paths of points [mm]."""
+
+    net: str
+    layer: int | None
+    width_mm: float | None
+    height_mm: float | None
+    paths: list[list[Point]]
+    line: int
+
+
+@dataclass(frozen=True)
+class OutlineRecord:
+    """A 389 record: ``kind`` is BOARD_EDGE, PANEL_EDGE, SCORE_LINE or OTHER_FAB."""
+
+    kind: str
+    width_mm: float | None
+    paths: list[list[Point]]
+    line: int
+
+
+@dataclass
+class Netlist:
+    path: str
+    units: str                              # "inch" or "mm" (the file's; results are in mm)
+    points: list[NetPoint]
+    layer_count: int | None                 # highest access/layer code above 1, else None
+    conductors: list[Conductor] = field(default_factory=list)
+    outline: list[OutlineRecord] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    parameters: dict[str, str] = field(default_factory=dict)   # P records: JOB, VER, ...
+    aliases: dict[str, str] = field(default_factory=dict)      # NNAME1 -> full net name
+    ended: bool = False                     # the 999 end record was found
+
+    @property
+    def nets(self) -> dict[str, list[NetPoint]]:
+        out: dict[str, list[NetPoint]] = {}
+        for p in self.points:
+            if p.net:
+                out.setdefault(p.net, []).append(p)
+        return out
+
+    @property
+    def board_edge(self) -> list[list[Point]]:
+        return [path for rec in self.outline if rec.kind == "BOARD_EDGE" for path in rec.paths]
+
+
+# ----------------------------------------------------------------------------------------------
+
+
+@dataclass
+class _Units:
+    name: str           # "inch" or "mm"
+    mm_per_unit: float
+    radians: bool
+    record: str
+
+
+_UNITS = {
+    "CUST": _Units("inch", _INCH_TENTHOUSANDTHS_MM, False, "CUST"),
+    "CUST 0": _Units("inch", _INCH_TENTHOUSANDTHS_MM, False, "CUST 0"),
+    "CUST 1": _Units("mm", _MICRON_MM, False, "CUST 1"),
+    "CUST 2": _Units("inch", _INCH_TENTHOUSANDTHS_MM, True, "CUST 2"),
+    "SI": _Units("mm", _MICRON_MM, False, "SI"),
+    "ENGLISH": _Units("inch", _INCH_TENTHOUSANDTHS_MM, False, "ENGLISH"),
+}
+
+_WORD = re.compile(r"\*|[XY][+-]?\d+")
+_NNAME = re.compile(r"NNAME\d+$", re.IGNORECASE)
+
+
+class _Parser:
+    def __init__(self, path: str):
+        self.path = path
+        self.units = _UNITS["CUST 0"]
+        self.units_given = False
+        self.points: list[NetPoint] = []
+        self.conductors: list[Conductor] = []
+        self.outline: list[OutlineRecord] = []
+        self.parameters: dict[str, str] = {}
+        self.aliases: dict[str, str] = {}
+        self.notes: list[str] = []
+        self.skipped: dict[str, int] = {}
+        self.blank = 0
+        self.comments = 0
+        self.image_skip = False
+        self.image_skipped = 0
+        self.ended = False
+        self.after_end = 0
+        self.full_width_names: set[str] = set()
+        self.unaliased_nname: set[str] = set()
+        self.max_layer = 0
+        self.open_free: dict | None = None   # the 378/389 record a 078/089 line continues
+
+    # fields ------------------------------------------------------------------------------
+    def error(self, lineno: int, msg: str) -> InputError:
+        return InputError(msg, path=self.path, line=lineno)
+
+    @staticmethod
+    def cols(line: str, first: int, last: int) -> str:
+        """Columns first..last (1-based, inclusive), as in the standard."""
+        return line[first - 1:last]
+
+    def need(self, line: str, lineno: int, first: int, last: int, what: str) -> None:
+        if first <= len(line) < last:
+            raise self.error(lineno, f"record cut off in the {what} field (columns {first}-{last}); "
+                                     f"the line has {len(line)} columns")
+
+    def number(self, text: str, lineno: int, what: str, first: int, signed: bool = False) -> int:
+        s = text.strip()
+        if signed and s[:1] in "+-":
+            sign, s = (-1 if s[0] == "-" else 1), s[1:].strip()
+        else:
+            sign = 1
+        if not s.isdigit():
+            raise self.error(lineno, f"{what} {text.strip()!r} in columns {first}-{first + len(text) - 1} "
+                                     "is not a number")
+        return sign * int(s)
+
+    def mm(self, units: int) -> float:
+        return units * self.units.mm_per_unit
+
+    def net_name(self, raw: str) -> str:
+        name = raw.strip()
+        if name.upper() == "N/C":
+            return ""
+        if _NNAME.match(name):
+            if name.upper() in self.aliases:
+                return self.aliases[name.upper()]
+            self.unaliased_nname.add(name)
+        elif len(name) == 14:
+            self.full_width_names.add(name)
+        return name
+
+    # records -----------------------------------------------------------------------------
+    def parameter(self, line: str, lineno: int) -> None:
+        body = line[3:].strip() if len(line) > 3 else ""
+        if not body:
+            return
+        key, _, value = body.partition(" ")
+        key_u, value = key.upper(), value.strip()
+        if _NNAME.match(key_u):
+            if not value:
+                raise self.error(lineno, f"net name alias {key} gives no name")
+            self.aliases[key_u] = value
+            return
+        self.parameters[key_u] = value
+        if key_u == "UNITS":
+            norm = " ".join(value.upper().split())
+            if norm not in _UNITS:
+                raise self.error(lineno, f"unknown units record {value!r} "
+                                         "(expected CUST, CUST 0, CUST 1, CUST 2, SI or ENGLISH)")
+            if self.points or self.conductors or self.outline:
+                self.notes.append(f"line {lineno}: UNITS record after the first test record; "
+                                  "the records before it were read as CUST 0 (inch)")
+            self.units = _UNITS[norm]
+            self.units_given = True
+            if self.units.radians:
+                self.notes.append("UNITS CUST 2 declares rotations in radians; rotations were "
+                                  "converted from radians to degrees")
+            if norm == "ENGLISH":
+                self.notes.append("UNITS ENGLISH read as 0.0001 inch (resolution from memory "
+                                  "of IPC-D-356, not checked against the standard)")
+        elif key_u == "IMAGE":
+            self.image_skip = value.split()[:1] != ["PRIMARY"] if value else False
+
+    def test_record(self, line: str, lineno: int, code: str) -> None:
+        if len(line) < 57:
+            raise self.error(lineno, f"test record {code} has {len(line)} columns; its X/Y "
+                                     "location needs columns 42-57")
+        c = lambda a, b: self.cols(line, a, b)   # noqa: E731
+        net = self.net_name(c(4, 17))
+        ref = c(21, 26).strip()
+        pin = c(28, 31).strip()
+        midpoint = c(32, 32) == "M"
+        hole_mm = plated = None
+        if c(33, 33) == "D":
+            hole_mm = self.mm(self.number(c(34, 37), lineno, "hole diameter", 34))
+            plated = {"P": True, "U": False}.get(c(38, 38))
+            if plated is None:
+                raise self.error(lineno, f"plating code {c(38, 38)!r} in column 38 is not P or U")
+        elif c(33, 38).strip() and c(33, 33) != " ":
+            raise self.error(lineno, f"column 33 is {c(33, 33)!r}; a hole field starts with D")
+        if c(39, 39) == "A":
+            access = self.number(c(40, 41), lineno, "access code", 40)
+        elif c(39, 41).strip():
+            raise self.error(lineno, f"columns 39-41 {c(39, 41)!r}: an access code is A + 2 digits")
+        else:
+            access = 0 if code[1] != "2" else 1
+            self.notes.append(f"line {lineno}: no access code; read as "
+                              f"{'top (01)' if access else 'through (00)'}")
+        if c(42, 42) != "X" or c(50, 50) != "Y":
+            raise self.error(lineno, "the location must be X in column 42 and Y in column 50, "
+                                     f"found {c(42, 42)!r} and {c(50, 50)!r}")
+        x = self.mm(self.number(c(43, 49), lineno, "X location", 43, signed=True))
+        y = self.mm(self.number(c(51, 57), lineno, "Y location", 51, signed=True))
+        width = height = None
+        if len(line) >= 58 and c(58, 58) == "X":
+            self.need(line, lineno, 59, 62, "feature X size")
+            width = self.mm(self.number(c(59, 62), lineno, "feature X size", 59))
+            height = width
+        if len(line) >= 63 and c(63, 63) == "Y":
+            self.need(line, lineno, 64, 67, "feature Y size")
+            height = self.mm(self.number(c(64, 67), lineno, "feature Y size", 64))
+        rotation = 0.0
+        if len(line) >= 68 and c(68, 68) == "R":
+            self.need(line, lineno, 69, 71, "rotation")
+            r = self.number(c(69, 71), lineno, "rotation", 69)
+            rotation = math.degrees(r) if self.units.radians else float(r)
+        soldermask = None
+        if len(line) >= 73 and c(73, 73) == "S":
+            self.need(line, lineno, 74, 74, "solder mask")
+            soldermask = self.number(c(74, 74), lineno, "solder mask code", 74)
+        is_via = ref.upper() == "VIA"
+        if is_via:
+            ref, pin = "", ""
+        self.max_layer = max(self.max_layer, access)
+        self.points.append(NetPoint(net=net, ref=ref, pin=pin, x_mm=x, y_mm=y, access=access,
+                                    hole_mm=hole_mm, plated=plated, width_mm=width,
+                                    height_mm=height, rotation_deg=rotation, is_via=is_via,
+                                    midpoint=midpoint, line=lineno, record=code,
+                                    soldermask=soldermask))
+
+    def free_start(self, line: str, lineno: int, code: str) -> None:
+        if code == "378":
+            net = self.net_name(self.cols(line, 4, 17))
+            layer = None
+            if self.cols(line, 19, 19) == "L":
+                layer = self.number(self.cols(line, 20, 21), lineno, "conductor layer", 20)
+                self.max_layer = max(self.max_layer, layer)
+            self.open_free = {"code": code, "net": net, "layer": layer, "line": lineno,
+                              "size": None, "paths": [[]], "x": None, "y": None}
+            self.free_words(line[21:], lineno)
+        else:
+            kind = self.cols(line, 4, 17).split()
+            self.open_free = {"code": code, "kind": kind[0] if kind else "", "line": lineno,
+                              "size": None, "paths": [[]], "x": None, "y": None}
+            self.free_words(line[17:], lineno)
+
+    def free_words(self, text: str, lineno: int) -> None:
+        """X/Y words of a 378/389 record or its continuation; the record's first
+        whitespace-separated token is the line size, the rest are modal points."""
+        rec = self.open_free
+        for token in text.split():
+            words = _WORD.findall(token)
+            if "".join(words) != token:
+                raise self.error(lineno, f"unreadable data {token!r} in a {rec['code']} record "
+                                         "(X/Y words and * expected)")
+            if rec["size"] is None:
+                size = [None, None]
+                for word in words:
+                    if word != "*":
+                        size[0 if word[0] == "X" else 1] = self.mm(int(word[1:]))
+                rec["size"] = size
+                continue
+            pending = False
+            for word in words + ["end"]:
+                if word in ("*", "end"):
+                    # a point is complete at the end of its token (X and Y may share one)
+                    if pending and rec["x"] is not None and rec["y"] is not None:
+                        rec["paths"][-1].append((rec["x"], rec["y"]))
+                    pending = False
+                    if word == "*":
+                        if rec["paths"][-1]:
+                            rec["paths"].append([])
+                        rec["x"] = rec["y"] = None
+                    continue
+                rec["x" if word[0] == "X" else "y"] = self.mm(int(word[1:]))
+                pending = True
+
+    def free_close(self) -> None:
+        rec = self.open_free
+        if rec is None:
+            return
+        self.open_free = None
+        paths = [p for p in rec["paths"] if p]
+        w, h = (rec["size"] or [None, None])
+        if rec["code"] == "378":
+            self.conductors.append(Conductor(net=rec["net"], layer=rec["layer"], width_mm=w,
+                                             height_mm=h if h is not None else w, paths=paths,
+                                             line=rec["line"]))
+        else:
+            self.outline.append(OutlineRecord(kind=rec["kind"], width_mm=w, paths=paths,
+                                              line=rec["line"]))
+
+    # the file ----------------------------------------------------------------------------
+    def parse(self, text: str) -> Netlist:
+        lines = text.splitlines()
+        long_lines = 0
+        for lineno, raw in enumerate(lines, start=1):
+            line = raw.rstrip("\r\n").rstrip()
+            if self.ended:
+                if line.strip():
+                    self.after_end += 1
+                continue
+            if not line.strip():
+                self.blank += 1
+                continue
+            if len(line) > 80:
+                long_lines += 1
+            code = line[:3]
+            if code[:1] == "0" and self.open_free is not None and code[1:] == self.open_free["code"][1:]:
+                self.free_words(line[3:], lineno)
+                continue
+            self.free_close()
+            if line[0] == "C":
+                self.comments += 1
+            elif line[0] == "P" and line[1:3].strip() == "":
+                self.parameter(line, lineno)
+            elif code == "999":
+                self.ended = True
+            elif self.image_skip:
+                self.image_skipped += 1
+            elif re.fullmatch(r"[30][1-6]7", code):
+                self.test_record(line, lineno, code)
+            elif code in ("378", "389"):
+                self.free_start(line, lineno, code)
+            else:
+                self.skipped[code] = self.skipped.get(code, 0) + 1
+        self.free_close()
+        return self.finish(long_lines)
+
+    def finish(self, long_lines: int) -> Netlist:
+        notes = self.notes
+        if not self.units_given:
+            notes.insert(0, "no UNITS record: read as CUST 0 (inch, 0.0001 inch)")
+        if not self.ended:
+            notes.append("no 999 end record: the file may be cut short")
+        if self.after_end:
+            notes.append(f"{self.after_end} lines after the 999 end record were not read")
+        if self.blank:
+            notes.append(f"{self.blank} blank lines skipped")
+        for code, n in sorted(self.skipped.items()):
+            notes.append(f"{n} records of type {code!r} not used by this reader")
+        if self.image_skipped:
+            notes.append(f"{self.image_skipped} records of a non-primary IMAGE (panel) skipped")
+        if long_lines:
+            notes.append(f"{long_lines} lines are longer than the standard's 80 columns")
+        if self.full_width_names:
+            notes.append(f"{len(self.full_width_names)} net names fill all 14 columns of the "
+                         "IPC-D-356 net field and may have been cut short by the writer "
+                         f"(e.g. {sorted(self.full_width_names)[0]!r})")
+        if self.unaliased_nname:
+            notes.append(f"net alias(es) without a P NNAME record: {', '.join(sorted(self.unaliased_nname))}")
+        holes = [p.hole_mm for p in self.points if p.hole_mm]
+        tiny = [h for h in holes if h < 0.1]
+        if tiny:
+            notes.append(f"{len(tiny)} of {len(holes)} holes are under 0.1 mm (smallest "
+                         f"{min(tiny):.4f} mm) as the {self.units.record} units read them; "
+                         "the writer may have used other units for the hole field")
+        layer_count = self.max_layer if self.max_layer >= 2 else None
+        return Netlist(path=self.path, units=self.units.name, points=self.points,
+                       layer_count=layer_count, conductors=self.conductors, outline=self.outline,
+                       notes=notes, parameters=self.parameters, aliases=self.aliases,
+                       ended=self.ended)
+
+
+def read_ipc356(path: str | Path, limits: InputLimits = DEFAULT_LIMITS) -> Netlist:
+    """Read an IPC-D-356 / IPC-D-356A netlist; coordinates and sizes in mm.
+
+    Parameters
+    ----------
+    path : the netlist file.
+    limits : size limits for untrusted files.
+
+    Returns
+    -------
+    Netlist with one NetPoint per test record, conductor and outline records, and notes.
+
+    Raises
+    ------
+    InputError : unreadable file, a malformed record (with its line), or a file that is not
+        an IPC-D-356 netlist.
+    """
+    p = Path(path)
+    name = str(path)
+    try:
+        size = p.stat().st_size
+        if size > limits.max_file_bytes:
+            raise InputError(f"netlist is {size} bytes, over the limit of {limits.max_file_bytes}",
+                             path=name)
+        data = p.read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read netlist: {exc.strerror or exc}", path=name) from exc
+    if b"\x00" in data:
+        raise InputError("binary data in an IPC-D-356 netlist (NUL bytes)", path=name)
+    text = data.decode("latin-1")
+    parser = _Parser(name)
+    netlist = parser.parse(text)
+    if len(netlist.points) > limits.max_objects_per_layer:
+        raise InputError(f"{len(netlist.points)} test records, over the limit of "
+                         f"{limits.max_objects_per_layer}", path=name)
+    if not netlist.points and not netlist.parameters and not parser.comments:
+        raise InputError("not an IPC-D-356 netlist: no parameter, comment or test records", path=name)
+    if not netlist.points:
+        netlist.notes.append("no test records (317/327): the netlist names no pads")
+    return netlist
