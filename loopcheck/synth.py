@@ -38,7 +38,11 @@ GENERATOR = "loopcheck,synth,0.1"
 
 @dataclass
 class SynthPad:
-    """One pad of a component. With ``hole_mm`` it is a plated through pad on every layer."""
+    """One pad of a component. With ``hole_mm`` it is a plated through pad on every layer.
+
+    ``pin`` fits the 4 columns IPC-D-356 gives it; ``x_mm``, ``y_mm`` [mm] the pad centre;
+    ``w_mm`` [mm] extent along x (the diameter of a circle), ``h_mm`` [mm] along y.
+    """
 
     pin: str
     net: str
@@ -53,6 +57,9 @@ class SynthPad:
 
 @dataclass
 class SynthComponent:
+    """A component: ``ref`` (at most 6 characters, the IPC-D-356 field), ``value`` ("10uF")
+    written as the X3 ``%TO.CVal%`` attribute, and its pads."""
+
     ref: str
     value: str
     pads: list[SynthPad] = field(default_factory=list)
@@ -60,7 +67,8 @@ class SynthComponent:
 
 @dataclass
 class SynthTrace:
-    """A track of round-ended segments along ``points`` on copper layer ``layer`` (1 = top)."""
+    """A track of round-ended segments along ``points`` [mm] on copper layer ``layer``
+    (1 = top), ``width_mm`` [mm] wide."""
 
     net: str
     layer: int
@@ -70,7 +78,8 @@ class SynthTrace:
 
 @dataclass
 class SynthPour:
-    """A copper area: ``polygon`` (outer ring) minus ``holes`` (rings), on layer ``layer``."""
+    """A copper area: ``polygon`` (outer ring, [mm]) minus ``holes`` (rings, [mm]), on copper
+    layer ``layer`` (1 = top). Written as a G36/G37 region, the holes as clear regions."""
 
     net: str
     layer: int
@@ -80,7 +89,8 @@ class SynthPour:
 
 @dataclass
 class SynthVia:
-    """A plated through via with an annular pad of ``pad_mm`` on every copper layer."""
+    """A plated through via at ``x_mm``, ``y_mm`` [mm], drilled ``drill_mm`` [mm], with a round
+    pad of ``pad_mm`` [mm] on every copper layer."""
 
     net: str
     x_mm: float
