@@ -1,0 +1,179 @@
+"""``loopcheck check BOARD``: read the board, measure it, judge it by a rule deck, report."""
+
+from __future__ import annotations
+
+import os
+import sys
+import threading
+import time
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Callable, Iterator
+
+import click
+
+from ..errors import InputError
+
+FORMATS = ("text", "json", "sarif", "junit", "html")
+FAIL_ON = ("error", "warning", "note", "never")
+
+
+def renderer(fmt: str) -> Callable:
+    """The report function of one format (imported on use, so a broken one breaks only itself)."""
+    if fmt == "text":
+        from ..report.text import render_text as r
+    elif fmt == "json":
+        from ..report.jsonreport import render_json as r
+    elif fmt == "sarif":
+        from ..report.sarif import render_sarif as r
+    elif fmt == "junit":
+        from ..report.junit import render_junit as r
+    elif fmt == "html":
+        from ..report.html import render_html as r
+    else:                                            # click's Choice keeps us from here
+        raise click.UsageError(f"unknown format {fmt}")
+    return r
+
+
+class Progress:
+    """Names each step on stderr once it has run for more than a second (a terminal only)."""
+
+    def __init__(self, enabled: bool, stream=None):
+        self.stream = stream or sys.stderr
+        self.enabled = enabled
+
+    @contextmanager
+    def step(self, what: str) -> Iterator[None]:
+        if not self.enabled:
+            yield
+            return
+        start = time.monotonic()
+        shown = threading.Event()
+
+        def announce() -> None:
+            shown.set()
+            self.stream.write(f"loopcheck: {what} ...\n")
+            self.stream.flush()
+
+        timer = threading.Timer(1.0, announce)
+        timer.daemon = True
+        timer.start()
+        try:
+            yield
+        finally:
+            timer.cancel()
+            if shown.is_set():
+                self.stream.write(f"loopcheck: {what}: {time.monotonic() - start:.1f} s\n")
+                self.stream.flush()
+
+
+def pair_outputs(formats: tuple[str, ...], outputs: tuple[str, ...]) -> list[tuple[str, str | None]]:
+    """Pair ``--format`` and ``--output`` in order; formats beyond the outputs go to stdout."""
+    formats = formats or ("text",)
+    if len(outputs) > len(formats):
+        raise click.UsageError(f"{len(outputs)} --output given for {len(formats)} --format: "
+                               "give one --format per --output, in the same order")
+    pairs = [(f, outputs[i] if i < len(outputs) else None) for i, f in enumerate(formats)]
+    if sum(1 for _, o in pairs if o is None) > 1:
+        raise click.UsageError("only one --format can go to standard output; give the others "
+                               "an --output PATH")
+    seen: set[str] = set()
+    for _, o in pairs:
+        if o is not None and o != "-":
+            key = os.path.abspath(o)
+            if key in seen:
+                raise click.UsageError(f"--output {o} given twice")
+            seen.add(key)
+    return [(f, None if o == "-" else o) for f, o in pairs]
+
+
+def check_writable(path: str) -> None:
+    """Refuse an output path that cannot be written, before any work is done."""
+    p = Path(path)
+    parent = p.parent if str(p.parent) else Path(".")
+    if p.is_dir():
+        raise InputError("output path is a folder", path=path)
+    if not parent.is_dir():
+        raise InputError("cannot write the report: the folder does not exist", path=path)
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise InputError("cannot write the report: the folder is not writable", path=path)
+    if p.exists() and not os.access(p, os.W_OK):
+        raise InputError("cannot write the report: the file is not writable", path=path)
+
+
+def _load_project(board: str):
+    from ..project import load_project
+
+    return load_project(board)
+
+
+def _load_board(project):
+    from ..load import load_board
+
+    return load_board(project)
+
+
+def _analyse(board, project):
+    from ..analysis import analyse
+
+    return analyse(board, project)
+
+
+def run_check(board: str, deck: str | None, fail_on: str, progress: Progress):
+    """The pipeline: project, board, analysis, evaluation. Returns a CheckResult."""
+    from ..report.common import CheckResult
+    from ..rules import evaluate_all, load_deck
+
+    with progress.step("reading the project file"):
+        project = _load_project(board)
+    rule_deck = load_deck(deck, project)          # early: a bad deck fails before the slow part
+    with progress.step("reading the fab outputs"):
+        b = _load_board(project)
+    with progress.step("measuring the power stages"):
+        analysis = _analyse(b, project)
+    evaluation = evaluate_all(analysis, rule_deck, project)
+    return CheckResult(analysis=analysis, evaluation=evaluation, project=project, fail_on=fail_on)
+
+
+def emit(result, pairs: list[tuple[str, str | None]]) -> None:
+    """Render every report first, then write each one whole (temp file + os.replace)."""
+    from ..report.common import write_atomic
+
+    rendered = [(renderer(fmt)(result), out) for fmt, out in pairs]
+    for text, out in rendered:
+        if out is None:
+            click.echo(text, nl=False)
+        else:
+            try:
+                write_atomic(out, text)
+            except OSError as exc:
+                raise InputError(f"cannot write the report: {exc.strerror or exc}",
+                                 path=out) from None
+
+
+@click.command("check")
+@click.argument("board", type=click.Path(exists=False))
+@click.option("--deck", "deck", default=None, metavar="NAME|PATH",
+              help="Rule deck: a packaged deck name (default, led-driver) or a .toml file. "
+                   "Default: the deck the project file names, else 'default'.")
+@click.option("--format", "formats", multiple=True, type=click.Choice(FORMATS),
+              help="Report format; repeatable, paired in order with --output.")
+@click.option("--output", "outputs", multiple=True, metavar="PATH",
+              help="Where the report of the matching --format goes ('-' or none: stdout).")
+@click.option("--fail-on", type=click.Choice(FAIL_ON), default="error", show_default=True,
+              help="Exit 1 when an unwaived finding is at or above this severity.")
+@click.option("--quiet", "-q", is_flag=True, help="No progress messages on stderr.")
+def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tuple[str, ...],
+            fail_on: str, quiet: bool) -> None:
+    """Check the power stages of BOARD (a fab-output folder, .zip or loopcheck.toml).
+
+    Exit code 0: no unwaived finding at or above --fail-on; 1: there are some; 2: bad input.
+    """
+    pairs = pair_outputs(formats, outputs)
+    for _, out in pairs:
+        if out is not None:
+            check_writable(out)
+    progress = Progress(enabled=not quiet and sys.stderr.isatty())
+    result = run_check(board, deck, fail_on, progress)
+    emit(result, pairs)
+    sys.exit(1 if result.failed else 0)

@@ -1,0 +1,156 @@
+"""SARIF 2.1.0: one result per finding, rule metadata from the rule docs, the copper layer's
+Gerber file as the physical location, stage / terminals / nets as logical locations, waived
+findings as suppressions. Formatting only."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path, PurePosixPath
+from typing import Any
+
+from ..rules.docs import RULE_DOCS
+from .common import CheckResult, finding_id
+
+SARIF_SCHEMA_URI = ("https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/"
+                    "sarif-schema-2.1.0.json")
+BASE_ID = "BOARDROOT"
+_LEVEL = {"error": "error", "warning": "warning", "note": "note"}
+
+
+def _rule_entry(name: str, result: CheckResult) -> dict[str, Any]:
+    doc = RULE_DOCS.get(name)
+    rule = result.deck.rules.get(name)
+    entry: dict[str, Any] = {"id": name}
+    if doc is not None:
+        help_text = (f"Why it matters: {doc.why}\n\nHow to fix it: {doc.fix}\n\n"
+                     f"How it is computed: {doc.formula}\n\nKnown limits: {doc.limits}")
+        help_md = (f"**Why it matters.** {doc.why}\n\n**How to fix it.** {doc.fix}\n\n"
+                   f"**How it is computed.** {doc.formula}\n\n**Known limits.** {doc.limits}\n\n"
+                   f"`loopcheck explain {name}` prints this text.")
+        entry.update({
+            "name": doc.title,
+            "shortDescription": {"text": doc.title},
+            "fullDescription": {"text": doc.measures},
+            "help": {"text": help_text, "markdown": help_md},
+        })
+    props: dict[str, Any] = {}
+    if rule is not None:
+        if rule.kind == "measurement":
+            top = max(rule.limits, key=("note", "warning", "error").index)
+            entry["defaultConfiguration"] = {"level": _LEVEL[top]}
+            props.update({"quantity": rule.quantity, "direction": rule.direction,
+                          "limits": dict(rule.limits), "source": rule.source})
+        elif rule.severity:
+            entry["defaultConfiguration"] = {"level": _LEVEL[rule.severity]}
+        props["kind"] = rule.kind
+    if doc is not None:
+        props["group"] = doc.group
+    if props:
+        entry["properties"] = props
+    return entry
+
+
+def _relative_uri(file: str | None, root: Path | None) -> tuple[str, bool] | None:
+    """(uri, relative to the board root?) for a file the Board names."""
+    if not file:
+        return None
+    p = Path(file)
+    if root is not None and p.is_absolute():
+        try:
+            return PurePosixPath(p.resolve().relative_to(root.resolve()).as_posix()).as_posix(), True
+        except ValueError:
+            return p.resolve().as_uri(), False
+    if p.is_absolute():
+        return p.as_uri(), False
+    return PurePosixPath(p.as_posix()).as_posix(), True
+
+
+def _board_root(result: CheckResult) -> Path | None:
+    proj = result.project
+    fab = getattr(proj, "fab", None)
+    if fab is None:
+        return None
+    fab = Path(fab)
+    return fab if fab.is_dir() or fab.suffix.lower() != ".zip" else fab.parent
+
+
+def render_sarif(result: CheckResult) -> str:
+    return json.dumps(sarif_dict(result), indent=2, ensure_ascii=False) + "\n"
+
+
+def sarif_dict(result: CheckResult) -> dict[str, Any]:
+    board = result.analysis.board
+    root = _board_root(result)
+    names = list(result.deck.rules)
+    for f in result.findings:                 # a finding of a rule the deck lacks still has metadata
+        if f.rule not in names:
+            names.append(f.rule)
+    rules = [_rule_entry(n, result) for n in names]
+    index = {n: i for i, n in enumerate(names)}
+    layer_files = {layer.name: layer.file for layer in board.layers}
+    project_file = getattr(result.project, "path", None)
+
+    results = []
+    for i, f in enumerate(result.findings):
+        file = None
+        if f.layer and layer_files.get(f.layer):
+            file = layer_files[f.layer]
+        elif f.rule.startswith("netlist-") and board.netlist_file:
+            file = board.netlist_file
+        elif f.rule.startswith("unused-") and project_file:
+            file = str(project_file)
+        location: dict[str, Any] = {}
+        uri = _relative_uri(file, root)
+        if uri is not None:
+            art: dict[str, Any] = {"uri": uri[0]}
+            if uri[1] and root is not None:
+                art["uriBaseId"] = BASE_ID
+            location["physicalLocation"] = {"artifactLocation": art}
+        logical = []
+        if f.stage:
+            logical.append({"name": f.stage, "fullyQualifiedName": f"{board.name}/{f.stage}",
+                            "kind": "stage"})
+        for t in f.terminals:
+            logical.append({"name": t, "fullyQualifiedName": f"{board.name}/{t}",
+                            "kind": "terminal"})
+        for n in f.nets:
+            logical.append({"name": n, "fullyQualifiedName": f"{board.name}/net:{n}",
+                            "kind": "net"})
+        if logical:
+            location["logicalLocations"] = logical
+        props: dict[str, Any] = {"id": finding_id(i)}
+        for key in ("value", "limit", "unit", "x_mm", "y_mm", "layer", "quantity"):
+            v = getattr(f, key)
+            if v is not None:
+                props[key] = v
+        entry: dict[str, Any] = {
+            "ruleId": f.rule,
+            "ruleIndex": index[f.rule],
+            "level": _LEVEL[f.severity],
+            "message": {"text": f.message},
+            "properties": props,
+        }
+        if location:
+            entry["locations"] = [location]
+        if f.waived:
+            # The waiver lives in the project file: an external suppression, accepted.
+            sup: dict[str, Any] = {"kind": "external", "status": "accepted",
+                                   "justification": f.waiver_reason or "waived"}
+            puri = _relative_uri(str(project_file), root) if project_file else None
+            if puri is not None:
+                art = {"uri": puri[0], **({"uriBaseId": BASE_ID} if puri[1] and root else {})}
+                sup["location"] = {"physicalLocation": {"artifactLocation": art}}
+            entry["suppressions"] = [sup]
+        results.append(entry)
+
+    run: dict[str, Any] = {
+        "tool": {"driver": {"name": "loopcheck", "version": result.tool_version,
+                            "semanticVersion": result.tool_version, "rules": rules}},
+        "results": results,
+        "columnKind": "unicodeCodePoints",
+        "properties": {"board": board.name, "deck": result.deck.name,
+                       "fail_on": result.fail_on, "failed": result.failed},
+    }
+    if root is not None:
+        run["originalUriBaseIds"] = {BASE_ID: {"uri": root.resolve().as_uri() + "/"}}
+    return {"$schema": SARIF_SCHEMA_URI, "version": "2.1.0", "runs": [run]}

@@ -1,0 +1,226 @@
+"""SVG drawings of the board for the HTML report: copper per layer, the outline, the hot loop,
+the routes the measurements followed, and a marker per finding. Drawing only: every shape comes
+from the Board or from a Measurement's drawings; copper is simplified for file size.
+
+Board coordinates are mm with y up; SVG has y down, so every y is written negated.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from html import escape
+
+from shapely.geometry.base import BaseGeometry
+
+from ..board import Board
+from ..findings import Drawing, Finding, Measurement
+
+LAYER_COLOURS = ("#d08a4e", "#4f86b5", "#8f72b8", "#5e9e72", "#b8a14f", "#b5607a")
+SEVERITY_COLOURS = {"error": "#c62828", "warning": "#e08a00", "note": "#2f6db5"}
+WAIVED_COLOUR = "#7a7a7a"
+
+
+def layer_colour(index: int, count: int) -> str:
+    if count > 1 and index == count - 1:
+        return LAYER_COLOURS[1]
+    if index == 0:
+        return LAYER_COLOURS[0]
+    return LAYER_COLOURS[2 + (index - 1) % (len(LAYER_COLOURS) - 2)]
+
+
+@dataclass(frozen=True)
+class Frame:
+    """The drawn region in board mm, with a margin."""
+
+    minx: float
+    miny: float
+    maxx: float
+    maxy: float
+
+    @classmethod
+    def of(cls, board: Board, margin_frac: float = 0.04) -> "Frame":
+        geoms = [board.outline.geometry] if board.outline is not None else []
+        geoms += [layer.geometry for layer in board.layers if not layer.geometry.is_empty]
+        xs0, ys0, xs1, ys1 = [], [], [], []
+        for g in geoms:
+            if g is None or g.is_empty:
+                continue
+            a, b, c, d = g.bounds
+            xs0.append(a), ys0.append(b), xs1.append(c), ys1.append(d)
+        if not xs0:
+            return cls(0.0, 0.0, 10.0, 10.0)
+        minx, miny, maxx, maxy = min(xs0), min(ys0), max(xs1), max(ys1)
+        m = margin_frac * max(maxx - minx, maxy - miny, 1.0)
+        return cls(minx - m, miny - m, maxx + m, maxy + m)
+
+    @property
+    def width(self) -> float:
+        return self.maxx - self.minx
+
+    @property
+    def height(self) -> float:
+        return self.maxy - self.miny
+
+    @property
+    def unit(self) -> float:
+        """A stroke unit that looks the same on a small and a large board."""
+        return max(self.width, self.height) / 400.0
+
+
+def _xy(x: float, y: float) -> str:
+    return f"{x:.3f},{-y:.3f}"
+
+
+def geometry_path(geom: BaseGeometry, tolerance: float) -> str:
+    """SVG path data (even-odd fill) of a polygonal geometry, simplified to ``tolerance`` mm."""
+    if geom is None or geom.is_empty:
+        return ""
+    g = geom.simplify(tolerance, preserve_topology=True) if tolerance > 0 else geom
+    parts: list[str] = []
+
+    def ring(coords) -> None:
+        pts = list(coords)
+        if len(pts) < 3:
+            return
+        parts.append("M" + " L".join(_xy(x, y) for x, y, *_ in pts[:-1]) + " Z")
+
+    def walk(obj) -> None:
+        t = obj.geom_type
+        if t == "Polygon":
+            ring(obj.exterior.coords)
+            for hole in obj.interiors:
+                ring(hole.coords)
+        elif t in ("MultiPolygon", "GeometryCollection"):
+            for sub in obj.geoms:
+                walk(sub)
+        elif t in ("LineString", "LinearRing", "MultiLineString", "Point", "MultiPoint"):
+            walk(obj.buffer(tolerance or 0.05))
+
+    walk(g)
+    return " ".join(parts)
+
+
+def _points(points) -> str:
+    return " ".join(_xy(float(x), float(y)) for x, y in points)
+
+
+def drawing_element(d: Drawing, css_class: str, unit: float, title: str = "") -> str:
+    t = f"<title>{escape(title)}</title>" if title else ""
+    if d.kind == "polygon" and len(d.points) >= 3:
+        return f'<polygon class="{css_class}" points="{_points(d.points)}">{t}</polygon>'
+    if d.kind == "polyline" and len(d.points) >= 2:
+        return f'<polyline class="{css_class}" points="{_points(d.points)}">{t}</polyline>'
+    if d.points:
+        x, y = d.points[0]
+        return (f'<circle class="{css_class}" cx="{x:.3f}" cy="{-y:.3f}" r="{3 * unit:.3f}">'
+                f'{t}</circle>')
+    return ""
+
+
+def _overlay_class(quantity: str) -> str | None:
+    if quantity == "hot_loop.area":
+        return "hot-loop"
+    if quantity.startswith("input_cap."):
+        return "route route-input-cap"
+    if quantity.startswith("controller_decoupling."):
+        return "route route-decoupling"
+    if quantity.startswith("sense."):
+        return "route route-sense"
+    if quantity.startswith("path."):
+        return "route route-path"
+    return None
+
+
+def board_svg(board: Board, measurements: list[Measurement], findings: list[Finding],
+              finding_ids: list[str], layers: list[int] | None = None, markers: bool = True,
+              overlays: bool = True, css_id: str = "board-view", tolerance: float | None = None,
+              value_labels: dict[int, str] | None = None) -> str:
+    """One SVG: the chosen copper layers (all by default) bottom first, the outline, overlays
+    from the measurements' drawings, and one marker per finding (unlocated ones in a strip
+    below the board). ``value_labels`` maps id(measurement) to a label drawn at the loop."""
+    fr = Frame.of(board)
+    u = fr.unit
+    tol = tolerance if tolerance is not None else max(fr.width, fr.height) / 2500.0
+    chosen = list(range(len(board.layers))) if layers is None else layers
+    unlocated = [i for i, f in enumerate(findings) if f.x_mm is None or f.y_mm is None]
+    strip = (14 * u) if (markers and unlocated) else 0.0
+    vb = f"{fr.minx:.3f} {-fr.maxy:.3f} {fr.width:.3f} {fr.height + strip:.3f}"
+    out = [f'<svg xmlns="http://www.w3.org/2000/svg" id="{css_id}" class="board-svg" '
+           f'viewBox="{vb}" preserveAspectRatio="xMidYMid meet" role="img" '
+           f'aria-label="copper layers of {escape(board.name)}" '
+           f'style="--u:{u:.4f}px">']
+    out.append(f'<rect class="backdrop" x="{fr.minx:.3f}" y="{-fr.maxy:.3f}" '
+               f'width="{fr.width:.3f}" height="{fr.height:.3f}"/>')
+    if board.outline is not None and not board.outline.geometry.is_empty:
+        out.append(f'<path class="outline" d="{geometry_path(board.outline.geometry, tol)}" '
+                   f'stroke-width="{1.2 * u:.3f}"/>')
+    n = len(board.layers)
+    for idx in sorted(chosen, reverse=True):           # bottom first, top drawn last
+        layer = board.layers[idx]
+        colour = layer_colour(idx, n)
+        d = geometry_path(layer.geometry, tol)
+        out.append(f'<g class="layer layer-{idx}" data-layer="{escape(layer.name)}">'
+                   f'<path class="copper" fill="{colour}" fill-rule="evenodd" d="{d}">'
+                   f'<title>{escape(layer.name)} copper</title></path></g>')
+    if overlays:
+        out.append(f'<g class="overlays" stroke-width="{1.6 * u:.3f}">')
+        for m in measurements:
+            cls = _overlay_class(m.quantity)
+            if cls is None:
+                continue
+            for d in m.drawings:
+                title = f"{m.stage + ': ' if m.stage else ''}{m.label}"
+                out.append(drawing_element(d, cls, u, title))
+            if cls == "hot-loop" and value_labels and id(m) in value_labels:
+                x, y = _label_point(m)
+                if x is not None:
+                    out.append(f'<text class="loop-label" x="{x:.3f}" y="{-y:.3f}" '
+                               f'font-size="{9 * u:.3f}" text-anchor="middle">'
+                               f'{escape(value_labels[id(m)])}</text>')
+        out.append("</g>")
+    if markers:
+        out.append('<g class="markers">')
+        r = 5.5 * u
+        for slot, i in enumerate(unlocated):
+            x = fr.minx + (8 + slot * 14) * u
+            y = -(fr.miny - strip / 2)
+            out.append(_marker(findings[i], finding_ids[i], i, x, y, r, u, located=False))
+        for i, f in enumerate(findings):
+            if f.x_mm is None or f.y_mm is None:
+                continue
+            out.append(_marker(f, finding_ids[i], i, f.x_mm, f.y_mm, r, u, located=True))
+        out.append("</g>")
+        if unlocated:
+            out.append(f'<text class="strip-label" x="{fr.minx + (8 + len(unlocated) * 14) * u:.3f}"'
+                       f' y="{-(fr.miny - strip / 2) + 3 * u:.3f}" font-size="{8 * u:.3f}">'
+                       f'findings with no place on the board</text>')
+    out.append("</svg>")
+    return "".join(out)
+
+
+def _label_point(m: Measurement) -> tuple[float | None, float | None]:
+    """Where the loop's area label goes: the middle of its drawing (a marker may sit at the
+    measurement's own point)."""
+    for d in m.drawings:
+        if d.points:
+            xs = [p[0] for p in d.points]
+            ys = [p[1] for p in d.points]
+            return (min(xs) + max(xs)) / 2, max(ys) - 0.3 * (max(ys) - min(ys))
+    if m.x_mm is not None and m.y_mm is not None:
+        return m.x_mm, m.y_mm
+    return None, None
+
+
+def _marker(f: Finding, fid: str, i: int, x: float, y_board_or_svg: float, r: float, u: float,
+            located: bool) -> str:
+    colour = WAIVED_COLOUR if f.waived else SEVERITY_COLOURS.get(f.severity, "#444")
+    cy = -y_board_or_svg if located else y_board_or_svg
+    label = f"{i + 1}"
+    title = f"{label}. {f.rule} ({'waived' if f.waived else f.severity}): {f.message}"
+    return (f'<a href="#{fid}" class="finding-marker sev-{f.severity}'
+            f'{" waived" if f.waived else ""}" id="marker-{fid}" data-finding="{fid}">'
+            f'<title>{escape(title)}</title>'
+            f'<circle cx="{x:.3f}" cy="{cy:.3f}" r="{r:.3f}" fill="{colour}" '
+            f'stroke="#fff" stroke-width="{0.9 * u:.3f}"/>'
+            f'<text x="{x:.3f}" y="{cy + 2.6 * u:.3f}" font-size="{7.5 * u:.3f}" '
+            f'text-anchor="middle" fill="#fff">{label}</text></a>')
