@@ -7,7 +7,6 @@ description asks for, built directly with shapely.
 
 from __future__ import annotations
 
-import math
 import shutil
 import subprocess
 from pathlib import Path

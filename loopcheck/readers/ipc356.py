@@ -100,9 +100,11 @@ class NetPoint:
     access: int                   # 0 = through (all layers), 1 = top, N = layer N
     hole_mm: float | None         # drilled diameter; None without a hole field
     plated: bool | None           # None without a hole field
-    width_mm: float | None        # feature size along x; None when not given
-    height_mm: float | None       # along y (= width for a round feature)
-    rotation_deg: float
+    # Feature size as written (the pad's own x/y, before ``rotation_deg`` turns it, as gerbv
+    # reads it and as the corpus netlist's rotated pads show); None when not given.
+    width_mm: float | None
+    height_mm: float | None       # = width for a round feature (no Y size)
+    rotation_deg: float           # degrees, as written (CUST 2 radians converted)
     is_via: bool
     midpoint: bool                # a mid-net point (col 32 "M")
     line: int                     # 1-based line number in the file
