@@ -127,6 +127,66 @@ class SynthBoard:
 
 
 # ----------------------------------------------------------------------------------------------
+# pours with clearance (a help for describing boards; write_fab itself never moves copper)
+
+
+def _pad_shape(pad: SynthPad):
+    from shapely.geometry import LineString, Point as ShapelyPoint, box
+    if pad.shape == "circle":
+        return ShapelyPoint(pad.x_mm, pad.y_mm).buffer(pad.w_mm / 2, quad_segs=32)
+    if pad.shape == "obround" and abs(pad.w_mm - pad.h_mm) > 1e-12:
+        r = min(pad.w_mm, pad.h_mm) / 2
+        dx, dy = (pad.w_mm / 2 - r, 0.0) if pad.w_mm > pad.h_mm else (0.0, pad.h_mm / 2 - r)
+        return LineString([(pad.x_mm - dx, pad.y_mm - dy),
+                           (pad.x_mm + dx, pad.y_mm + dy)]).buffer(r, quad_segs=32)
+    if pad.shape == "obround":
+        return ShapelyPoint(pad.x_mm, pad.y_mm).buffer(pad.w_mm / 2, quad_segs=32)
+    return box(pad.x_mm - pad.w_mm / 2, pad.y_mm - pad.h_mm / 2,
+               pad.x_mm + pad.w_mm / 2, pad.y_mm + pad.h_mm / 2)
+
+
+def copper_shapes(board: SynthBoard, layer: int) -> list[tuple[str, object]]:
+    """(net, shapely geometry in mm) of every trace, pad and via on copper layer ``layer``
+    (1 = top), pours left out."""
+    from shapely.geometry import LineString, Point as ShapelyPoint
+    out: list[tuple[str, object]] = []
+    for t in board.traces:
+        if t.layer == layer:
+            out.append((t.net, LineString(t.points).buffer(t.width_mm / 2, quad_segs=32)))
+    for comp in board.components:
+        for pad in comp.pads:
+            if layer in _pad_layers(pad, board.layer_count):
+                out.append((pad.net, _pad_shape(pad)))
+    for via in board.vias:
+        out.append((via.net, ShapelyPoint(via.x_mm, via.y_mm).buffer(via.pad_mm / 2, quad_segs=32)))
+    return out
+
+
+def pours_with_clearance(board: SynthBoard, net: str, layer: int, polygon: list[Point],
+                         clearance_mm: float, holes: list[list[Point]] = ()) -> list[SynthPour]:
+    """A pour of ``net`` on ``layer`` over ``polygon``, kept ``clearance_mm`` [mm] away from the
+    board's traces, pads and vias of other nets on that layer (as they stand when called).
+
+    Returns one SynthPour per separate piece (a pour cut in two by a trace is two pieces);
+    append them to ``board.pours``. Curved clearances are polygons of 32 segments a quarter.
+    """
+    from shapely.geometry import Polygon, MultiPolygon
+    from shapely.ops import unary_union
+    area = Polygon(polygon, [list(h) for h in holes])
+    others = [g for n, g in copper_shapes(board, layer) if n != net]
+    if others:
+        area = area.difference(unary_union(others).buffer(clearance_mm, quad_segs=32))
+    pieces = area.geoms if isinstance(area, MultiPolygon) else ([area] if not area.is_empty else [])
+    out = []
+    for piece in pieces:
+        if piece.is_empty or piece.geom_type != "Polygon":
+            continue
+        out.append(SynthPour(net, layer, [tuple(c) for c in piece.exterior.coords[:-1]],
+                             [[tuple(c) for c in ring.coords[:-1]] for ring in piece.interiors]))
+    return out
+
+
+# ----------------------------------------------------------------------------------------------
 # file names
 
 
@@ -273,6 +333,11 @@ class _GerberWriter:
         return "\n".join(lines) + "\n"
 
 
+def _ring_area(ring: list[Point]) -> float:
+    """Signed area of a ring [mm2] (shoelace formula)."""
+    return 0.5 * sum(x0 * y1 - x1 * y0 for (x0, y0), (x1, y1) in zip(ring, ring[1:] + ring[:1]))
+
+
 def _pad_layers(pad: SynthPad, layer_count: int) -> list[int]:
     if pad.hole_mm is not None:
         return list(range(1, layer_count + 1))
@@ -287,10 +352,11 @@ def _copper_layer_text(board: SynthBoard, index: int, units: str) -> str:
     n = board.layer_count
     g = _GerberWriter(_file_function(index, n), units, board.name)
     # Pours first with their clear holes, so that the traces and pads written after them are
-    # dark on top (a clear region clears everything drawn before it on the layer).
-    for pour in board.pours:
-        if pour.layer != index:
-            continue
+    # dark on top (a clear region clears everything drawn before it on the layer). Larger pours
+    # first, so that an island standing in another pour's hole is written after that hole.
+    layer_pours = [p for p in board.pours if p.layer == index]
+    layer_pours.sort(key=lambda p: -abs(_ring_area(p.polygon)))
+    for pour in layer_pours:
         g.attrs(N=_x2_field(pour.net))
         g.body.append("%TA.AperFunction,Conductor*%")
         g.region(pour.polygon)

@@ -246,3 +246,45 @@ def test_gerbv_renders_the_described_copper_area(fab, tmp_path):
     want = expected_copper(board, 2).area
     # measured: 493.26 mm2 lit vs 493.23 described (6e-5); pixel rounding stays well under 0.5 %
     assert lit * pixel_mm2 == pytest.approx(want, rel=0.005), (lit * pixel_mm2, want)
+
+
+def test_pours_with_clearance_keeps_away_from_other_nets_and_islands_survive(tmp_path):
+    from loopcheck.synth import pours_with_clearance
+    board = SynthBoard("pour", 20.0, 20.0, 2,
+                       components=[SynthComponent("R1", "1k", [SynthPad("1", "SIG", 10.0, 10.0, 2.0, 2.0)])],
+                       traces=[SynthTrace("SIG", 1, 0.4, [(10.0, 0.5), (10.0, 19.5)])])
+    # an island of GND inside a ring-shaped frame of SIG copper
+    board.traces.append(SynthTrace("SIG", 1, 0.3, [(3, 3), (7, 3), (7, 7), (3, 7), (3, 3)]))
+    pieces = pours_with_clearance(board, "GND", 1, [(1, 1), (19, 1), (19, 19), (1, 19)], 0.25)
+    board.pours += pieces
+    # the vertical SIG trace cuts the pour; the frame encloses an island: 3 pieces
+    assert len(pieces) == 3
+    got = gerbonara_copper(write_fab(board, tmp_path)["L1"])
+    want = expected_copper(board, 1)
+    assert got.area == pytest.approx(want.area, rel=1e-4)
+    assert got.contains(Point(5.0, 5.0))                   # the island was not cleared
+    # no GND copper within the clearance of the trace: between 10.2 and 10.45 only air
+    assert not got.contains(Point(10.3, 15.0))
+    gnd = unary_union([Polygon(p.polygon, p.holes) for p in pieces])
+    sig = LineString([(10.0, 0.5), (10.0, 19.5)]).buffer(0.2)
+    assert gnd.distance(sig) == pytest.approx(0.25, abs=1e-3)
+
+
+@pytest.mark.parametrize("layer", [1, 2, 3, 4])
+def test_round_trip_through_the_project_gerber_reader(fab, layer):
+    """loopcheck's own Gerber reader finds the described copper and every pin flash."""
+    gerber = pytest.importorskip("loopcheck.readers.gerber")
+    board, paths = fab
+    got = gerber.read_gerber(paths[f"L{layer}"])
+    want = expected_copper(board, layer)
+    # both sides approximate arcs by polygons; 1e-4 covers the difference in segment counts
+    assert got.geometry.area == pytest.approx(want.area, rel=1e-4)
+    assert got.attributes["FileFunction"].startswith(f"Copper,L{layer},")
+    flashes = {(f.ref, f.pin): f for f in got.pin_flashes}
+    on_layer = {(c.ref, p.pin): p for c in board.components for p in c.pads
+                if p.hole_mm is not None or (layer == 1 and p.layer == "top")
+                or (layer == board.layer_count and p.layer == "bottom")}
+    assert set(flashes) == set(on_layer)
+    for key, pad in on_layer.items():
+        assert (flashes[key].x_mm, flashes[key].y_mm) == pytest.approx((pad.x_mm, pad.y_mm), abs=1e-6)
+        assert flashes[key].net == pad.net
