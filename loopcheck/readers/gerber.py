@@ -1,0 +1,827 @@
+"""Gerber (RS-274X / X2 / X3) reader: one copper layer -> one shapely geometry in mm.
+
+Parsing is gerbonara's (``GerberParser``), with a thin subclass that
+  * records step-and-repeat blocks instead of letting gerbonara copy objects (its 1.5.0 expansion
+    drops the first object of a block and every region in it), and checks the expanded object
+    count against the limits *before* anything is expanded;
+  * keeps %IPNEG% for itself (applied once, to the finished image, instead of flipping each
+    object's polarity);
+  * reads X2 attributes written inside comments (``G04 #@! TF...*``, ``G04 #@! TO...*``);
+  * gives regions the object attributes (net, pin) that were current when they were drawn;
+  * tolerates a %TD% of an attribute that was never set (harmless, and some writers do it);
+  * supports the LM / LR / LS aperture transformations (mirror, rotate, scale of flashes).
+
+Geometry is built here: each aperture's shape once (``aperture_shapes``), flashes stamped
+vectorised, strokes with round apertures buffered (round caps), strokes with other apertures swept
+as the convex hull of the aperture at both ends, arcs and region arcs approximated by chords with a
+sagitta below ``tol_mm`` (default 5 um; circles are area-equivalent polygons), regions repaired
+with ``make_valid`` (cut-ins). Polarity is applied in file order: runs of one polarity are unioned
+with ``shapely.union_all`` and then added (dark) to or cut (clear) from the image.
+
+References
+----------
+Ucamco, "The Gerber Layer Format Specification", revision 2023.08: 4.7 (regions), 4.9 (LM, LR,
+LS), 4.10 (polarity), 4.11 (step and repeat), 5 (attributes), 8.1 (deprecated IP).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import shapely
+import shapely.affinity
+from shapely.geometry import Polygon, box
+from shapely.geometry.base import BaseGeometry
+
+from gerbonara import graphic_objects as go
+from gerbonara.rs274x import GerberFile, GerberParser
+from gerbonara.utils import Inch
+
+from ..errors import InputError
+from ..limits import DEFAULT_LIMITS, InputLimits
+from . import aperture_shapes as shp
+from .aperture_shapes import DEFAULT_TOL_MM, aperture_info, unit_factor
+
+EMPTY = Polygon()
+
+
+@dataclass(frozen=True)
+class PinFlash:
+    """A component pad named by an X2 %TO.P% attribute (on a flash, or a region's centroid)."""
+
+    ref: str
+    pin: str
+    net: str | None
+    x_mm: float
+    y_mm: float
+    function: str | None = None    # third field of %TO.P%, e.g. "Anode", where given
+
+
+@dataclass
+class GerberLayer:
+    """One Gerber layer as geometry in mm (dark minus clear, in file order), with X2 attributes."""
+
+    path: str
+    geometry: BaseGeometry
+    attributes: dict[str, str] = field(default_factory=dict)   # "FileFunction" -> "Copper,L1,Top"
+    net_copper: dict[str, BaseGeometry] = field(default_factory=dict)
+    pin_flashes: list[PinFlash] = field(default_factory=list)
+    component_values: dict[str, str] = field(default_factory=dict)
+    object_count: int = 0            # graphic objects after step-and-repeat
+    units: str = "mm"                # the file's own units: "mm" or "inch"
+    negative: bool = False           # True when the image was inverted (%IPNEG% / negative copper)
+    chord_tolerance_mm: float = DEFAULT_TOL_MM
+    warnings: list[str] = field(default_factory=list)
+
+
+class _LimitExceeded(Exception):
+    pass
+
+
+class _ObjectList(list):
+    """gerbonara's parser appends every finished object here: stamp regions, count objects."""
+
+    def __init__(self, parser: "_Parser"):
+        super().__init__()
+        self._parser = parser
+
+    def append(self, obj):  # noqa: D401
+        p = self._parser
+        if isinstance(obj, go.Region) and not _attrs(obj):
+            obj.attrs = dict(p.graphics_state.object_attrs)
+        if p.aperture_transform is not None and isinstance(obj, (go.Flash, go.Line, go.Arc)):
+            obj.__dict__["_lc_transform"] = p.aperture_transform
+        super().append(obj)
+        if len(self) + p.sr_extra > p.limits.max_objects_per_layer:
+            raise _LimitExceeded(
+                f"more than {p.limits.max_objects_per_layer} graphic objects in one layer (limit)")
+
+
+@dataclass
+class _SRBlock:
+    start: int
+    end: int
+    offsets: list[tuple[float, float]]   # in file units
+
+
+class _Parser(GerberParser):
+    STATEMENT_REGEXES = dict(GerberParser.STATEMENT_REGEXES)
+    _DEC = r"[\+-]?\d+(?:[.]\d*)?|[\+-]?[.]\d+"
+    STATEMENT_REGEXES["load_mirroring"] = r"^LM(?P<mirror>N|XY|X|Y)$"
+    STATEMENT_REGEXES["load_rotation"] = fr"^LR(?P<angle>{_DEC})$"
+    STATEMENT_REGEXES["load_scaling"] = fr"^LS(?P<scale>{_DEC})$"
+
+    def __init__(self, target, limits: InputLimits):
+        super().__init__(target)
+        self.limits = limits
+        self.sr_blocks: list[_SRBlock] = []
+        self.sr_open: tuple[int, list[tuple[float, float]]] | None = None
+        self.sr_extra = 0
+        self.image_negative = False
+        self.mirror = "N"
+        self.rotation_deg = 0.0
+        self.scale = 1.0
+        self.aperture_transform = None
+
+    # -- step and repeat: record blocks, expand later (and only after the count check)
+    def _close_sr(self):
+        if self.sr_open is None:
+            return
+        start, offsets = self.sr_open
+        end = len(self.target.objects)
+        self.sr_open = None
+        if len(offsets) > 1 and end > start:
+            self.sr_extra += (len(offsets) - 1) * (end - start)
+            total = len(self.target.objects) + self.sr_extra
+            if total > self.limits.max_step_repeat_objects:
+                raise _LimitExceeded(
+                    f"step-and-repeat of {len(offsets)} copies x {end - start} objects would make "
+                    f"{total} graphic objects, over the limit of {self.limits.max_step_repeat_objects}")
+            self.sr_blocks.append(_SRBlock(start, end, offsets))
+
+    def _parse_step_repeat(self, match):
+        self._close_sr()   # a new SR statement also ends the block before it
+        if match["coords"]:
+            nx, ny = int(match["X"]), int(match["Y"])
+            i, j = float(match["I"]), float(match["J"])
+            if nx < 1 or ny < 1:
+                raise SyntaxError("SR step-repeat X and Y values must be at least 1")
+            if nx * ny > self.limits.max_step_repeat_objects:
+                raise _LimitExceeded(
+                    f"step-and-repeat of {nx} x {ny} copies is over the limit of "
+                    f"{self.limits.max_step_repeat_objects} graphic objects")
+            # the spec's order: y varies fastest within each x column
+            self.sr_open = (len(self.target.objects), [(i * a, j * b) for a in range(nx) for b in range(ny)])
+        self.step_repeat_coords = None
+        self.step_repeat_objects = None
+
+    def _parse_eof(self, match):
+        self._close_sr()
+        super()._parse_eof(match)
+
+    # -- deprecated image polarity: apply once to the whole image, at the end
+    def _parse_image_polarity(self, match):
+        self.image_negative = match["polarity"] == "NEG"
+
+    # -- X2 attributes hidden in comments, lenient attribute deletion
+    _COMMENT_ATTR = re.compile(r"#@!\s*(?P<body>T[FAOD].*)$")
+
+    def _parse_comment(self, match):
+        m = self._COMMENT_ATTR.match(match["comment"].strip())
+        if m:
+            am = re.match(self.STATEMENT_REGEXES["attribute"], m["body"].rstrip("*"))
+            if am:
+                self._parse_attribute(am)
+                return
+        super()._parse_comment(match)
+
+    def _parse_attribute(self, match):
+        if match["type"] == "TD" and match["name"]:
+            name = match["name"]
+            if name not in self.graphics_state.object_attrs and name not in self.aperture_attrs:
+                return   # deleting what was never set, or a file attribute: nothing to do
+        super()._parse_attribute(match)
+
+    # -- aperture transformations (gerbonara 1.5.0 has none)
+    def _update_transform(self):
+        if self.mirror == "N" and self.rotation_deg == 0.0 and self.scale == 1.0:
+            self.aperture_transform = None
+        else:
+            self.aperture_transform = (self.mirror, self.rotation_deg, self.scale)
+
+    def _parse_load_mirroring(self, match):
+        self.mirror = match["mirror"]
+        self._update_transform()
+
+    def _parse_load_rotation(self, match):
+        self.rotation_deg = float(match["angle"])
+        self._update_transform()
+
+    def _parse_load_scaling(self, match):
+        self.scale = float(match["scale"])
+        self._update_transform()
+
+
+# ----------------------------------------------------------------------------------------------
+# reading the text
+
+_BINARY_CHARS = re.compile(rb"[\x00-\x08\x0e-\x1f\x7f]")
+
+
+def _read_text(path: Path, limits: InputLimits, kind: str) -> str:
+    try:
+        size = path.stat().st_size
+    except OSError as e:
+        raise InputError(f"cannot read {kind} file: {e.strerror}", path=str(path)) from None
+    if size > limits.max_file_bytes:
+        raise InputError(f"{kind} file is {size} bytes, over the limit of {limits.max_file_bytes}",
+                         path=str(path))
+    try:
+        data = path.read_bytes()
+    except OSError as e:
+        raise InputError(f"cannot read {kind} file: {e.strerror}", path=str(path)) from None
+    sample = data[:65536]
+    if sample and len(_BINARY_CHARS.findall(sample)) > max(2, len(sample) // 1000):
+        raise InputError(f"not a {kind} file (binary data)", path=str(path))
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
+
+
+_X2_ESCAPE = re.compile(r"\\u([0-9a-fA-F]{4})")
+
+
+def _unescape(value: str) -> str:
+    """X2 attribute values escape characters as \\uXXXX (e.g. '*' as \\u002A)."""
+    return _X2_ESCAPE.sub(lambda m: chr(int(m[1], 16)), value)
+
+
+def _attrs(obj) -> dict:
+    """An object's X2 attributes (gerbonara's Region has a class-level placeholder, not a dict)."""
+    a = obj.__dict__.get("attrs")
+    return a if isinstance(a, dict) else {}
+
+
+def _attr_fields(attrs: dict, name: str) -> tuple[str, ...] | None:
+    v = attrs.get(name)
+    if v is None:
+        return None
+    return tuple(_unescape(str(x)) for x in v)
+
+
+_LINE_IN_MESSAGE = re.compile(r":(\d+) \"")
+
+
+def _parse(path: Path, text: str, limits: InputLimits) -> tuple[GerberFile, _Parser, list[str]]:
+    target = GerberFile()
+    parser = _Parser(target, limits)
+    target.objects = _ObjectList(parser)
+    notes: list[str] = []
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            parser.parse(text, filename=path.name)
+            parser._close_sr()
+        except _LimitExceeded as e:
+            raise InputError(str(e), path=str(path), line=parser.lineno or None) from None
+        except SyntaxError as e:
+            cause = e.__cause__
+            if isinstance(cause, _LimitExceeded):
+                raise InputError(str(cause), path=str(path), line=_line_of(e, parser)) from None
+            detail = str(cause) if cause is not None else str(e)
+            raise InputError(f"Gerber syntax error: {detail}", path=str(path),
+                             line=_line_of(e, parser)) from None
+        except RecursionError:
+            raise InputError("Gerber file too deeply nested", path=str(path)) from None
+        except Exception as e:  # gerbonara raises assorted types on malformed input
+            raise InputError(f"cannot parse Gerber: {type(e).__name__}: {e}", path=str(path),
+                             line=parser.lineno or None) from None
+    for w in caught:
+        msg = str(w.message)
+        if "missing mandatory M02" in msg:
+            raise InputError("Gerber file ends without M02: truncated or incomplete", path=str(path))
+        if issubclass(w.category, (SyntaxWarning, UserWarning)) and "Unknown statement" in msg:
+            notes.append(msg.split(": ", 1)[-1])
+    if target.unit is None and len(target.objects) == 0 and "%FS" not in text and "%MO" not in text:
+        raise InputError("not a Gerber file (no format or unit statement, no graphics)", path=str(path))
+    return target, parser, notes[:20]
+
+
+def _line_of(e: Exception, parser: _Parser) -> int | None:
+    m = _LINE_IN_MESSAGE.search(str(e))
+    if m:
+        return int(m[1])
+    return parser.lineno or None
+
+
+# ----------------------------------------------------------------------------------------------
+# geometry
+
+
+class _Shapes:
+    """Aperture shapes in mm, computed once per aperture (and per LM/LR/LS transformation)."""
+
+    def __init__(self, tol_mm: float):
+        self.tol = tol_mm
+        self._cache: dict = {}
+
+    def get(self, aperture, transform=None) -> shp.ApertureInfo:
+        key = (id(aperture), transform)
+        info = self._cache.get(key)
+        if info is None:
+            info = aperture_info(aperture, self.tol)
+            if transform is not None:
+                info = _transformed(info, transform, self.tol)
+            self._cache[key] = (info, aperture)   # keep the aperture alive: ids stay unique
+            return info
+        return info[0]
+
+
+def _transformed(info: shp.ApertureInfo, transform, tol_mm: float) -> shp.ApertureInfo:
+    mirror, rotation, scale = transform
+    g = info.shape
+    # order from memory of the specification: mirror, then rotate, then scale
+    if mirror in ("X", "XY"):
+        g = shapely.affinity.scale(g, -1.0, 1.0, origin=(0, 0))
+    if mirror in ("Y", "XY"):
+        g = shapely.affinity.scale(g, 1.0, -1.0, origin=(0, 0))
+    if rotation:
+        g = shapely.affinity.rotate(g, rotation, origin=(0, 0))
+    if scale != 1.0:
+        g = shapely.affinity.scale(g, scale, scale, origin=(0, 0))
+    r = info.round_radius_mm * scale if info.round_radius_mm is not None else None
+    simple = isinstance(g, Polygon) and not g.is_empty and len(g.interiors) == 0
+    return shp.ApertureInfo(g, r, simple)
+
+
+def arc_points(x1, y1, x2, y2, cx, cy, clockwise: bool, tol_mm: float) -> np.ndarray:
+    """Chord points (n, 2) of a circular arc from (x1, y1) to (x2, y2) about (cx, cy) [mm].
+
+    Equal start and end points make a full circle. The radius is interpolated between the start
+    and end radii, which differ slightly in real files (coordinate rounding). The chord count keeps
+    the sagitta r (1 - cos(dphi/2)) below ``tol_mm``.
+    """
+    r1 = math.hypot(x1 - cx, y1 - cy)
+    r2 = math.hypot(x2 - cx, y2 - cy)
+    a1 = math.atan2(y1 - cy, x1 - cx)
+    a2 = math.atan2(y2 - cy, x2 - cx)
+    if clockwise:
+        sweep = -((a1 - a2) % (2 * math.pi))
+    else:
+        sweep = (a2 - a1) % (2 * math.pi)
+    if abs(sweep) < 1e-12:
+        if math.hypot(x2 - x1, y2 - y1) < 1e-9:
+            sweep = -2 * math.pi if clockwise else 2 * math.pi
+        else:
+            return np.array([(x1, y1), (x2, y2)])
+    r = max(r1, r2)
+    if r <= tol_mm:
+        n = 2
+    else:
+        dphi = 2.0 * math.acos(max(-1.0, 1.0 - tol_mm / r))
+        n = max(2, int(math.ceil(abs(sweep) / dphi)))
+    n = min(n, 4096)
+    t = np.linspace(0.0, 1.0, n + 1)
+    ang = a1 + sweep * t
+    rad = r1 + (r2 - r1) * t
+    pts = np.column_stack((cx + rad * np.cos(ang), cy + rad * np.sin(ang)))
+    pts[0] = (x1, y1)
+    pts[-1] = (x2, y2)
+    return pts
+
+
+def region_polygon(region: go.Region, f: float, tol_mm: float) -> BaseGeometry:
+    """A region's contour (lines and arcs) as a valid shapely polygon [mm]."""
+    outline = region.outline
+    if len(outline) < 2:
+        return EMPTY
+    arcs = region.arc_centers
+    pts: list = [(outline[0][0] * f, outline[0][1] * f)]
+    for k in range(1, len(outline)):
+        x2, y2 = outline[k][0] * f, outline[k][1] * f
+        arc = arcs[k - 1] if k - 1 < len(arcs) else None
+        if arc and arc[0] is not None:
+            clockwise, (cx, cy) = arc
+            x1, y1 = pts[-1]
+            pts.extend(arc_points(x1, y1, x2, y2, cx * f, cy * f, clockwise, tol_mm)[1:].tolist())
+        else:
+            pts.append((x2, y2))
+    if len(pts) < 3:
+        return EMPTY
+    poly = Polygon(pts)
+    if not poly.is_valid:
+        poly = shp._polygonal(shapely.make_valid(poly))
+    return poly
+
+
+@dataclass
+class _Run:
+    dark: bool
+    geoms: list            # shapely geometries
+    nets: list             # net name or None, parallel to geoms
+
+
+def _object_net(obj) -> str | None:
+    attrs = _attrs(obj)
+    v = _attr_fields(attrs, ".N") if attrs else None
+    if v and v[0]:
+        return v[0]
+    return None
+
+
+def _run_geometries(objs: list, shapes: _Shapes) -> tuple[list, list]:
+    """Geometries [mm] of a list of objects of one polarity (order does not matter: they are unioned).
+
+    Strokes with a round aperture that continue one another (the next starts where the last ended,
+    same aperture, same net) are joined into one polyline and buffered once: the Minkowski sum of
+    a polyline with a disc is the union of its segments' sums, with far fewer vertices to union.
+    """
+    tol = shapes.tol
+    geoms: list = []
+    nets: list = []
+    flashes: dict = {}      # aperture key -> (info, [x], [y], [net])
+    chains: dict = {}       # radius -> list of ([points], net)
+    hull_lines: dict = {}   # aperture key -> (info, [x1,y1,x2,y2], [net])
+    chain = None            # the open chain: [radius, net, points]
+
+    def flush():
+        nonlocal chain
+        if chain is not None:
+            chains.setdefault(chain[0], []).append((chain[2], chain[1]))
+            chain = None
+
+    for obj in objs:
+        f = unit_factor(obj.unit)
+        net = _object_net(obj)
+        if isinstance(obj, go.Flash):
+            tr = obj.__dict__.get("_lc_transform")
+            info = shapes.get(obj.aperture, tr)
+            if info.shape.is_empty:
+                continue
+            entry = flashes.get((id(obj.aperture), tr))
+            if entry is None:
+                entry = flashes[(id(obj.aperture), tr)] = (info, [], [], [])
+            entry[1].append(obj.x * f)
+            entry[2].append(obj.y * f)
+            entry[3].append(net)
+        elif isinstance(obj, (go.Line, go.Arc)):
+            if obj.aperture is None:
+                continue
+            tr = obj.__dict__.get("_lc_transform")
+            info = shapes.get(obj.aperture, tr)
+            x1, y1, x2, y2 = obj.x1 * f, obj.y1 * f, obj.x2 * f, obj.y2 * f
+            r = info.round_radius_mm
+            if isinstance(obj, go.Arc):
+                pts = arc_points(x1, y1, x2, y2, x1 + obj.cx * f, y1 + obj.cy * f, obj.clockwise, tol)
+                if r is None:
+                    if not info.shape.is_empty:
+                        geoms.append(_swept_hull(info, pts))
+                        nets.append(net)
+                    continue
+                new_pts = pts.tolist()
+            else:
+                if r is None:
+                    if not info.shape.is_empty:
+                        entry = hull_lines.setdefault((id(obj.aperture), tr), (info, [], []))
+                        entry[1].append((x1, y1, x2, y2))
+                        entry[2].append(net)
+                    continue
+                new_pts = [(x1, y1), (x2, y2)]
+            if r <= 0:
+                continue
+            if (chain is not None and chain[0] == r and chain[1] == net
+                    and abs(chain[2][-1][0] - x1) < 1e-9 and abs(chain[2][-1][1] - y1) < 1e-9):
+                chain[2].extend(new_pts[1:])
+            else:
+                flush()
+                chain = [r, net, list(new_pts)]
+        elif isinstance(obj, go.Region):
+            g = region_polygon(obj, f, tol)
+            if not g.is_empty:
+                geoms.append(g)
+                nets.append(net)
+    flush()
+    for info, xs, ys, fnets in flashes.values():
+        geoms.extend(_stamp(info.shape, info.simple, np.column_stack((xs, ys))))
+        nets.extend(fnets)
+    for r, items in chains.items():
+        q = shp.segments_for_radius(r, tol) // 4
+        coords = np.concatenate([np.asarray(p, dtype=float) for p, _ in items])
+        index = np.repeat(np.arange(len(items)), [len(p) for p, _ in items])
+        lines = shapely.linestrings(coords, indices=index)
+        geoms.extend(shapely.buffer(lines, r, quad_segs=q).tolist())
+        nets.extend(n for _, n in items)
+    for info, segs, lnets in hull_lines.values():
+        base = _outline_points(info.shape)
+        a = np.asarray(segs, dtype=float)
+        p1 = base[None, :, :] + a[:, None, 0:2]
+        p2 = base[None, :, :] + a[:, None, 2:4]
+        hulls = shapely.convex_hull(shapely.multipoints(np.concatenate((p1, p2), axis=1)))
+        geoms.extend(hulls.tolist())
+        nets.extend(lnets)
+    return geoms, nets
+
+
+def _outline_points(shape: BaseGeometry) -> np.ndarray:
+    return np.asarray(shapely.get_coordinates(shape.convex_hull if not isinstance(shape, Polygon)
+                                              else shape.exterior), dtype=float)
+
+
+def _swept_hull(info: shp.ApertureInfo, pts: np.ndarray) -> BaseGeometry:
+    """A non-round aperture dragged along a polyline: the union of per-segment convex hulls."""
+    base = _outline_points(info.shape)
+    parts = [shapely.MultiPoint(np.vstack((base + pts[k], base + pts[k + 1]))).convex_hull
+             for k in range(len(pts) - 1)]
+    return shapely.union_all(parts) if parts else EMPTY
+
+
+def _stamp(shape: BaseGeometry, simple: bool, xy: np.ndarray) -> list:
+    """Copies of ``shape`` translated to each row of ``xy`` [mm]."""
+    if len(xy) == 0:
+        return []
+    if simple:
+        base = np.asarray(shape.exterior.coords)
+        return shapely.polygons(base[None, :, :] + xy[:, None, :]).tolist()
+    k = len(shapely.get_coordinates(shape))
+    copies = np.full(len(xy), shape, dtype=object)
+    shift = np.repeat(xy, k, axis=0)
+    return shapely.transform(copies, lambda c: c + shift).tolist()
+
+
+def _runs(objs: list, shapes: _Shapes) -> list[_Run]:
+    runs: list[_Run] = []
+    start = 0
+    for k in range(1, len(objs) + 1):
+        if k == len(objs) or objs[k].polarity_dark != objs[start].polarity_dark:
+            geoms, nets = _run_geometries(objs[start:k], shapes)
+            runs.append(_Run(bool(objs[start].polarity_dark), geoms, nets))
+            start = k
+    return runs
+
+
+class _Image:
+    """The layer image being built: dark adds, clear cuts, in file order; per-net copper kept."""
+
+    def __init__(self):
+        self.acc: BaseGeometry = EMPTY
+        self.net_parts: dict[str, list] = {}
+        self.bounds = [math.inf, math.inf, -math.inf, -math.inf]
+
+    def apply(self, run: _Run, offset=(0.0, 0.0)):
+        geoms = run.geoms
+        if not geoms:
+            return
+        if offset != (0.0, 0.0):
+            arr = np.array(geoms, dtype=object)
+            geoms = shapely.transform(arr, lambda c: c + np.asarray(offset)).tolist()
+        merged = shapely.union_all(geoms)
+        if merged.is_empty:
+            return
+        b = merged.bounds
+        self.bounds = [min(self.bounds[0], b[0]), min(self.bounds[1], b[1]),
+                       max(self.bounds[2], b[2]), max(self.bounds[3], b[3])]
+        if run.dark:
+            self.acc = merged if self.acc.is_empty else shapely.union(self.acc, merged)
+            for g, net in zip(geoms, run.nets):
+                if net is not None:
+                    self.net_parts.setdefault(net, []).append(g)
+        elif not self.acc.is_empty:
+            self.acc = shapely.difference(self.acc, merged)
+
+
+def _build_image(objects: list, sr_blocks: list[_SRBlock], f_sr: float, shapes: _Shapes) -> _Image:
+    image = _Image()
+    pos = 0
+    for block in sorted(sr_blocks, key=lambda b: b.start):
+        for run in _runs(objects[pos:block.start], shapes):
+            image.apply(run)
+        block_runs = _runs(objects[block.start:block.end], shapes)
+        if all(r.dark for r in block_runs):
+            # all dark: one union per block, copies translated (order cannot matter)
+            geoms = [g for r in block_runs for g in r.geoms]
+            nets = [n for r in block_runs for n in r.nets]
+            copies = _Run(True, [], [])
+            for dx, dy in block.offsets:
+                off = np.array((dx * f_sr, dy * f_sr))
+                arr = np.array(geoms, dtype=object)
+                moved = shapely.transform(arr, lambda c, off=off: c + off).tolist() if geoms else []
+                copies.geoms.extend(moved)
+                copies.nets.extend(nets)
+            image.apply(copies)
+        else:
+            for dx, dy in block.offsets:
+                for run in block_runs:
+                    image.apply(run, (dx * f_sr, dy * f_sr))
+        pos = block.end
+    for run in _runs(objects[pos:], shapes):
+        image.apply(run)
+    return image
+
+
+def _pin_flashes_and_values(objects: list, sr_blocks: list[_SRBlock], f_sr: float):
+    pins: list[PinFlash] = []
+    seen: set = set()
+    values: dict[str, str] = {}
+    copies = [((0.0, 0.0),)] * len(objects)
+    for block in sr_blocks:
+        for k in range(block.start, block.end):
+            copies[k] = tuple(block.offsets)
+    region_pins = []
+    for k, obj in enumerate(objects):
+        attrs = _attrs(obj)
+        if not attrs:
+            continue
+        c = _attr_fields(attrs, ".C")
+        cval = _attr_fields(attrs, ".CVal")
+        if c and cval and c[0]:
+            values.setdefault(c[0], ",".join(cval))
+        p = _attr_fields(attrs, ".P")
+        if not p or len(p) < 2:
+            continue
+        net = _object_net(obj)
+        function = p[2] if len(p) > 2 and p[2] else None
+        f = unit_factor(obj.unit)
+        if isinstance(obj, go.Flash):
+            x, y = obj.x * f, obj.y * f
+        elif isinstance(obj, go.Region) and obj.polarity_dark:
+            g = region_polygon(obj, f, DEFAULT_TOL_MM)
+            if g.is_empty:
+                continue
+            pt = g.centroid
+            region_pins.append((p[0], p[1], net, pt.x, pt.y, function, copies[k]))
+            continue
+        else:
+            continue
+        for dx, dy in copies[k]:
+            pins.append(PinFlash(p[0], p[1], net, x + dx * f_sr, y + dy * f_sr, function))
+            seen.add((p[0], p[1]))
+    for ref, pin, net, x, y, function, offs in region_pins:
+        if (ref, pin) in seen:
+            continue
+        for dx, dy in offs:
+            pins.append(PinFlash(ref, pin, net, x + dx * f_sr, y + dy * f_sr, function))
+    return pins, values
+
+
+def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = DEFAULT_TOL_MM,
+                negative_extent: BaseGeometry | None = None) -> GerberLayer:
+    """Read one Gerber layer into shapely geometry in mm.
+
+    Parameters
+    ----------
+    path : the Gerber file
+    limits : size and object-count limits for untrusted input
+    tol_mm : chord tolerance (sagitta) for arcs and circles [mm] (default 0.005)
+    negative_extent : the area a negative image is inverted within [mm]; default the bounding
+        box of everything the file draws (what a photoplotter's film frame would show)
+
+    Raises
+    ------
+    InputError : unreadable, truncated, malformed or over-limit files (one line, names the file)
+    """
+    path = Path(path)
+    text = _read_text(path, limits, "Gerber")
+    target, parser, notes = _parse(path, text, limits)
+    objects = list(target.objects)
+    shapes = _Shapes(tol_mm)
+    f_sr = unit_factor(target.unit)
+    try:
+        image = _build_image(objects, parser.sr_blocks, f_sr, shapes)
+        pins, values = _pin_flashes_and_values(objects, parser.sr_blocks, f_sr)
+    except (ValueError, TypeError, IndexError, KeyError, ZeroDivisionError) as e:
+        raise InputError(f"cannot build Gerber geometry: {type(e).__name__}: {e}", path=str(path)) from None
+    except shapely.errors.GEOSException as e:
+        raise InputError(f"geometry error while building the layer: {e}", path=str(path)) from None
+
+    attributes = {}
+    for name, value in target.file_attrs.items():
+        key = name[1:] if name.startswith(".") else name
+        attributes[key] = ",".join(_unescape(str(v)) for v in value)
+    if parser.image_negative:
+        attributes.setdefault("ImagePolarity", "Negative")
+
+    geometry = image.acc
+    function = attributes.get("FileFunction", "")
+    negative = parser.image_negative or (
+        function.lower().startswith(("copper", "plane")) and attributes.get("FilePolarity", "").lower() == "negative")
+    if negative:
+        if negative_extent is not None:
+            frame = negative_extent
+        elif math.isfinite(image.bounds[0]):
+            frame = box(*image.bounds)
+        else:
+            frame = EMPTY
+        geometry = shapely.difference(frame, geometry) if not frame.is_empty else EMPTY
+
+    net_copper = {}
+    for net, parts in image.net_parts.items():
+        g = shapely.union_all(parts)
+        if not negative:
+            g = shapely.intersection(g, geometry)   # later clear objects cut it too
+        net_copper[net] = g
+
+    return GerberLayer(
+        path=str(path),
+        geometry=geometry,
+        attributes=attributes,
+        net_copper=net_copper,
+        pin_flashes=pins,
+        component_values=values,
+        object_count=len(objects) + parser.sr_extra,
+        units="inch" if target.unit == Inch else "mm",
+        negative=negative,
+        chord_tolerance_mm=tol_mm,
+        warnings=notes,
+    )
+
+
+# ----------------------------------------------------------------------------------------------
+# board outline
+
+
+def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: float = 0.01,
+                 tol_mm: float = DEFAULT_TOL_MM) -> Polygon:
+    """The board outline from a profile / edge-cuts / outline layer, as a Polygon in mm.
+
+    Drawn lines and arcs are taken along their centre lines, snapped together end to end within
+    ``join_tol_mm`` and polygonised; the largest closed face is the board and closed paths inside
+    it are its cut-outs (holes). An outline drawn as regions works too. If the drawn path does not
+    close within the tolerance, a coarser one (0.1 mm) is tried before giving up.
+
+    Raises
+    ------
+    InputError : no closed outline in the file, or the file itself is bad
+    """
+    path = Path(path)
+    text = _read_text(path, limits, "Gerber")
+    target, parser, _notes = _parse(path, text, limits)
+    objects = list(target.objects)
+    f_sr = unit_factor(target.unit)
+    offsets_of = [((0.0, 0.0),)] * len(objects)
+    for block in parser.sr_blocks:
+        for k in range(block.start, block.end):
+            offsets_of[k] = tuple(block.offsets)
+    lines, regions = [], []
+    for k, obj in enumerate(objects):
+        f = unit_factor(obj.unit)
+        if isinstance(obj, go.Line):
+            pts = np.array([(obj.x1 * f, obj.y1 * f), (obj.x2 * f, obj.y2 * f)])
+            if np.allclose(pts[0], pts[1]):
+                continue
+        elif isinstance(obj, go.Arc):
+            x1, y1 = obj.x1 * f, obj.y1 * f
+            pts = arc_points(x1, y1, obj.x2 * f, obj.y2 * f, x1 + obj.cx * f, y1 + obj.cy * f,
+                             obj.clockwise, tol_mm)
+        elif isinstance(obj, go.Region) and obj.polarity_dark:
+            g = region_polygon(obj, f, tol_mm)
+            for dx, dy in offsets_of[k]:
+                regions.append(shapely.affinity.translate(g, dx * f_sr, dy * f_sr))
+            continue
+        else:
+            continue
+        for dx, dy in offsets_of[k]:
+            lines.append(shapely.LineString(pts + np.array((dx * f_sr, dy * f_sr))))
+
+    best: BaseGeometry = EMPTY
+    for grid in (join_tol_mm, 0.1):
+        if not lines:
+            break
+        snapped = shapely.set_precision(np.array(lines, dtype=object), grid)
+        noded = shapely.union_all(snapped)
+        faces = list(shapely.polygonize([noded]).geoms) if not noded.is_empty else []
+        faces = [p for p in faces if p.area > 0]
+        if faces:
+            best = _outer_with_cutouts(faces)
+            break
+    if regions:
+        reg = shp._polygonal(shapely.union_all(regions))
+        reg_best = max(getattr(reg, "geoms", [reg]), key=lambda p: p.area) if not reg.is_empty else EMPTY
+        if reg_best.area > best.area:
+            best = reg_best
+    if best.is_empty:
+        raise InputError("no closed board outline in this layer (its lines do not join into a closed path)",
+                         path=str(path))
+    return best
+
+
+def _outer_with_cutouts(faces: list) -> Polygon:
+    """The largest face is the board; faces inside it that are not already holes become cut-outs."""
+    faces = sorted(faces, key=lambda p: p.area, reverse=True)
+    board = Polygon(faces[0].exterior)
+    holes = []
+    for p in faces[1:]:
+        if board.contains(p.representative_point()):
+            holes.append(Polygon(p.exterior))
+    if holes:
+        board = shapely.difference(board, shapely.union_all(holes))
+        if board.geom_type == "MultiPolygon":
+            board = max(board.geoms, key=lambda p: p.area)
+    return board
+
+
+# ----------------------------------------------------------------------------------------------
+# sniffing
+
+_GERBER_HINTS = re.compile(r"%FS[LTD]?[AI]|%MO(MM|IN)|%ADD\d+|G0?4[ *]|%TF\.")
+_GERBER_OPS = re.compile(r"D0?[123]\*|M0?2\*|%ADD\d+")
+
+
+def sniff_gerber(path) -> bool:
+    """Cheap content check: does the file start like a Gerber file? (reads at most 64 KB)"""
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(65536)
+    except OSError:
+        return False
+    if not head or b"\x00" in head:
+        return False
+    text = head.decode("latin-1")
+    if re.search(r"^\s*M48\s*$", text, re.M):      # an Excellon header
+        return False
+    return bool(_GERBER_HINTS.search(text)) and bool(_GERBER_OPS.search(text))
