@@ -1,0 +1,684 @@
+"""Copper islands against the netlist: which pads the copper really joins.
+
+Copper islands are the polygons of each layer's geometry. Plated holes (drills) and through pads
+and vias of the netlist join the islands they pierce on every layer; each netlist pad joins the
+island under it on its own layers. The joined islands form copper groups (union-find).
+
+Findings (rule names from RULES.md, severity "error"):
+
+- ``netlist-open``: one net's pads fall in more than one copper group;
+- ``netlist-short``: one copper group holds pads of two or more nets;
+- ``netlist-alignment``: netlist pads land on no copper. The offset, inch/mm scale or mirror that
+  would align them is searched for and named. When most pads land on no copper, opens and shorts
+  are not judged (they would be noise) and ``aligned`` is False: measurement must stop.
+
+Pads with no net name (blank or N/C in the netlist) join copper but are never an open or a short.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+import shapely.affinity
+import shapely.ops
+from shapely.geometry import Point, Polygon
+from shapely.geometry.base import BaseGeometry
+
+from .board import Board, Pad
+from .findings import Finding
+
+RULE_OPEN = "netlist-open"
+RULE_SHORT = "netlist-short"
+RULE_ALIGNMENT = "netlist-alignment"
+
+ALIGNED_MIN_FRACTION = 0.5      # below this share of pads on copper the netlist is misaligned
+HINT_MIN_FRACTION = 0.9         # a transform is named when it lands at least this share ...
+HINT_MIN_GAIN = 0.2             # ... and this much more than the netlist as given
+SEARCH_MIN_UNLANDED = 0.1       # search for a transform when this share of pads is off copper
+MAX_SAMPLE = 600                # pads used to score transforms
+INCH_MM = 25.4
+
+
+@dataclass
+class CopperGroup:
+    """Islands joined by copper, holes and pads; the pads that land on them."""
+
+    id: int
+    islands: list[tuple[int, int]] = field(default_factory=list)   # (layer index, island number)
+    pads: list[int] = field(default_factory=list)                   # indices into board.pads
+
+    def nets(self, board: Board) -> list[str]:
+        return sorted({board.pads[i].net for i in self.pads if board.pads[i].net})
+
+
+@dataclass
+class Alignment:
+    """A transform of netlist coordinates: (x, y) -> mirror, then scale about the origin, then offset."""
+
+    scale: float = 1.0
+    mirror_x_about: float | None = None     # x -> 2c - x
+    mirror_y_about: float | None = None
+    dx_mm: float = 0.0
+    dy_mm: float = 0.0
+    landed_fraction: float = 0.0            # share of sampled pads on copper after the transform
+
+    def apply(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        x = np.asarray(x, dtype=float)
+        y = np.asarray(y, dtype=float)
+        if self.mirror_x_about is not None:
+            x = 2 * self.mirror_x_about - x
+        if self.mirror_y_about is not None:
+            y = 2 * self.mirror_y_about - y
+        return x * self.scale + self.dx_mm, y * self.scale + self.dy_mm
+
+    @property
+    def is_identity(self) -> bool:
+        return (self.scale == 1.0 and self.mirror_x_about is None and self.mirror_y_about is None
+                and abs(self.dx_mm) < 1e-9 and abs(self.dy_mm) < 1e-9)
+
+    def describe(self) -> str:
+        parts = []
+        if self.mirror_x_about is not None:
+            parts.append(f"mirror x about x = {self.mirror_x_about:.3f} mm (a netlist seen from the bottom)")
+        if self.mirror_y_about is not None:
+            parts.append(f"mirror y about y = {self.mirror_y_about:.3f} mm")
+        if self.scale != 1.0:
+            if abs(self.scale - INCH_MM) < 1e-9:
+                parts.append("scale by 25.4 (netlist coordinates are inches read as millimetres)")
+            elif abs(self.scale - 1 / INCH_MM) < 1e-9:
+                parts.append("scale by 1/25.4 (netlist coordinates are millimetres read as inches)")
+            else:
+                parts.append(f"scale by {self.scale:g}")
+        if abs(self.dx_mm) > 1e-9 or abs(self.dy_mm) > 1e-9:
+            parts.append(f"offset by ({self.dx_mm:+.3f}, {self.dy_mm:+.3f}) mm")
+        return ", then ".join(parts) if parts else "no change"
+
+
+@dataclass
+class ConnectivityResult:
+    findings: list[Finding]
+    checked: bool
+    aligned: bool = True
+    alignment_hint: str | None = None
+    alignment: Alignment | None = None       # the transform found, when one was named
+    not_checked_reason: str | None = None
+    islands: dict[int, list[Polygon]] = field(default_factory=dict)      # layer index -> islands
+    groups: list[CopperGroup] = field(default_factory=list)
+    island_group: dict[tuple[int, int], int] = field(default_factory=dict)
+    pad_islands: list[list[tuple[int, int]]] = field(default_factory=list)   # per board.pads index
+    pad_group: list[int | None] = field(default_factory=list)
+    landed_fraction: float = 1.0
+    _pad_index: dict[Pad, int] = field(default_factory=dict, repr=False)
+
+    def copper_group_of_pad(self, pad: Pad) -> int | None:
+        """The copper group the pad lands on; None when it lands on no copper."""
+        i = self._pad_index.get(pad)
+        return None if i is None or not self.pad_group else self.pad_group[i]
+
+    def island_of(self, pad: Pad, layer: int) -> Polygon | None:
+        """The copper island under the pad on one layer (by layer index), or None."""
+        i = self._pad_index.get(pad)
+        if i is None:
+            return None
+        for lay, k in self.pad_islands[i]:
+            if lay == layer:
+                return self.islands[lay][k]
+        return None
+
+    def group_copper(self, group: int) -> dict[int, BaseGeometry]:
+        """The copper of one group, per layer index."""
+        per_layer: dict[int, list[Polygon]] = {}
+        for lay, k in self.groups[group].islands:
+            per_layer.setdefault(lay, []).append(self.islands[lay][k])
+        return {lay: shapely.union_all(polys) if len(polys) > 1 else polys[0]
+                for lay, polys in sorted(per_layer.items())}
+
+    @property
+    def errors(self) -> list[Finding]:
+        return [f for f in self.findings if f.severity == "error"]
+
+
+def net_copper(board: Board, result: ConnectivityResult, net: str) -> dict[int, BaseGeometry]:
+    """The copper of a net, per layer index: every island of every group its pads land on.
+
+    A net shorted to another shares that copper (the short is a finding of its own).
+    """
+    groups = sorted({result.pad_group[i] for i, p in enumerate(board.pads)
+                     if p.net == net and result.pad_group[i] is not None})
+    per_layer: dict[int, list[Polygon]] = {}
+    for g in groups:
+        for lay, k in result.groups[g].islands:
+            per_layer.setdefault(lay, []).append(result.islands[lay][k])
+    return {lay: shapely.union_all(polys) if len(polys) > 1 else polys[0]
+            for lay, polys in sorted(per_layer.items())}
+
+
+# --- the check -----------------------------------------------------------------------------
+
+def _polygons(geom: BaseGeometry) -> list[Polygon]:
+    if geom is None or geom.is_empty:
+        return []
+    if isinstance(geom, Polygon):
+        return [geom]
+    out = []
+    for g in getattr(geom, "geoms", []):
+        out.extend(_polygons(g))
+    return [p for p in out if p.area > 0]
+
+
+class _UnionFind:
+    def __init__(self, n: int):
+        self.parent = list(range(n))
+
+    def find(self, a: int) -> int:
+        root = a
+        while self.parent[root] != root:
+            root = self.parent[root]
+        while self.parent[a] != root:
+            self.parent[a], a = root, self.parent[a]
+        return root
+
+    def union(self, a: int, b: int) -> None:
+        ra, rb = self.find(a), self.find(b)
+        if ra != rb:
+            self.parent[max(ra, rb)] = min(ra, rb)
+
+
+class _Copper:
+    """Islands and their STRtrees per layer, for point and shape queries."""
+
+    def __init__(self, board: Board):
+        self.layers = [layer.index for layer in board.layers]
+        self.islands: dict[int, list[Polygon]] = {}
+        self.trees: dict[int, shapely.STRtree] = {}
+        self.offset: dict[int, int] = {}
+        n = 0
+        for layer in board.layers:
+            polys = _polygons(layer.geometry)
+            self.islands[layer.index] = polys
+            self.trees[layer.index] = shapely.STRtree(polys)
+            self.offset[layer.index] = n
+            n += len(polys)
+        self.count = n
+
+    def node(self, layer: int, k: int) -> int:
+        return self.offset[layer] + k
+
+    def points_on(self, layer: int, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+        """For each point, the island number it lies on (boundary included), or -1."""
+        out = np.full(len(x), -1, dtype=np.int64)
+        if layer not in self.trees or not self.islands[layer] or len(x) == 0:
+            return out
+        pts = shapely.points(np.asarray(x, float), np.asarray(y, float))
+        idx = self.trees[layer].query(pts, predicate="intersects")
+        out[idx[0]] = idx[1]
+        return out
+
+
+def _pad_shape(pad: Pad) -> BaseGeometry | None:
+    """The pad's own footprint where the netlist gives its size (a rectangle) or its hole."""
+    if pad.width_mm and pad.width_mm > 0:
+        w = pad.width_mm
+        h = pad.height_mm if pad.height_mm and pad.height_mm > 0 else w
+        shape = shapely.box(-w / 2, -h / 2, w / 2, h / 2)
+        if pad.rotation_deg:
+            shape = shapely.affinity.rotate(shape, pad.rotation_deg, origin=(0, 0))
+        return shapely.affinity.translate(shape, pad.x_mm, pad.y_mm)
+    if pad.hole_mm and pad.hole_mm > 0:
+        return Point(pad.x_mm, pad.y_mm).buffer(pad.hole_mm / 2, 16)
+    return None
+
+
+def check_connectivity(board: Board) -> ConnectivityResult:
+    """Copper groups against the netlist: opens, shorts and misalignment. See the module docstring."""
+    copper = _Copper(board)
+    pads = board.pads
+    result = ConnectivityResult(findings=[], checked=bool(pads), islands=copper.islands)
+    result._pad_index = {}
+    for i, p in enumerate(pads):
+        result._pad_index.setdefault(p, i)
+    uf = _UnionFind(copper.count)
+
+    # pads -> islands under them
+    pad_islands: list[list[tuple[int, int]]] = [[] for _ in pads]
+    if pads:
+        xs = np.array([p.x_mm for p in pads])
+        ys = np.array([p.y_mm for p in pads])
+        for lay in copper.layers:
+            on = [i for i, p in enumerate(pads) if lay in p.layers]
+            if not on:
+                continue
+            hit = copper.points_on(lay, xs[on], ys[on])
+            for i, k in zip(on, hit):
+                if k >= 0:
+                    pad_islands[i].append((lay, int(k)))
+                else:
+                    k2 = _island_under_shape(copper, lay, pads[i])
+                    if k2 is not None:
+                        pad_islands[i].append((lay, k2))
+    # a pad joins all islands under it (a through pad: across the layers, by its plating)
+    for isl in pad_islands:
+        for (la, ka), (lb, kb) in zip(isl, isl[1:]):
+            uf.union(copper.node(la, ka), copper.node(lb, kb))
+
+    # plated holes and slots join the islands they pierce on every layer
+    for hole in board.holes:
+        if not hole.plated:
+            continue
+        r = max(hole.diameter_mm / 2, 1e-3)
+        if hole.end is not None:
+            shape = shapely.LineString([(hole.x_mm, hole.y_mm), hole.end]).buffer(r, 8)
+        else:
+            shape = Point(hole.x_mm, hole.y_mm).buffer(r, 8)
+        nodes = []
+        for lay in copper.layers:
+            if not copper.islands[lay]:
+                continue
+            for k in copper.trees[lay].query(shape, predicate="intersects"):
+                nodes.append(copper.node(lay, int(k)))
+        for a, b in zip(nodes, nodes[1:]):
+            uf.union(a, b)
+
+    # groups
+    root_to_group: dict[int, int] = {}
+    groups: list[CopperGroup] = []
+    for lay in copper.layers:
+        for k in range(len(copper.islands[lay])):
+            r = uf.find(copper.node(lay, k))
+            if r not in root_to_group:
+                root_to_group[r] = len(groups)
+                groups.append(CopperGroup(id=len(groups)))
+            g = root_to_group[r]
+            groups[g].islands.append((lay, k))
+            result.island_group[(lay, k)] = g
+    pad_group: list[int | None] = []
+    for i, isl in enumerate(pad_islands):
+        if isl:
+            g = result.island_group[isl[0]]
+            groups[g].pads.append(i)
+            pad_group.append(g)
+        else:
+            pad_group.append(None)
+    result.groups = groups
+    result.pad_islands = pad_islands
+    result.pad_group = pad_group
+
+    if not pads:
+        result.checked = False
+        result.not_checked_reason = "no netlist pads (no IPC-D-356 netlist and no X2 pin attributes)"
+        return result
+
+    # alignment
+    unlanded = [i for i, g in enumerate(pad_group) if g is None]
+    landed_fraction = 1.0 - len(unlanded) / len(pads)
+    result.landed_fraction = landed_fraction
+    result.aligned = landed_fraction >= ALIGNED_MIN_FRACTION
+    if unlanded:
+        result.findings.append(_alignment_finding(board, copper, unlanded, landed_fraction, result))
+    if not result.aligned:
+        return result
+
+    result.findings.extend(_opens(board, result))
+    result.findings.extend(_shorts(board, result, copper))
+    return result
+
+
+def _island_under_shape(copper: _Copper, lay: int, pad: Pad) -> int | None:
+    shape = _pad_shape(pad)
+    if shape is None or not copper.islands[lay]:
+        return None
+    cand = copper.trees[lay].query(shape, predicate="intersects")
+    if len(cand) == 0:
+        return None
+    best = max(cand, key=lambda k: copper.islands[lay][int(k)].intersection(shape).area)
+    return int(best)
+
+
+# --- findings ------------------------------------------------------------------------------
+
+def _terminal_list(board: Board, idxs: list[int], limit: int = 8) -> str:
+    names = sorted({board.pads[i].terminal for i in idxs if board.pads[i].ref and not board.pads[i].is_via})
+    vias = sum(1 for i in idxs if board.pads[i].is_via or not board.pads[i].ref)
+    shown = names[:limit]
+    text = ", ".join(shown)
+    if len(names) > limit:
+        text += f", ... ({len(names) - limit} more)"
+    if vias:
+        text += (" + " if text else "") + f"{vias} via{'s' if vias != 1 else ''}"
+    return text or "no pads"
+
+
+def _layer_name(board: Board, index: int | None) -> str | None:
+    for layer in board.layers:
+        if layer.index == index:
+            return layer.name
+    return None
+
+
+def _opens(board: Board, result: ConnectivityResult) -> list[Finding]:
+    out = []
+    by_net: dict[str, dict[int, list[int]]] = {}
+    for i, p in enumerate(board.pads):
+        g = result.pad_group[i]
+        if not p.net or g is None:
+            continue
+        by_net.setdefault(p.net, {}).setdefault(g, []).append(i)
+    for net, parts in sorted(by_net.items()):
+        if len(parts) < 2:
+            continue
+        ordered = sorted(parts.values(), key=lambda idxs: (-len(idxs), min(idxs)))
+        desc = "; ".join(f"[{_terminal_list(board, idxs)}]" for idxs in ordered)
+        stray = ordered[-1]
+        p = board.pads[stray[0]]
+        terminals = tuple(sorted({board.pads[i].terminal for idxs in ordered for i in idxs
+                                  if board.pads[i].ref and not board.pads[i].is_via}))
+        out.append(Finding(
+            rule=RULE_OPEN, severity="error",
+            message=(f"net {net} is split into {len(parts)} copper groups that nothing joins: {desc}"),
+            x_mm=round(p.x_mm, 4), y_mm=round(p.y_mm, 4), layer=_layer_name(board, p.layers[0]),
+            nets=(net,), terminals=terminals))
+    return out
+
+
+def _shorts(board: Board, result: ConnectivityResult, copper: _Copper) -> list[Finding]:
+    out = []
+    for group in result.groups:
+        by_net: dict[str, list[int]] = {}
+        for i in group.pads:
+            if board.pads[i].net:
+                by_net.setdefault(board.pads[i].net, []).append(i)
+        if len(by_net) < 2:
+            continue
+        nets = sorted(by_net)
+        x, y, lay, pair = _meeting_point(board, result, group, by_net)
+        desc = "; ".join(f"{n}: {_terminal_list(board, by_net[n], 5)}" for n in nets)
+        where = f" near ({x:.3f}, {y:.3f}) mm on {_layer_name(board, lay)}" if x is not None else ""
+        shown = " and ".join(nets) if len(nets) <= 3 else ", ".join(nets[:3]) + f" and {len(nets) - 3} more"
+        terminals = tuple(sorted({board.pads[i].terminal for n in nets for i in by_net[n]
+                                  if board.pads[i].ref and not board.pads[i].is_via}))
+        out.append(Finding(
+            rule=RULE_SHORT, severity="error",
+            message=f"copper joins nets {shown}{where} ({desc})",
+            x_mm=None if x is None else round(x, 4), y_mm=None if y is None else round(y, 4),
+            layer=_layer_name(board, lay), nets=tuple(nets), terminals=terminals))
+    return out
+
+
+def _meeting_point(board: Board, result: ConnectivityResult, group: CopperGroup,
+                   by_net: dict[str, list[int]]):
+    """A point on the group's copper where two of its nets meet.
+
+    With X2 net attributes on the layer: where the copper of one net touches the other's, or the
+    unattributed copper that touches both. Otherwise: the point of the island nearest the midpoint
+    of the closest pair of pads of different nets.
+    """
+    nets = sorted(by_net)
+    # the closest pair of pads of different nets, on a common layer where possible
+    best = None
+    for a_i, na in enumerate(nets):
+        for nb in nets[a_i + 1:]:
+            for i in by_net[na][:200]:
+                for j in by_net[nb][:200]:
+                    pi, pj = board.pads[i], board.pads[j]
+                    d = (pi.x_mm - pj.x_mm) ** 2 + (pi.y_mm - pj.y_mm) ** 2
+                    if best is None or d < best[0]:
+                        best = (d, i, j, na, nb)
+    _, i, j, na, nb = best
+    lays_i = {lay for lay, _ in result.pad_islands[i]}
+    lays_j = {lay for lay, _ in result.pad_islands[j]}
+    common = sorted(lays_i & lays_j) or sorted(lays_i)
+    lay = common[0]
+    layer = next(layer for layer in board.layers if layer.index == lay)
+    island_geoms = [result.islands[l_][k] for l_, k in group.islands if l_ == lay]
+    if not island_geoms:
+        return None, None, lay, (na, nb)
+    island = shapely.union_all(island_geoms)
+    # X2 net copper, where the Gerbers carry it
+    nc = layer.net_copper or {}
+    if na in nc and nb in nc:
+        a = nc[na].intersection(island)
+        b = nc[nb].intersection(island)
+        touch = a.buffer(0.01).intersection(b.buffer(0.01))
+        if not touch.is_empty:
+            c = touch.representative_point()
+            return c.x, c.y, lay, (na, nb)
+        attributed = shapely.union_all(list(nc.values()))
+        loose = island.difference(attributed.buffer(0.005))
+        for part in _polygons(loose):
+            grown = part.buffer(0.02)
+            if grown.intersects(a) and grown.intersects(b):
+                c = part.representative_point()
+                return c.x, c.y, lay, (na, nb)
+    pi, pj = board.pads[i], board.pads[j]
+    mid = Point((pi.x_mm + pj.x_mm) / 2, (pi.y_mm + pj.y_mm) / 2)
+    near = shapely.ops.nearest_points(island, mid)[0]
+    return near.x, near.y, lay, (na, nb)
+
+
+def _alignment_finding(board: Board, copper: _Copper, unlanded: list[int], landed_fraction: float,
+                       result: ConnectivityResult) -> Finding:
+    n = len(board.pads)
+    examples = []
+    for i in unlanded[:5]:
+        p = board.pads[i]
+        examples.append(f"{p.terminal} at ({p.x_mm:.3f}, {p.y_mm:.3f}) on {_layer_name(board, p.layers[0])}")
+    more = f", ... ({len(unlanded) - 5} more)" if len(unlanded) > 5 else ""
+    message = (f"{len(unlanded)} of {n} netlist pads land on no copper ({', '.join(examples)}{more})")
+    hint = None
+    if len(unlanded) / n >= SEARCH_MIN_UNLANDED:
+        found = search_alignment(board, copper)
+        if (found is not None and found.landed_fraction >= HINT_MIN_FRACTION
+                and found.landed_fraction - landed_fraction >= HINT_MIN_GAIN):
+            hint = (f"{found.describe()} lands {found.landed_fraction:.0%} of the pads on copper "
+                    f"(as given: {landed_fraction:.0%})")
+            result.alignment = found
+        elif landed_fraction < ALIGNED_MIN_FRACTION:
+            hint = ("no offset, inch/mm scale or mirror aligns the netlist with the copper: is it the "
+                    "netlist of this board and revision?")
+    if hint:
+        message += f"; {hint}"
+        result.alignment_hint = hint
+    if landed_fraction < ALIGNED_MIN_FRACTION:
+        message += "; measurement stops until the netlist and the copper agree"
+    p = board.pads[unlanded[0]]
+    terminals = tuple(sorted({board.pads[i].terminal for i in unlanded
+                              if board.pads[i].ref and not board.pads[i].is_via}))
+    nets = tuple(sorted({board.pads[i].net for i in unlanded if board.pads[i].net}))
+    return Finding(rule=RULE_ALIGNMENT, severity="error", message=message,
+                   x_mm=round(p.x_mm, 4), y_mm=round(p.y_mm, 4), layer=_layer_name(board, p.layers[0]),
+                   nets=nets if len(nets) <= 20 else (), terminals=terminals if len(terminals) <= 50 else ())
+
+
+# --- alignment search ----------------------------------------------------------------------
+
+def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int = 0) -> Alignment | None:
+    """The transform of the netlist's pads that lands the most of them on copper.
+
+    Candidates: mirror in x or y about the board centre, scale by 25.4 or 1/25.4 about the origin,
+    each with its best offset. Offsets are found two ways: votes of hole-to-through-pad
+    differences (exact where the drills and the netlist share holes), and the peak of the
+    cross-correlation of a pad-centre raster with a copper raster (FFT, cell 0.25 mm or coarser),
+    refined on a finer grid by exact point-in-copper counts. Returns None when there are no pads.
+    """
+    copper = copper or _Copper(board)
+    pads = board.pads
+    if not pads:
+        return None
+    rng = np.random.default_rng(seed)
+    idx = np.arange(len(pads))
+    if len(idx) > MAX_SAMPLE:
+        idx = np.sort(rng.choice(idx, MAX_SAMPLE, replace=False))
+    sample = [pads[i] for i in idx]
+    px = np.array([p.x_mm for p in sample])
+    py = np.array([p.y_mm for p in sample])
+    pad_layer = np.array([p.layers[0] if p.layers else -1 for p in sample])
+
+    def score(x: np.ndarray, y: np.ndarray) -> float:
+        ok = np.zeros(len(x), dtype=bool)
+        for lay in copper.layers:
+            m = pad_layer == lay
+            if m.any():
+                ok[m] = copper.points_on(lay, x[m], y[m]) >= 0
+        return float(ok.mean())
+
+    bounds = board.outline.geometry.bounds if not board.outline.geometry.is_empty else None
+    if bounds is None:
+        all_b = [layer.geometry.bounds for layer in board.layers if not layer.geometry.is_empty]
+        if not all_b:
+            return None
+        bounds = (min(b[0] for b in all_b), min(b[1] for b in all_b),
+                  max(b[2] for b in all_b), max(b[3] for b in all_b))
+    cx, cy = (bounds[0] + bounds[2]) / 2, (bounds[1] + bounds[3]) / 2
+
+    bases = [Alignment(), Alignment(scale=INCH_MM), Alignment(scale=1 / INCH_MM),
+             Alignment(mirror_x_about=0.0), Alignment(mirror_x_about=cx),
+             Alignment(mirror_y_about=0.0), Alignment(mirror_y_about=cy)]
+    holes = [h for h in board.holes if h.plated and h.end is None]
+    hx = np.array([h.x_mm for h in holes])
+    hy = np.array([h.y_mm for h in holes])
+    drilled = [k for k, p in enumerate(sample) if p.hole_mm]
+    rasters = _CopperRaster(board, copper, pad_layer)
+
+    best: Alignment | None = None
+    best_exact = True
+    for base in bases:
+        bx, by = base.apply(px, py)
+        cands = [(0.0, 0.0, True)]
+        if len(holes) and drilled:
+            cands.extend((dx, dy, True) for dx, dy in _hole_votes(hx, hy, bx[drilled], by[drilled], rng))
+        peak = rasters.best_offset(bx, by)
+        if peak is not None:
+            cands.append((peak[0], peak[1], False))
+        for dx, dy, exact in cands:
+            s = score(bx + dx, by + dy)
+            a = Alignment(scale=base.scale, mirror_x_about=base.mirror_x_about,
+                          mirror_y_about=base.mirror_y_about, dx_mm=dx, dy_mm=dy, landed_fraction=s)
+            if best is None or _better(a, best):
+                best, best_exact = a, exact
+    if best is not None and not best_exact:
+        best = _refine(best, px, py, score, rasters.cell)
+    return best
+
+
+def _better(a: Alignment, b: Alignment) -> bool:
+    """More pads landed wins; within 1 %, the simpler transform (fewer parts, smaller offset)."""
+    if a.landed_fraction > b.landed_fraction + 0.01:
+        return True
+    if a.landed_fraction < b.landed_fraction - 0.01:
+        return False
+    return _complexity(a) < _complexity(b)
+
+
+def _complexity(a: Alignment) -> float:
+    parts = (a.scale != 1.0) + (a.mirror_x_about is not None) + (a.mirror_y_about is not None)
+    return parts * 1000.0 + float(np.hypot(a.dx_mm, a.dy_mm))
+
+
+def _hole_votes(hx, hy, bx, by, rng, top: int = 5) -> list[tuple[float, float]]:
+    """The most common hole-minus-pad differences (0.01 mm bins)."""
+    if len(hx) > 300:
+        pick = rng.choice(len(hx), 300, replace=False)
+        hx, hy = hx[pick], hy[pick]
+    if len(bx) > 300:
+        pick = rng.choice(len(bx), 300, replace=False)
+        bx, by = bx[pick], by[pick]
+    dx = (hx[:, None] - bx[None, :]).ravel()
+    dy = (hy[:, None] - by[None, :]).ravel()
+    keys = np.stack([np.round(dx * 100).astype(np.int64), np.round(dy * 100).astype(np.int64)], axis=1)
+    uniq, counts = np.unique(keys, axis=0, return_counts=True)
+    order = np.argsort(-counts)[:top]
+    return [(float(uniq[k][0]) / 100, float(uniq[k][1]) / 100) for k in order if counts[k] >= 2]
+
+
+class _CopperRaster:
+    """Copper of the layers the pads sit on, rasterised once on a grid around the board."""
+
+    def __init__(self, board: Board, copper: _Copper, pad_layer: np.ndarray, max_cells: int = 1024):
+        self.copper = copper
+        self.layers = [lay for lay in copper.layers if (pad_layer == lay).any() and copper.islands[lay]]
+        self.pad_layer = pad_layer
+        b = [board.layers[[l.index for l in board.layers].index(lay)].geometry.bounds for lay in self.layers]
+        self.ok = bool(b)
+        if not self.ok:
+            self.cell = 0.25
+            return
+        x0, y0 = min(v[0] for v in b), min(v[1] for v in b)
+        x1, y1 = max(v[2] for v in b), max(v[3] for v in b)
+        span = max(x1 - x0, y1 - y0, 1.0)
+        self.cell = max(0.25, span / max_cells)
+        self.x0, self.y0 = x0, y0
+        self.nx = int(np.ceil((x1 - x0) / self.cell)) + 1
+        self.ny = int(np.ceil((y1 - y0) / self.cell)) + 1
+        gx = x0 + (np.arange(self.nx) + 0.5) * self.cell
+        gy = y0 + (np.arange(self.ny) + 0.5) * self.cell
+        X, Y = np.meshgrid(gx, gy)
+        self.masks = {}
+        for lay in self.layers:
+            geom = next(l.geometry for l in board.layers if l.index == lay)
+            shapely.prepare(geom)
+            self.masks[lay] = shapely.contains_xy(geom, X.ravel(), Y.ravel()).reshape(self.ny, self.nx)
+
+    def best_offset(self, bx: np.ndarray, by: np.ndarray) -> tuple[float, float] | None:
+        """The translation (mm) that puts the most pad centres on copper, at raster resolution."""
+        if not self.ok:
+            return None
+        c = self.cell
+        # pad raster on its own grid; the correlation's lag range covers any offset between grids
+        px0, py0 = float(bx.min()), float(by.min())
+        pnx = int(np.ceil((bx.max() - px0) / c)) + 1
+        pny = int(np.ceil((by.max() - py0) / c)) + 1
+        if pnx * pny > 4_000_000:
+            return None
+        H, W = self.ny + pny, self.nx + pnx
+        total = None
+        for lay in self.layers:
+            m = self.pad_layer == lay
+            if not m.any():
+                continue
+            pad_img = np.zeros((pny, pnx))
+            ix = np.clip(((bx[m] - px0) / c).astype(int), 0, pnx - 1)
+            iy = np.clip(((by[m] - py0) / c).astype(int), 0, pny - 1)
+            np.add.at(pad_img, (iy, ix), 1.0)
+            fa = np.fft.rfft2(self.masks[lay].astype(float), s=(H, W))
+            fb = np.fft.rfft2(pad_img, s=(H, W))
+            corr = np.fft.irfft2(fa * np.conj(fb), s=(H, W))
+            total = corr if total is None else total + corr
+        if total is None:
+            return None
+        k = int(np.argmax(total))
+        ly, lx = divmod(k, W)
+        # lag (lx, ly): mask[iy + ly, ix + lx] ~ pad[iy, ix]; negative lags wrap around
+        if lx >= self.nx:
+            lx -= W
+        if ly >= self.ny:
+            ly -= H
+        dx = self.x0 + lx * c - px0
+        dy = self.y0 + ly * c - py0
+        return float(dx), float(dy)
+
+
+def _refine(a: Alignment, px, py, score, cell: float) -> Alignment:
+    """Centre the offset in the plateau of equal best scores on a grid finer than the raster."""
+    base_x, base_y = Alignment(scale=a.scale, mirror_x_about=a.mirror_x_about,
+                               mirror_y_about=a.mirror_y_about).apply(px, py)
+    step = cell / 4
+    offs = np.arange(-8, 9) * step
+    grid = np.zeros((len(offs), len(offs)))
+    for i, oy in enumerate(offs):
+        for j, ox in enumerate(offs):
+            grid[i, j] = score(base_x + a.dx_mm + ox, base_y + a.dy_mm + oy)
+    top = grid.max()
+    if top < a.landed_fraction - 1e-12:
+        return a
+    iy, ix = np.nonzero(grid >= top - 1e-12)
+    dx = a.dx_mm + float(np.mean(offs[ix]))
+    dy = a.dy_mm + float(np.mean(offs[iy]))
+    s = score(base_x + dx, base_y + dy)
+    if s + 1e-12 < top:       # the plateau is not convex: keep the best grid point nearest the centre
+        k = int(np.argmin((offs[ix] - offs[ix].mean()) ** 2 + (offs[iy] - offs[iy].mean()) ** 2))
+        dx, dy, s = a.dx_mm + float(offs[ix[k]]), a.dy_mm + float(offs[iy[k]]), top
+    # an offset within a hundredth of a round number of 0.01 mm is reported as that
+    return Alignment(scale=a.scale, mirror_x_about=a.mirror_x_about, mirror_y_about=a.mirror_y_about,
+                     dx_mm=round(dx, 2), dy_mm=round(dy, 2), landed_fraction=s)
