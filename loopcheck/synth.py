@@ -507,25 +507,39 @@ class _Ipc356Writer:
         put(73, f"S{soldermask}")
         return "".join(cols).rstrip()
 
-    def outline_records(self, points: list[Point]) -> list[str]:
-        # 389 BOARD_EDGE: the first X/Y word gives the line width, then the ring's points.
-        words = ["X0000"]
-        ring = list(points) + [points[0]]
-        for px, py in ring:
-            x, y = self.place(px, py)
-            words.append(f"X{self._n(x)}Y{self._n(y)}")
+    def _free_records(self, head: str, cont: str, words: list[str]) -> list[str]:
+        """Free-form X/Y words after a fixed head, wrapped at 80 columns on ``cont`` lines."""
         lines = []
-        current = f"389{'BOARD_EDGE':<14}    "
+        current = head
         for word in words:
             if len(current) + 1 + len(word) > 80:
                 lines.append(current)
-                current = "089" + " " * 18
+                current = cont
             current += " " + word
         lines.append(current)
         return lines
 
+    def _point_words(self, points: list[Point]) -> list[str]:
+        words = []
+        for px, py in points:
+            x, y = self.place(px, py)
+            words.append(f"X{self._n(x)}Y{self._n(y)}")
+        return words
 
-def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool) -> str:
+    def outline_records(self, points: list[Point]) -> list[str]:
+        # 389 BOARD_EDGE (cols 4-17): the first X/Y word gives the line width, then the ring.
+        words = ["X0000"] + self._point_words(list(points) + [points[0]])
+        return self._free_records(f"389{'BOARD_EDGE':<14}    ", "089" + " " * 18, words)
+
+    def conductor_records(self, trace: SynthTrace) -> list[str]:
+        # 378: net in cols 4-17, "L" + layer in cols 19-21, then width and the path's points.
+        head = f"378{self.net_field(trace.net):<14} L{trace.layer:02d}"
+        words = [f"X{self._n(trace.width_mm):04d}"] + self._point_words(trace.points)
+        return self._free_records(head, "078" + " " * 18, words)
+
+
+def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool,
+                  conductors: bool = False) -> str:
     w = _Ipc356Writer(units, offset_mm, mirror)
     n = board.layer_count
     records: list[str] = []
@@ -545,6 +559,9 @@ def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool)
         records.append(w.test_record(code="317", net=via.net, ref="VIA", pin="", hole_mm=via.drill_mm,
                                      access=0, x_mm=via.x_mm, y_mm=via.y_mm, w_mm=via.pad_mm,
                                      h_mm=via.pad_mm))
+    if conductors:
+        for trace in board.traces:
+            records += w.conductor_records(trace)
     records += w.outline_records(board.outline_points())
     head = [
         f"C  IPC-D-356A netlist of {board.name}, written by loopcheck synth 0.1",
@@ -593,7 +610,8 @@ def _check(board: SynthBoard) -> None:
 
 def write_fab(board: SynthBoard, folder: str | Path, *, netlist_units: str = "mm",
               netlist_offset_mm: Point = (0.0, 0.0), netlist_mirror: bool = False,
-              gerber_units: str = "mm", netlist: bool = True) -> dict[str, Path]:
+              gerber_units: str = "mm", netlist: bool = True,
+              netlist_conductors: bool = False) -> dict[str, Path]:
     """Write the board's fab outputs into ``folder`` (created if missing).
 
     Parameters
@@ -606,6 +624,7 @@ def write_fab(board: SynthBoard, folder: str | Path, *, netlist_units: str = "mm
     netlist_mirror : write netlist x as -x before the offset (a netlist seen from the bottom).
     gerber_units : "mm" or "inch" for the Gerber files.
     netlist : False to leave the netlist out.
+    netlist_conductors : also write each trace as a 378 conductor record.
 
     Returns
     -------
@@ -622,7 +641,8 @@ def write_fab(board: SynthBoard, folder: str | Path, *, netlist_units: str = "mm
     texts["drill"] = (f"{board.name}-plated.drl", _drill_text(board))
     if netlist:
         texts["netlist"] = (f"{board.name}-netlist.ipc",
-                            _netlist_text(board, netlist_units, netlist_offset_mm, netlist_mirror))
+                            _netlist_text(board, netlist_units, netlist_offset_mm, netlist_mirror,
+                                          netlist_conductors))
     out: dict[str, Path] = {}
     for key, (name, text) in texts.items():
         path = folder / name

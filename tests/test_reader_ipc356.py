@@ -371,3 +371,22 @@ def test_synth_round_trip_against_gerber_pin_flashes(tmp_path):
         assert f.net == p.net
         assert (f.x_mm, f.y_mm) == pytest.approx((p.x_mm, p.y_mm), abs=0.0005)
     assert len(flashes) == len([p for p in n.points if not p.is_via])
+
+
+def test_synth_conductor_records_read_back(tmp_path):
+    from loopcheck.synth import SynthTrace
+    board = synth_board()
+    long_path = [(1.0 + i, 2.0 + (i % 2)) for i in range(20)]      # wraps onto 078 lines
+    board.traces = [SynthTrace("SW", 4, 1.25, [(30.0, 10.0), (28.5, 10.0)]),
+                    SynthTrace("VIN_FILTERED_AFTER_FUSE", 1, 0.5, long_path)]
+    path = write_fab(board, tmp_path, netlist_conductors=True)["netlist"]
+    text = path.read_text()
+    assert "\n078" in text
+    n = read_ipc356(path)
+    a, b = n.conductors
+    assert (a.net, a.layer, a.width_mm) == ("SW", 4, pytest.approx(1.25))
+    assert a.paths == [[pytest.approx((30.0, 10.0)), pytest.approx((28.5, 10.0))]]
+    assert b.net == "VIN_FILTERED_AFTER_FUSE" and b.layer == 1
+    assert len(b.paths) == 1 and len(b.paths[0]) == 20
+    for got, want in zip(b.paths[0], long_path):
+        assert got == pytest.approx(want)
