@@ -390,3 +390,12 @@ def test_synth_conductor_records_read_back(tmp_path):
     assert len(b.paths) == 1 and len(b.paths[0]) == 20
     for got, want in zip(b.paths[0], long_path):
         assert got == pytest.approx(want)
+
+
+def test_outline_without_a_size_word_is_read_when_only_that_closes(tmp_path):
+    # points-only 389 data, as pcb-tools and gerbonara write and read it
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1",
+                          "389BOARD_EDGE          X0Y0 X40000Y0 X40000Y30000 X0Y30000 X0Y0", "999"))
+    assert n.board_edge == [[(0, 0), (40, 0), (40, 30), (0, 30), (0, 0)]]
+    assert n.outline[0].width_mm is None
+    assert any("without a line-size word" in note for note in n.notes)

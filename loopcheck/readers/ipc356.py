@@ -61,7 +61,9 @@ Conductor records 378 (cols 4-17 net, cols 19-21 ``L`` + layer) and outline reco
 (cols 4-17 ``BOARD_EDGE``, ``PANEL_EDGE``, ``SCORE_LINE``, ``OTHER_FAB``) carry free-form
 data after those columns, continued on 078 / 089 lines: the first ``X<w>[Y<h>]`` word is the
 line (aperture) size, then ``X``/``Y`` words give points, each coordinate modal (a word may
-give X or Y alone), and ``*`` ends one path. They are read into point lists in mm.
+give X or Y alone), and ``*`` ends one path. They are read into point lists in mm. For 389
+the public readings differ (gerbv: a size word first; pcb-tools and gerbonara: points only);
+the size word is taken unless only the points-only reading closes the outline, with a note.
 
 A parameter ``P  IMAGE`` other than ``PRIMARY`` (a panel or step-and-repeat image) makes the
 records after it skipped, with a note, until ``P  IMAGE PRIMARY``. Record 999 ends the file.
@@ -347,60 +349,78 @@ class _Parser:
             if self.cols(line, 19, 19) == "L":
                 layer = self.number(self.cols(line, 20, 21), lineno, "conductor layer", 20)
                 self.max_layer = max(self.max_layer, layer)
-            self.open_free = {"code": code, "net": net, "layer": layer, "line": lineno,
-                              "size": None, "paths": [[]], "x": None, "y": None}
+            self.open_free = {"code": code, "net": net, "layer": layer, "line": lineno, "tokens": []}
             self.free_words(line[21:], lineno)
         else:
             kind = self.cols(line, 4, 17).split()
             self.open_free = {"code": code, "kind": kind[0] if kind else "", "line": lineno,
-                              "size": None, "paths": [[]], "x": None, "y": None}
+                              "tokens": []}
             self.free_words(line[17:], lineno)
 
     def free_words(self, text: str, lineno: int) -> None:
-        """X/Y words of a 378/389 record or its continuation; the record's first
-        whitespace-separated token is the line size, the rest are modal points."""
+        """Collect the X/Y words of a 378/389 record or its 078/089 continuation."""
         rec = self.open_free
         for token in text.split():
             words = _WORD.findall(token)
             if "".join(words) != token:
                 raise self.error(lineno, f"unreadable data {token!r} in a {rec['code']} record "
                                          "(X/Y words and * expected)")
-            if rec["size"] is None:
-                size = [None, None]
-                for word in words:
-                    if word != "*":
-                        size[0 if word[0] == "X" else 1] = self.mm(int(word[1:]))
-                rec["size"] = size
-                continue
+            rec["tokens"].append(words)
+
+    def _size_and_paths(self, tokens: list[list[str]], size_first: bool):
+        """(size [w, h] or None, paths) from whitespace tokens of X/Y words. Coordinates are
+        modal; a point is complete at the end of its token; ``*`` ends a path."""
+        size = None
+        if size_first and tokens:
+            size = [None, None]
+            for word in tokens[0]:
+                if word != "*":
+                    size[0 if word[0] == "X" else 1] = self.mm(int(word[1:]))
+            tokens = tokens[1:]
+        paths: list[list[Point]] = [[]]
+        x = y = None
+        for words in tokens:
             pending = False
             for word in words + ["end"]:
                 if word in ("*", "end"):
-                    # a point is complete at the end of its token (X and Y may share one)
-                    if pending and rec["x"] is not None and rec["y"] is not None:
-                        rec["paths"][-1].append((rec["x"], rec["y"]))
+                    if pending and x is not None and y is not None:
+                        paths[-1].append((x, y))
                     pending = False
                     if word == "*":
-                        if rec["paths"][-1]:
-                            rec["paths"].append([])
-                        rec["x"] = rec["y"] = None
+                        if paths[-1]:
+                            paths.append([])
+                        x = y = None
                     continue
-                rec["x" if word[0] == "X" else "y"] = self.mm(int(word[1:]))
+                if word[0] == "X":
+                    x = self.mm(int(word[1:]))
+                else:
+                    y = self.mm(int(word[1:]))
                 pending = True
+        return size, [p for p in paths if p]
 
     def free_close(self) -> None:
         rec = self.open_free
         if rec is None:
             return
         self.open_free = None
-        paths = [p for p in rec["paths"] if p]
-        w, h = (rec["size"] or [None, None])
         if rec["code"] == "378":
+            # all public readings agree: the first word is the conductor's width (and height)
+            (w, h), paths = self._size_and_paths(rec["tokens"], True) if rec["tokens"] else ((None, None), [])
             self.conductors.append(Conductor(net=rec["net"], layer=rec["layer"], width_mm=w,
                                              height_mm=h if h is not None else w, paths=paths,
                                              line=rec["line"]))
-        else:
-            self.outline.append(OutlineRecord(kind=rec["kind"], width_mm=w, paths=paths,
-                                              line=rec["line"]))
+            return
+        # 389: gerbv reads a line-size word before the points, pcb-tools and gerbonara read
+        # points only. Take the size word unless only the points-only reading closes the ring.
+        size, paths = self._size_and_paths(rec["tokens"], True)
+        _, plain = self._size_and_paths(rec["tokens"], False)
+        closed = lambda ps: bool(ps) and all(len(p) > 2 and p[0] == p[-1] for p in ps)  # noqa: E731
+        w = size[0] if size else None
+        if closed(plain) and not closed(paths):
+            paths, w = plain, None
+            self.notes.append(f"line {rec['line']}: outline record read without a line-size word "
+                              "(only so do its points close)")
+        self.outline.append(OutlineRecord(kind=rec["kind"], width_mm=w, paths=paths, line=rec["line"]))
 
     # the file ----------------------------------------------------------------------------
     def parse(self, text: str) -> Netlist:
