@@ -290,3 +290,27 @@ def test_round_trip_through_the_project_gerber_reader(fab, layer):
     for key, pad in on_layer.items():
         assert (flashes[key].x_mm, flashes[key].y_mm) == pytest.approx((pad.x_mm, pad.y_mm), abs=1e-6)
         assert flashes[key].net == pad.net
+
+
+def test_netlist_records_sit_in_the_ipc_d_356a_columns(fab):
+    """IPC-D-356A (IPC, 1998) columns, checked on the text without the project's reader."""
+    _, paths = fab
+    lines = paths["netlist"].read_text().splitlines()
+    assert lines[-1] == "999" and "P  UNITS CUST 1" in lines and "P  VER IPC-D-356A" in lines
+    rec = next(line for line in lines if line[20:26].strip() == "C1" and line[27:31].strip() == "2")
+    col = lambda a, b: rec[a - 1:b]   # noqa: E731  (1-based, inclusive)
+    assert col(1, 3) == "327" and col(4, 17).strip() == "GND" and col(27, 27) == "-"
+    assert col(39, 41) == "A01" and col(42, 42) == "X" and col(50, 50) == "Y"
+    assert int(col(43, 49)) == 7000 and int(col(51, 57)) == 5000      # 0.001 mm units
+    assert col(58, 62) == "X1000" and col(63, 67) == "Y1200" and col(68, 71) == "R000"
+    assert col(73, 74) == "S0"
+    th = next(line for line in lines if line[20:26].strip() == "J1" and line[27:31].strip() == "1")
+    assert th[:3] == "317" and th[32:38] == "D1000P" and th[38:41] == "A00"
+    bottom = next(line for line in lines if line[20:26].strip() == "U1")
+    assert bottom[38:41] == "A04"                                    # bottom of 4 layers
+    # the 22-character net name is an NNAME alias in the record, given whole in a P record
+    alias = next(line for line in lines if line.startswith("P  NNAME"))
+    assert alias.split()[2] == "A_VERY_LONG_NET_NAME_X"
+    j2 = next(line for line in lines if line[20:26].strip() == "J1" and line[27:31].strip() == "2")
+    assert j2[3:17].strip() == alias.split()[1]
+    assert all(len(line) <= 80 for line in lines)
