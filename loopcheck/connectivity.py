@@ -89,6 +89,12 @@ class Alignment:
                 parts.append("scale by 25.4 (netlist coordinates are inches read as millimetres)")
             elif abs(self.scale - 1 / INCH_MM) < 1e-9:
                 parts.append("scale by 1/25.4 (netlist coordinates are millimetres read as inches)")
+            elif abs(self.scale - INCH_MM / 10) < 1e-9:
+                parts.append("scale by 2.54 (netlist coordinates in 0.0001 inch read as 0.001 mm: "
+                             "its UNITS record says mm but the numbers are inches)")
+            elif abs(self.scale - 10 / INCH_MM) < 1e-9:
+                parts.append("scale by 1/2.54 (netlist coordinates in 0.001 mm read as 0.0001 inch: "
+                             "its UNITS record is missing or says inch but the numbers are mm)")
             else:
                 parts.append(f"scale by {self.scale:g}")
         if abs(self.dx_mm) > 1e-9 or abs(self.dy_mm) > 1e-9:
@@ -496,8 +502,9 @@ def _alignment_finding(board: Board, copper: _Copper, unlanded: list[int], lande
 def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int = 0) -> Alignment | None:
     """The transform of the netlist's pads that lands the most of them on copper.
 
-    Candidates: mirror in x or y about the board centre, scale by 25.4 or 1/25.4 about the origin,
-    each with its best offset. Offsets are found two ways: votes of hole-to-through-pad
+    Candidates: mirror in x or y about the origin or the board centre; scale about the origin by
+    25.4 or 1/25.4 (inch against mm) or 2.54 or 1/2.54 (the IPC-D-356 units of 0.0001 inch against
+    0.001 mm, a wrong or missing UNITS record); each with its best offset. Offsets are found two ways: votes of hole-to-through-pad
     differences (exact where the drills and the netlist share holes), and the peak of the
     cross-correlation of a pad-centre raster with a copper raster (FFT, cell 0.25 mm or coarser),
     refined on a finer grid by exact point-in-copper counts. Returns None when there are no pads.
@@ -533,6 +540,7 @@ def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int =
     cx, cy = (bounds[0] + bounds[2]) / 2, (bounds[1] + bounds[3]) / 2
 
     bases = [Alignment(), Alignment(scale=INCH_MM), Alignment(scale=1 / INCH_MM),
+             Alignment(scale=INCH_MM / 10), Alignment(scale=10 / INCH_MM),
              Alignment(mirror_x_about=0.0), Alignment(mirror_x_about=cx),
              Alignment(mirror_y_about=0.0), Alignment(mirror_y_about=cy)]
     holes = [h for h in board.holes if h.plated and h.end is None]

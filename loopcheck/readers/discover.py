@@ -72,6 +72,21 @@ class FabSet:
             return f"{self.source.name}:{rel}"
         return rel
 
+    def relname(self, path: Path | None) -> str | None:
+        """The file's name inside the fab outputs (``member`` of a zip, ``sub/file`` of a folder)."""
+        if path is None:
+            return None
+        try:
+            return Path(path).relative_to(self.root).as_posix()
+        except ValueError:
+            return str(path)
+
+    def error_name(self, path: Path | str) -> str:
+        """The name to put in an error message: the real path, or ``board.zip:member``."""
+        if self._tmp is not None:
+            return self.display(Path(path)) or str(path)
+        return str(path)
+
     @property
     def layer_count(self) -> int:
         return len(self.copper)
@@ -304,7 +319,8 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
             _expect(f, "gerber", role, fab, project_file)
             outline_cands.append((0, f, how))
         elif role.startswith("drill"):
-            _expect(f, "excellon", role, fab, project_file)
+            if f.kind != "gerber":       # drill data written as Gerber is read too
+                _expect(f, "excellon", role, fab, project_file)
             plated = {"drill:plated": True, "drill:nonplated": False}.get(role)
             if plated is None:
                 plated = _drill_plating_from_function(f.function)
@@ -338,7 +354,8 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
         elif f.kind == "gerber" and head == "profile":
             outline_cands.append((1, f, how))
             decided.add(f.rel)
-        elif f.kind == "excellon" and head in ("plated", "nonplated", "mixedplating"):
+        elif f.kind in ("excellon", "gerber") and head in ("plated", "nonplated", "mixedplating"):
+            # drill data (Excellon, or Gerber, which the drill reader reads as well)
             drills[f.rel] = (f, _drill_plating_from_function(f.function), how)
             decided.add(f.rel)
         elif f.kind == "gerber":
@@ -362,7 +379,7 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
                 elif (m := re.match(r".*\.gm(\d+)$", f.path.name, re.I)):
                     pref = 3 + int(m.group(1)) / 1000.0   # lowest-numbered mechanical layer first
                 outline_cands.append((pref, f, how))
-            elif f.kind == "excellon" and role[0] == "drill":
+            elif f.kind in ("excellon", "gerber") and role[0] == "drill":
                 drills[f.rel] = (f, role[1], how)
             elif f.kind == "ipc356" and role[0] == "netlist":
                 netlists.append((f, how))
@@ -460,14 +477,6 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
         fab.bom = boms[0].path
         for f in boms[1:]:
             fab.ignored.append((f.path, f"a further CSV file; {fab.display(fab.bom)} recorded as the BOM"))
-    if any(f.kind == "gerber" and _looks_like_drill_name(f) for f in files if f.path in dict(fab.ignored)):
-        fab.notes.append("a drill file in Gerber format was found and not read as holes: "
-                         + ", ".join(fab.display(f.path) for f in files
-                                     if f.kind == "gerber" and _looks_like_drill_name(f)))
-
-
-def _looks_like_drill_name(f: _File) -> bool:
-    return bool(re.search(r"\.(xln|drl|drd|exc)$|drill", f.path.name, re.I))
 
 
 def _expect(f: _File, kind: str, role: str, fab: FabSet, project_file: str | None) -> None:

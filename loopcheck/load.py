@@ -1,0 +1,285 @@
+"""Read a board: a Project (its fab outputs and project file) -> one Board. The one entry point.
+
+Steps: discover the files' roles (``readers.discover``), read every copper layer (Gerber), the
+outline (profile layer), the drills (Excellon) and the netlist (IPC-D-356); clip copper to the
+outline; turn netlist points into pads on layer indices; gather component values; build the
+stackup. Every default and fallback used is written into ``board.assumptions``.
+
+Pad layers from IPC-D-356 access codes: 0 (and any point with a drilled hole) -> all layers,
+1 -> top (index 0), N -> layer N (index N-1; the bottom is the last).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import shapely
+from shapely.geometry import Polygon, box
+from shapely.geometry.base import BaseGeometry
+
+from .board import Board, CopperLayer, Hole, Outline, Pad
+from .errors import InputError
+from .limits import DEFAULT_LIMITS, InputLimits
+from .project import Project
+from .readers.discover import FabSet, discover
+from .stackup import build_stackup, layer_names
+
+EXTENT_MARGIN_MM = 2.0
+
+
+def load_board(project: Project, limits: InputLimits = DEFAULT_LIMITS) -> Board:
+    """Read the board a Project names. Raises InputError on bad or ambiguous input.
+
+    Parameters
+    ----------
+    project : from :func:`loopcheck.project.load_project`
+    limits : limits for untrusted input files
+    """
+    project_file = str(project.path) if project.path else None
+    with discover(project.fab, project.files, limits, project_file=project_file) as fab:
+        return _load(project, fab, limits)
+
+
+def _reraise(fab: FabSet, exc: InputError) -> InputError:
+    """The same error, naming the file as the user knows it (not the temporary copy of a zip)."""
+    if exc.path is None:
+        return exc
+    return InputError(exc.detail, path=fab.error_name(exc.path), line=exc.line)
+
+
+def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
+    from .readers.gerber import read_gerber, read_profile
+
+    assumptions: list[str] = []
+    inputs: dict[str, str] = {}
+    n = fab.layer_count
+    names = layer_names(n)
+
+    # copper
+    raw_layers = []
+    for path, index in fab.copper:
+        try:
+            gl = read_gerber(path, limits)
+        except InputError as exc:
+            raise _reraise(fab, exc) from None
+        raw_layers.append((path, index, gl))
+        inputs[fab.relname(path)] = f"copper layer {index + 1} ({names[index]}): {fab.how.get(path, '')}"
+
+    # netlist
+    netlist = None
+    if fab.netlist is not None:
+        from .readers.ipc356 import read_ipc356
+        try:
+            netlist = read_ipc356(fab.netlist, limits)
+        except InputError as exc:
+            raise _reraise(fab, exc) from None
+        inputs[fab.relname(fab.netlist)] = f"netlist: {fab.how.get(fab.netlist, '')}"
+        _check_netlist_layers(fab, netlist, n)
+
+    # drills
+    holes: list[Hole] = []
+    drill_files: list[str] = []
+    for path, plated in fab.drills:
+        from .readers.drill import read_excellon
+        try:
+            df = read_excellon(path, limits)
+        except InputError as exc:
+            raise _reraise(fab, exc) from None
+        name = fab.relname(path)
+        drill_files.append(name)
+        file_holes = list(df.holes)
+        if plated is not None and getattr(df, "plated", None) is None:
+            file_holes = [dataclasses.replace(h, plated=plated) for h in file_holes]
+        holes.extend(dataclasses.replace(h, file=name) for h in file_holes)
+        kind = {True: "plated", False: "non-plated", None: "plating from the file"}[plated]
+        inputs[name] = f"drill ({kind}): {fab.how.get(path, '')}"
+
+    # pads
+    if netlist is not None:
+        pads = _pads_from_netlist(netlist, n)
+    else:
+        pads = _pads_from_pin_flashes(raw_layers, holes, n)
+        if pads:
+            assumptions.append(f"no netlist: {len(pads)} pads and their nets taken from the X2 pin "
+                               f"attributes (%TO.P%) of the copper layers")
+        else:
+            assumptions.append("no netlist and no X2 pin attributes: no pads, connectivity not checked")
+
+    # outline
+    outline = None
+    if fab.outline is not None:
+        try:
+            geom = read_profile(fab.outline, limits)
+            outline = Outline(geometry=geom, source=f"profile layer {fab.relname(fab.outline)}")
+            inputs[fab.relname(fab.outline)] = f"outline: {fab.how.get(fab.outline, '')}"
+        except InputError as exc:
+            assumptions.append(f"the outline layer {fab.relname(fab.outline)} gave no closed outline "
+                               f"({exc.detail}); the board extent is used instead")
+            inputs[fab.relname(fab.outline)] = "outline: not usable (no closed outline)"
+    if outline is None and netlist is not None and netlist.board_edge:
+        geom = _outline_from_paths(netlist.board_edge)
+        if geom is not None:
+            outline = Outline(geometry=geom, source=f"board-edge records (389) of {fab.relname(fab.netlist)}")
+            assumptions.append("outline taken from the netlist's board-edge records")
+    if outline is None:
+        outline = _extent_outline(pads, holes, [gl.geometry for _, _, gl in raw_layers])
+        assumptions.append(f"no outline layer: the outline is {outline.source}; copper is not clipped")
+
+    # copper layers, clipped to a real outline
+    layers: list[CopperLayer] = []
+    clip = None if outline.from_extent else outline.geometry
+    stackup, stack_assumptions = build_stackup(n, project.stackup, project.path, project.line_of)
+    for path, index, gl in raw_layers:
+        geom = gl.geometry
+        clipped = 0.0
+        net_copper = dict(gl.net_copper)
+        if clip is not None and not geom.is_empty:
+            inside = geom.intersection(clip)
+            clipped = max(float(geom.area - inside.area), 0.0)
+            if clipped > 1e-6:
+                geom = inside
+                net_copper = {k: v.intersection(clip) for k, v in net_copper.items()}
+            else:
+                clipped = 0.0
+        layers.append(CopperLayer(index=index, name=names[index], file=fab.relname(path), geometry=geom,
+                                  thickness_m=stackup.copper_thickness_m[index],
+                                  attributes=dict(gl.attributes), clipped_area_mm2=clipped,
+                                  net_copper=net_copper))
+        if clipped > 0:
+            assumptions.append(f"{names[index]}: {clipped:.3f} mm2 of copper outside the outline left out")
+        for w in getattr(gl, "warnings", []) or []:
+            assumptions.append(f"{fab.relname(path)}: {w}")
+    layers.sort(key=lambda layer: layer.index)
+    assumptions = stack_assumptions + assumptions
+
+    # component values: X3 attributes < BOM < project file
+    values: dict[str, str] = {}
+    x3 = 0
+    for _, _, gl in raw_layers:
+        for ref, v in (gl.component_values or {}).items():
+            if ref not in values:
+                values[ref] = v
+                x3 += 1
+    n_bom = 0
+    if fab.bom is not None:
+        inputs[fab.relname(fab.bom)] = "BOM / placement list"
+        try:
+            from .readers.bom import read_bom
+        except ImportError:
+            read_bom = None
+        if read_bom is not None:
+            try:
+                bom = read_bom(fab.bom, limits)
+            except InputError as exc:
+                raise _reraise(fab, exc) from None
+            values.update(bom)
+            n_bom = len(bom)
+    values.update(project.components)
+    if values:
+        parts = [f"{x3} from X3 attributes" if x3 else "", f"{n_bom} from {fab.relname(fab.bom)}" if n_bom else "",
+                 f"{len(project.components)} from the project file" if project.components else ""]
+        assumptions.append("component values: " + ", ".join(p for p in parts if p))
+
+    for path, why in fab.ignored:
+        inputs.setdefault(fab.relname(path), f"not used: {why}")
+    assumptions.extend(note for note in fab.notes)
+    if holes and any(h.plated for h in holes):
+        assumptions.append("plated holes are taken as through holes joining every copper layer "
+                           "(blind and buried vias are not told apart)")
+
+    return Board(
+        name=project.name, layers=layers, outline=outline, stackup=stackup, pads=pads, holes=holes,
+        netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
+        assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
+    )
+
+
+def _check_netlist_layers(fab: FabSet, netlist, n: int) -> None:
+    highest = max([p.access for p in netlist.points] + [netlist.layer_count or 0])
+    if highest > n:
+        files = ", ".join(f"L{i + 1} {fab.relname(p)}" for p, i in fab.copper)
+        raise InputError(f"the netlist names copper layer {highest} but {n} copper file"
+                         f"{'s were' if n != 1 else ' was'} found ({files}); map the missing layers "
+                         f"in the project file's [files] as copper:N",
+                         path=fab.error_name(fab.netlist))
+
+
+def _pads_from_netlist(netlist, n: int) -> list[Pad]:
+    all_layers = tuple(range(n))
+    pads = []
+    for pt in netlist.points:
+        through = pt.access == 0 or (pt.hole_mm is not None and pt.hole_mm > 0)
+        layers = all_layers if through else (pt.access - 1,)
+        pads.append(Pad(net=pt.net, ref=pt.ref, pin=pt.pin, x_mm=pt.x_mm, y_mm=pt.y_mm, layers=layers,
+                        hole_mm=pt.hole_mm if pt.hole_mm else None,
+                        plated=True if pt.plated is None else bool(pt.plated),
+                        width_mm=pt.width_mm, height_mm=pt.height_mm, rotation_deg=pt.rotation_deg or 0.0,
+                        is_via=bool(pt.is_via), source_line=pt.line))
+    return pads
+
+
+def _pads_from_pin_flashes(raw_layers, holes: list[Hole], n: int) -> list[Pad]:
+    """Pads from X2 %TO.P% flashes: one pad per (ref, pin, place), on the layers that flash it."""
+    found: dict[tuple, dict] = {}
+    for _, index, gl in raw_layers:
+        for pf in gl.pin_flashes or []:
+            key = (pf.ref, pf.pin, round(pf.x_mm, 3), round(pf.y_mm, 3))
+            entry = found.setdefault(key, {"net": pf.net or "", "layers": set(), "x": pf.x_mm, "y": pf.y_mm})
+            entry["layers"].add(index)
+            if not entry["net"] and pf.net:
+                entry["net"] = pf.net
+    if not found:
+        return []
+    tree = None
+    plated = [h for h in holes if h.plated and h.end is None]
+    if plated:
+        tree = shapely.STRtree([shapely.Point(h.x_mm, h.y_mm) for h in plated])
+    pads = []
+    for (ref, pin, _, _), e in found.items():
+        layers = tuple(sorted(e["layers"]))
+        hole_mm = None
+        if tree is not None:
+            near = tree.query(shapely.Point(e["x"], e["y"]).buffer(0.05))
+            if len(near):
+                hole_mm = plated[int(near[0])].diameter_mm
+                layers = tuple(range(n))
+        pads.append(Pad(net=e["net"], ref=ref, pin=pin, x_mm=e["x"], y_mm=e["y"], layers=layers,
+                        hole_mm=hole_mm))
+    pads.sort(key=lambda p: (p.ref, p.pin))
+    return pads
+
+
+def _outline_from_paths(paths) -> BaseGeometry | None:
+    lines = [shapely.LineString(p) for p in paths if len(p) >= 2]
+    if not lines:
+        return None
+    faces = [f for f in shapely.polygonize([shapely.union_all(lines)]).geoms if f.area > 0]
+    if not faces:
+        return None
+    return max(faces, key=lambda f: f.area)
+
+
+def _extent_outline(pads: list[Pad], holes: list[Hole], copper: list[BaseGeometry]) -> Outline:
+    xs, ys = [], []
+    for p in pads:
+        xs.append(p.x_mm)
+        ys.append(p.y_mm)
+    for h in holes:
+        xs.append(h.x_mm)
+        ys.append(h.y_mm)
+    if xs:
+        what = "the extent of the netlist's pads and the holes"
+        x0, y0, x1, y1 = min(xs), min(ys), max(xs), max(ys)
+    else:
+        bounds = [g.bounds for g in copper if not g.is_empty]
+        if not bounds:
+            return Outline(geometry=Polygon(), source="none (no copper, pads or holes)", from_extent=True)
+        what = "the extent of the copper"
+        x0 = min(b[0] for b in bounds)
+        y0 = min(b[1] for b in bounds)
+        x1 = max(b[2] for b in bounds)
+        y1 = max(b[3] for b in bounds)
+    m = EXTENT_MARGIN_MM
+    return Outline(geometry=box(x0 - m, y0 - m, x1 + m, y1 + m),
+                   source=f"{what} plus a {m:g} mm margin", from_extent=True)
