@@ -131,3 +131,15 @@ def make_project(tmp: Path | None = None, waivers=(), thresholds=None, stage_thr
                    rules=RulesSpec(deck=deck, thresholds=dict(thresholds or {}),
                                    stage_thresholds=dict(stage_thresholds or {})),
                    waivers=[Waiver(*w) for w in waivers])
+
+
+def make_result(variant: str = "sprawl", waivers=(), fail_on: str = "error", deck: str = "default",
+                tmp: Path | None = None, integrity: list[Finding] | None = None):
+    """A CheckResult of the fixture board, evaluated by a packaged deck."""
+    from loopcheck.report.common import CheckResult
+    from loopcheck.rules import evaluate_all, load_deck
+
+    analysis = make_analysis(variant, integrity=integrity)
+    project = make_project(tmp, waivers=waivers, deck=deck)
+    ev = evaluate_all(analysis, load_deck(None, project), project)
+    return CheckResult(analysis=analysis, evaluation=ev, project=project, fail_on=fail_on)

@@ -196,16 +196,19 @@ def _merge_rule(old: Rule | None, name: str, table: dict, key: str, path: str,
         if bad:
             raise InputError(f"{key}: unknown key '{sorted(bad)[0]}' (allowed: "
                              f"{', '.join(sorted(_OVERRIDE_KEYS))})", path=path)
-    kind = table.get("kind", old.kind if old else None)
-    if kind is None:
-        kind = "measurement" if "quantity" in table else None
-    if kind not in KINDS:
-        raise InputError(f"{key}.kind: expected one of {', '.join(KINDS)}, got {kind!r}",
-                         path=path)
     limits = dict(old.limits) if old else {}
     for level in LEVELS:
         if level in table:
             limits[level] = _number(table[level], f"{key}.{level}", path)
+    kind = table.get("kind", old.kind if old else None)
+    if kind is None:
+        if "quantity" not in table:
+            raise InputError(f"{key}: a new rule needs the quantity it judges (quantity = "
+                             "\"...\") or kind = \"integrity\" / \"project\"", path=path)
+        kind = "measurement"
+    if kind not in KINDS:
+        raise InputError(f"{key}.kind: expected one of {', '.join(KINDS)}, got {kind!r}",
+                         path=path)
     rule = Rule(
         name=name,
         kind=kind,

@@ -1,0 +1,306 @@
+"""``loopcheck check`` / ``explain`` / ``rules`` on the command line: formats and outputs,
+exit codes, clear errors, no partial output files; end to end on the demo boards once the
+pipeline and the boards exist."""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from loopcheck.cli import main
+from loopcheck.commands import check_cmd
+from reportfixtures import make_analysis, make_project
+
+REPO = Path(__file__).resolve().parents[1]
+BOARDS = REPO / "boards"
+
+
+@pytest.fixture
+def fake_pipeline(monkeypatch, tmp_path):
+    """Replace reading and measuring with the hand-made fixtures; returns a setter."""
+    state = {"analysis": make_analysis("sprawl"), "project": make_project(tmp_path)}
+
+    monkeypatch.setattr(check_cmd, "_load_project", lambda board: state["project"])
+    monkeypatch.setattr(check_cmd, "_load_board", lambda project: state["analysis"].board)
+    monkeypatch.setattr(check_cmd, "_analyse", lambda board, project: state["analysis"])
+
+    def set_(variant=None, **project_kw):
+        if variant:
+            state["analysis"] = make_analysis(variant)
+        if project_kw:
+            state["project"] = make_project(tmp_path, **project_kw)
+    return set_
+
+
+def run(*args):
+    return CliRunner().invoke(main, list(args), catch_exceptions=False)
+
+
+def test_sprawl_fails_and_tidy_passes(fake_pipeline):
+    r = run("check", "board")
+    assert r.exit_code == 1, r.output
+    assert "Result: FAIL" in r.output
+    fake_pipeline("tidy")
+    r = run("check", "board")
+    assert r.exit_code == 0 and "Result: pass" in r.output
+    assert run("check", "board", "--fail-on", "note").exit_code == 1
+    fake_pipeline("sprawl")
+    assert run("check", "board", "--fail-on", "never").exit_code == 0
+
+
+def test_waiver_changes_exit_code_only_when_it_covers_all(fake_pipeline):
+    errs = [("hot-loop-area", "stage1", "a"), ("hot-loop-inductance", "stage1", "b"),
+            ("input-cap-distance", "C1", "c"), ("trace-temperature-rise", "LED+", "d"), ("sense-kelvin", "RS1", "e")]
+    fake_pipeline(waivers=errs[:1])
+    r = run("check", "board", "--format", "json")
+    data = json.loads(r.output)
+    assert r.exit_code == 1
+    assert [f["waived"] for f in data["findings"] if f["rule"] == "hot-loop-area"] == [True]
+    fake_pipeline(waivers=errs)
+    r = run("check", "board", "--format", "json")
+    assert r.exit_code == 0, r.output
+    assert json.loads(r.output)["result"]["failing"] == 0
+
+
+def test_formats_paired_with_outputs(fake_pipeline, tmp_path):
+    sarif, junit, html = tmp_path / "a.sarif", tmp_path / "a.xml", tmp_path / "a.html"
+    r = run("check", "board", "--format", "sarif", "--output", str(sarif), "--format", "junit",
+            "--output", str(junit), "--format", "html", "--output", str(html),
+            "--format", "json")
+    assert r.exit_code == 1
+    assert json.loads(r.output)["schema"].startswith("loopcheck-check-report/")   # stdout
+    assert json.loads(sarif.read_text())["version"] == "2.1.0"
+    assert junit.read_text().startswith("<?xml")
+    assert html.read_text().startswith("<!DOCTYPE html>")
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith("a.")) == \
+        ["a.html", "a.sarif", "a.xml"]
+    assert oct(os.stat(sarif).st_mode & 0o777) == "0o644"
+
+
+def test_usage_errors_exit_2(fake_pipeline, tmp_path):
+    r = CliRunner().invoke(main, ["check", "board", "--format", "json", "--format", "text"])
+    assert r.exit_code == 2 and "only one --format can go to standard output" in r.output
+    r = CliRunner().invoke(main, ["check", "board", "--format", "json", "--output",
+                                  str(tmp_path / "x"), "--output", str(tmp_path / "y")])
+    assert r.exit_code == 2 and "2 --output given for 1 --format" in r.output
+    assert not (tmp_path / "x").exists()
+    # no --format: the text report, to the one --output given
+    r = CliRunner().invoke(main, ["check", "board", "--output", str(tmp_path / "t.txt")])
+    assert r.exit_code == 1 and "Result: FAIL" in (tmp_path / "t.txt").read_text()
+    r = CliRunner().invoke(main, ["check", "board", "--format", "pdf"])
+    assert r.exit_code == 2
+    r = CliRunner().invoke(main, ["check", "board", "--fail-on", "critical"])
+    assert r.exit_code == 2
+
+
+def test_unwritable_output_is_exit_2_and_no_file(fake_pipeline, tmp_path):
+    missing = tmp_path / "no" / "such" / "folder" / "r.sarif"
+    r = CliRunner().invoke(main, ["check", "board", "--format", "sarif", "--output", str(missing)])
+    assert r.exit_code == 2
+    assert "folder does not exist" in r.output and str(missing) in r.output
+    assert "Traceback" not in r.output
+    ro = tmp_path / "ro"
+    ro.mkdir()
+    ro.chmod(0o500)
+    try:
+        target = ro / "r.json"
+        r = CliRunner().invoke(main, ["check", "board", "--format", "json", "--output",
+                                      str(target)])
+        if os.access(ro, os.W_OK):          # root ignores folder permissions
+            assert r.exit_code == 1 and target.exists()
+        else:
+            assert r.exit_code == 2 and not target.exists()
+    finally:
+        ro.chmod(0o700)
+    # an output path that is a folder is refused, and nothing is written into it
+    folder = tmp_path / "out"
+    folder.mkdir()
+    r = CliRunner().invoke(main, ["check", "board", "--format", "json", "--output", str(folder)])
+    assert r.exit_code == 2 and "output path is a folder" in r.output
+    assert list(folder.iterdir()) == []
+
+
+def test_write_failure_after_rendering_leaves_no_partial_file(fake_pipeline, tmp_path,
+                                                              monkeypatch):
+    target = tmp_path / "r.json"
+    real_replace = os.replace
+
+    def failing_replace(src, dst):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(os, "replace", failing_replace)
+    r = CliRunner().invoke(main, ["check", "board", "--format", "json", "--output", str(target)])
+    monkeypatch.setattr(os, "replace", real_replace)
+    assert r.exit_code == 2 and "No space left on device" in r.output
+    assert list(tmp_path.iterdir()) == [] or not target.exists()
+    assert not any(p.name.endswith(".tmp") for p in tmp_path.iterdir())
+
+
+def test_bad_deck_and_unknown_waiver_rule_exit_2_without_output(fake_pipeline, tmp_path):
+    out = tmp_path / "r.sarif"
+    bad = tmp_path / "bad.toml"
+    bad.write_text("[rules.hot-loop-area]\nwarning = 'high'\n")
+    r = CliRunner().invoke(main, ["check", "board", "--deck", str(bad), "--format", "sarif",
+                                  "--output", str(out)])
+    assert r.exit_code == 2
+    assert f"{bad}: rules.hot-loop-area.warning: expected a finite number" in r.output
+    assert not out.exists()
+    r = CliRunner().invoke(main, ["check", "board", "--deck", "strictest"])
+    assert r.exit_code == 2 and "no rule deck named 'strictest'" in r.output
+    fake_pipeline(waivers=[("hot-loop-aera", "stage1", "typo")])
+    r = CliRunner().invoke(main, ["check", "board", "--format", "sarif", "--output", str(out)])
+    assert r.exit_code == 2
+    assert "waivers[0].rule: unknown rule 'hot-loop-aera'" in r.output
+    assert "did you mean 'hot-loop-area'" in r.output
+    assert not out.exists()
+
+
+def test_led_driver_deck_is_stricter(fake_pipeline):
+    fake_pipeline("tidy")
+    assert run("check", "board").exit_code == 0
+    r = run("check", "board", "--deck", "led-driver", "--fail-on", "warning", "--format", "json")
+    # tidy sense error 0.21 % passes 0.25 %; nothing else changes
+    assert r.exit_code == 0
+    assert json.loads(r.output)["deck"]["name"] == "led-driver"
+
+
+def test_progress_is_silent_when_not_a_terminal(fake_pipeline):
+    r = CliRunner(mix_stderr=False).invoke(main, ["check", "board"]) if "mix_stderr" in \
+        CliRunner.__init__.__code__.co_varnames else CliRunner().invoke(main, ["check", "board"])
+    assert "loopcheck: measuring" not in (getattr(r, "stderr", "") or "")
+
+
+def test_progress_names_slow_steps_on_a_terminal():
+    import io
+    import time
+
+    buf = io.StringIO()
+    p = check_cmd.Progress(enabled=True, stream=buf)
+    with p.step("quick step"):
+        pass
+    with p.step("slow step"):
+        time.sleep(1.2)
+    text = buf.getvalue()
+    assert "quick step" not in text
+    assert "loopcheck: slow step ..." in text and "loopcheck: slow step: 1." in text
+    quiet = io.StringIO()
+    with check_cmd.Progress(enabled=False, stream=quiet).step("slow step"):
+        time.sleep(1.1)
+    assert quiet.getvalue() == ""
+
+
+def test_explain_and_rules_commands():
+    r = run("explain", "hot-loop-area")
+    assert r.exit_code == 0 and "How to fix it" in r.output and "Shoelace" in r.output
+    r = CliRunner().invoke(main, ["explain", "hot-loop-aera"])
+    assert r.exit_code == 2 and "did you mean hot-loop-area" in r.output
+    r = run("rules")
+    assert r.exit_code == 0
+    line = next(x for x in r.output.splitlines() if x.strip().startswith("sense-kelvin"))
+    assert "warning > 0.5, error > 2 %" in line
+    r = run("rules", "--deck", "led-driver")
+    line = next(x for x in r.output.splitlines() if x.strip().startswith("sense-kelvin"))
+    assert "warning > 0.25, error > 1 %" in line
+    line = next(x for x in r.output.splitlines()
+                if x.strip().startswith("sense-route-near-switch-node"))
+    assert "warning < 1" in line
+
+
+# --- end to end on the demo boards (made by boards/make_demo_boards.py) ---
+
+def _pipeline_missing() -> str | None:
+    try:
+        from loopcheck.load import load_board  # noqa: F401
+        from loopcheck.analysis import analyse  # noqa: F401
+        from loopcheck.project import load_project  # noqa: F401
+    except ImportError as exc:
+        return f"the pipeline is not there yet ({exc})"
+    for name in ("led-driver-tidy", "led-driver-sprawl"):
+        if not (BOARDS / name / "loopcheck.toml").exists():
+            return f"demo board boards/{name} not made yet (boards/make_demo_boards.py)"
+    return None
+
+
+def _demo(*args):
+    why = _pipeline_missing()
+    if why:
+        pytest.skip(why)
+    r = CliRunner().invoke(main, list(args))
+    if isinstance(r.exception, NotImplementedError):
+        pytest.skip(f"pipeline step not implemented yet: {r.exception}")
+    return r
+
+
+def test_demo_tidy_passes():
+    r = _demo("check", str(BOARDS / "led-driver-tidy"), "--fail-on", "error", "--format", "json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    assert not [f for f in data["findings"] if f["severity"] == "error" and not f["waived"]]
+
+
+def test_demo_sprawl_fails_with_the_three_errors():
+    r = _demo("check", str(BOARDS / "led-driver-sprawl"), "--format", "json")
+    assert r.exit_code == 1, r.output
+    data = json.loads(r.output)
+    errors = {f["rule"] for f in data["findings"] if f["severity"] == "error"}
+    assert {"hot-loop-area", "input-cap-distance", "sense-kelvin"} <= errors
+
+
+def test_demo_sprawl_with_a_waiver(tmp_path):
+    why = _pipeline_missing()
+    if why:
+        pytest.skip(why)
+    import shutil
+
+    import tomllib
+
+    import tomli_w
+
+    board = tmp_path / "sprawl"
+    shutil.copytree(BOARDS / "led-driver-sprawl", board)
+    cfg = tomllib.loads((board / "loopcheck.toml").read_text())
+    first = _demo("check", str(board), "--format", "json")
+    data = json.loads(first.output)
+    errors = [f for f in data["findings"] if f["severity"] == "error" and not f["waived"]]
+    target = next(f for f in errors if f["rule"] == "sense-kelvin")
+    cfg.setdefault("waivers", []).append({"rule": "sense-kelvin", "where": target["stage"],
+                                          "reason": "Kelvin pads added in rev B"})
+    (board / "loopcheck.toml").write_text(tomli_w.dumps(cfg))
+    r = _demo("check", str(board), "--format", "json")
+    data = json.loads(r.output)
+    kel = [f for f in data["findings"] if f["rule"] == "sense-kelvin"]
+    assert kel and all(f["waived"] for f in kel)
+    rest = [f for f in data["findings"] if f["severity"] == "error" and not f["waived"]]
+    assert r.exit_code == (1 if rest else 0)
+    # waiving every remaining error makes it pass
+    for f in rest:
+        cfg["waivers"].append({"rule": f["rule"], "where": f["stage"] or f["nets"][0],
+                               "reason": "accepted for this test"})
+    (board / "loopcheck.toml").write_text(tomli_w.dumps(cfg))
+    r = _demo("check", str(board))
+    assert r.exit_code == 0, r.output
+
+
+def test_demo_reports_validate(tmp_path):
+    r = _demo("check", str(BOARDS / "led-driver-sprawl"), "--format", "sarif", "--output",
+              str(tmp_path / "r.sarif"), "--format", "junit", "--output", str(tmp_path / "r.xml"),
+              "--format", "html", "--output", str(tmp_path / "r.html"), "--format", "json",
+              "--output", str(tmp_path / "r.json"))
+    assert r.exit_code == 1, r.output
+    import jsonschema
+    from importlib import resources
+
+    data = json.loads((tmp_path / "r.json").read_text())
+    schema = json.loads(resources.files("loopcheck.schemas")
+                        .joinpath("check-report.schema.json").read_text())
+    jsonschema.validate(data, schema)
+    sarif = json.loads((tmp_path / "r.sarif").read_text())
+    assert len(sarif["runs"][0]["results"]) == len(data["findings"])
+    for name in ("led-driver-tidy", "sync-buck-4layer"):
+        if (BOARDS / name / "loopcheck.toml").exists():
+            r = _demo("check", str(BOARDS / name), "--format", "json")
+            jsonschema.validate(json.loads(r.output), schema)

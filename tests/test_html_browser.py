@@ -1,0 +1,99 @@
+"""The HTML report, opened in headless Chromium: it renders without console errors, fetches
+nothing, and its SVG holds the hot-loop polygon and one marker per finding."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import tempfile
+from pathlib import Path
+
+import pytest
+
+from loopcheck.report.html import render_html
+from reportfixtures import make_result
+
+CHROMIUM = "/usr/bin/chromium"
+CHROMEDRIVER = "/usr/bin/chromedriver"
+
+
+def test_html_is_self_contained():
+    html = render_html(make_result("sprawl", waivers=[("sense-kelvin", "RS1", "rev B")]))
+    # no external fetches of any kind: no src/href to another origin, no scripts, no @import
+    assert not re.search(r'(src|href)\s*=\s*"(https?:)?//', html)
+    assert "<script" not in html and "@import" not in html and "url(" not in html
+    assert "<link" not in html
+    for text in ("does not certify", "creepage and clearance", "local codes and licensed practice"):
+        assert text in html
+
+
+def test_html_links_markers_and_rows():
+    r = make_result("sprawl", waivers=[("sense-kelvin", "RS1", "rev B")])
+    html = render_html(r)
+    for i in range(len(r.findings)):
+        fid = f"finding-{i + 1}"
+        assert f'id="{fid}"' in html                 # the table row
+        assert f'href="#{fid}"' in html              # the marker links to it
+        assert f'id="marker-{fid}"' in html
+    assert html.count('class="hot-loop"') == 1
+    assert "182 mm²" in html
+    assert 'class="route route-input-cap"' in html and 'class="route route-sense"' in html
+
+
+@pytest.fixture(scope="module")
+def driver():
+    if not (Path(CHROMIUM).exists() and Path(CHROMEDRIVER).exists()):
+        pytest.skip("headless Chromium and chromedriver are not installed "
+                    "(apt-get install chromium chromium-driver)")
+    from selenium import webdriver
+    from selenium.webdriver.chrome.service import Service
+
+    profile = tempfile.mkdtemp(prefix="lc-chrome-")
+    opts = webdriver.ChromeOptions()
+    opts.binary_location = CHROMIUM
+    for a in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+              "--disable-component-update", "--disable-sync", "--no-first-run",
+              f"--user-data-dir={profile}", "--window-size=1400,1400"):
+        opts.add_argument(a)
+    opts.set_capability("goog:loggingPrefs", {"browser": "ALL"})
+    d = webdriver.Chrome(service=Service(CHROMEDRIVER), options=opts)
+    yield d
+    d.quit()
+    shutil.rmtree(profile, ignore_errors=True)
+
+
+@pytest.mark.browser
+@pytest.mark.parametrize("variant", ["sprawl", "tidy"])
+def test_html_renders_in_chromium(driver, tmp_path, variant):
+    from selenium.webdriver.common.by import By
+
+    r = make_result(variant, waivers=[("sense-kelvin", "RS1", "rev B")])
+    page = tmp_path / "report.html"
+    page.write_text(render_html(r), encoding="utf-8")
+    driver.get(page.as_uri())
+    logs = driver.get_log("browser")
+    problems = [x for x in logs if x.get("level") in ("SEVERE", "WARNING")]
+    assert problems == []
+    svg = driver.find_element(By.ID, "board-view")
+    assert svg.size["width"] > 300 and svg.size["height"] > 150
+    loops = svg.find_elements(By.CSS_SELECTOR, "polygon.hot-loop")
+    assert len(loops) == 1
+    assert len(loops[0].get_attribute("points").split()) >= 3
+    markers = svg.find_elements(By.CSS_SELECTOR, ".finding-marker")
+    assert len(markers) == len(r.findings)
+    assert {m.get_attribute("data-finding") for m in markers} == \
+        {f"finding-{i + 1}" for i in range(len(r.findings))}
+    # every marker is drawn inside the SVG's box
+    box = svg.rect
+    for m in markers:
+        c = m.find_element(By.TAG_NAME, "circle").rect
+        assert box["x"] - 1 <= c["x"] <= box["x"] + box["width"] + 1
+        assert box["y"] - 1 <= c["y"] <= box["y"] + box["height"] + 1
+    # no resource of any kind was fetched beyond the page itself
+    entries = driver.execute_script(
+        "return performance.getEntriesByType('resource').map(e => e.name)")
+    assert entries == []
+    # a copper layer can be hidden with its legend toggle (CSS only, no script)
+    driver.find_element(By.CSS_SELECTOR, "label[for=show-layer-1]").click()
+    layer = svg.find_element(By.CSS_SELECTOR, "g.layer-1")
+    assert not layer.is_displayed()
