@@ -143,3 +143,6 @@ def make_result(variant: str = "sprawl", waivers=(), fail_on: str = "error", dec
     project = make_project(tmp, waivers=waivers, deck=deck)
     ev = evaluate_all(analysis, load_deck(None, project), project)
     return CheckResult(analysis=analysis, evaluation=ev, project=project, fail_on=fail_on)
+
+
+BOARDS_DIR = Path(__file__).resolve().parents[1] / "boards"

@@ -1,32 +1,26 @@
-"""The board keys that ``inspect --format json`` and ``check --format json`` share.
+"""The keys ``check --format json`` shares with ``inspect --format json``, made by inspect's own
+function (loopcheck.report.inspect.inspect_data), so the two reports cannot disagree.
 
-One function, so the two reports can never disagree: ``layers[]`` (name, file, copper area),
-``nets`` and ``components``. Every number is read off the Board; nothing is computed here beyond
-counting.
+``check`` has the Analysis, not inspect's ConnectivityResult; the integrity findings and the
+checked flag it needs are the analysis's own.
 """
 
 from __future__ import annotations
 
 from typing import Any
 
-from ..board import Board
+from ..analysis import Analysis
+
+# inspect keys that check reports in its own, richer form
+_CHECK_OWNS = ("schema", "findings", "assumptions")
 
 
-def board_keys(board: Board) -> dict[str, Any]:
-    layers = [{"index": layer.index, "name": layer.name, "file": layer.file,
-               "copper_area_mm2": layer.copper_area_mm2,
-               "thickness_um": layer.thickness_m * 1e6} for layer in board.layers]
-    nets = [{"name": name, "terminals": sorted(p.terminal for p in pads if not p.is_via),
-             "vias": sum(1 for p in pads if p.is_via)}
-            for name, pads in sorted(board.nets.items())]
-    components = [{"ref": ref, "value": board.component_values.get(ref),
-                   "pins": sorted({p.pin for p in pads}, key=_natural),
-                   "nets": sorted({p.net for p in pads})}
-                  for ref, pads in sorted(board.components.items(), key=lambda kv: _natural(kv[0]))]
-    return {"layers": layers, "nets": nets, "components": components}
+def inspect_keys(analysis: Analysis) -> dict[str, Any]:
+    from ..connectivity import ConnectivityResult
+    from .inspect import inspect_data
 
-
-def _natural(text: str) -> tuple:
-    import re
-
-    return tuple(int(t) if t.isdigit() else t for t in re.split(r"(\d+)", text))
+    aligned = not any(f.rule == "netlist-alignment" for f in analysis.integrity)
+    conn = ConnectivityResult(findings=list(analysis.integrity),
+                              checked=analysis.connectivity_checked, aligned=aligned)
+    data = inspect_data(analysis.board, conn)
+    return {k: v for k, v in data.items() if k not in _CHECK_OWNS}

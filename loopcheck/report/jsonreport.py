@@ -7,7 +7,7 @@ import json
 import math
 from typing import Any
 
-from .boardkeys import board_keys
+from .boardkeys import inspect_keys
 from .common import CheckResult, finding_id, operating_point_assumptions, stage_summary
 
 SCHEMA_VERSION = "loopcheck-check-report/1"
@@ -54,18 +54,16 @@ def report_dict(result: CheckResult) -> dict[str, Any]:
     out: dict[str, Any] = {
         "schema": SCHEMA_VERSION,
         "tool": {"name": "loopcheck", "version": result.tool_version},
-        "board": {"name": board.name, "source": board.source,
-                  "outline": board.outline.source if board.outline else None,
-                  "netlist_file": board.netlist_file, "drill_files": list(board.drill_files)},
         "deck": {"name": result.deck.name, "path": result.deck.path},
         "fail_on": result.fail_on,
         "result": {"failed": result.failed, "failing": len(result.failing),
                    "counts": counts},
-        "connectivity_checked": a.connectivity_checked,
         "measurement_stopped": a.measurement_stopped,
         "messages": list(a.messages),
     }
-    out.update(board_keys(board))
+    # board, source, layers[], holes, nets, components, pads, vias, outline, netlist, stackup,
+    # connectivity_checked, aligned, alignment_hint, inputs: exactly as inspect writes them
+    out.update(inspect_keys(a))
     out["stages"] = [stage_summary(a, s) for s in a.stages]
     out["measurements"] = measurements
     out["checks"] = checks
