@@ -256,6 +256,24 @@ def test_loop_with_via_segments_is_positive_and_grows_with_height():
     assert vals[0] > 0 and np.all(np.diff(vals) > 0)
 
 
+def test_bar_cut_into_pieces_shorter_than_its_width_is_unchanged():
+    # Partial inductances add (Ruehli 1972): a 10 mm x 0.5 mm bar as 200 pieces of 50 um
+    # (a tenth of its width) has the inductance of the whole bar, Grover's formula (1946).
+    pts = np.column_stack([np.linspace(0, 10e-3, 201), np.zeros(201), np.zeros(201)])
+    whole = ind.polyline_partial_inductance(pts[[0, -1]], 0.5e-3, 35e-6)
+    assert ind.polyline_partial_inductance(pts, 0.5e-3, 35e-6) == pytest.approx(whole, rel=1e-6)
+    assert whole == pytest.approx(ind.bar_self_inductance(10e-3, 0.5e-3, 35e-6), rel=0.001)
+
+
+def test_partial_matrix_sums_to_loop_and_is_symmetric():
+    # Ruehli (1972): the loop inductance is the sum of the partial-inductance matrix.
+    pts = polygon(5e-3, 12) + np.array([0, 0, 1e-3]) * np.arange(12)[:, None] / 12
+    mat = ind.partial_inductance_matrix(pts, np.roll(pts, -1, axis=0), 0.1e-3)
+    assert np.allclose(mat, mat.T, rtol=0, atol=1e-24)
+    assert np.all(np.diag(mat) > 0)
+    assert mat.sum() == pytest.approx(ind.polyline_loop_inductance(pts, gmd_m=0.1e-3), rel=1e-12)
+
+
 # ------------------------------------------------------------------ bad arguments
 
 @pytest.mark.parametrize("call, name", [
