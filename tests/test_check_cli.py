@@ -289,11 +289,11 @@ def test_demo_reports_validate(tmp_path):
               "--output", str(tmp_path / "r.json"))
     assert r.exit_code == 1, r.output
     import jsonschema
-    from importlib import resources
+
+    from loopcheck.report.jsonreport import load_schema
 
     data = json.loads((tmp_path / "r.json").read_text())
-    schema = json.loads(resources.files("loopcheck.schemas")
-                        .joinpath("check-report.schema.json").read_text())
+    schema = load_schema()
     jsonschema.validate(data, schema)
     sarif = json.loads((tmp_path / "r.sarif").read_text())
     assert len(sarif["runs"][0]["results"]) == len(data["findings"])

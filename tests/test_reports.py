@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 import json
-from importlib import resources
-
 import jsonschema
 import pytest
 
@@ -12,14 +10,13 @@ from loopcheck.findings import Finding
 from loopcheck.report.inspect import inspect_data
 from loopcheck.connectivity import ConnectivityResult
 from loopcheck.report.common import write_atomic
-from loopcheck.report.jsonreport import SCHEMA_VERSION, render_json
+from loopcheck.report.jsonreport import SCHEMA_VERSION, load_schema, render_json
 from loopcheck.report.text import render_text
 from reportfixtures import make_result
 
 
 def schema():
-    text = resources.files("loopcheck.schemas").joinpath("check-report.schema.json").read_text()
-    return json.loads(text)
+    return load_schema()
 
 
 def test_json_validates_against_the_shipped_schema():

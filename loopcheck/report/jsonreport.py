@@ -72,6 +72,15 @@ def report_dict(result: CheckResult) -> dict[str, Any]:
     return out
 
 
+def load_schema() -> dict[str, Any]:
+    """The JSON Schema of this report, as shipped in the package."""
+    from importlib import resources
+
+    text = resources.files("loopcheck").joinpath("schemas/check-report.schema.json").read_text(
+        encoding="utf-8")
+    return json.loads(text)
+
+
 def render_json(result: CheckResult) -> str:
     return json.dumps(report_dict(result), indent=2, ensure_ascii=False) + "\n"
 
