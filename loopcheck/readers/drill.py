@@ -1,0 +1,213 @@
+"""Excellon drill reader: holes and slots in mm, plated or not, through gerbonara.
+
+gerbonara's ``ExcellonParser`` does the parsing (number formats, units, tool tables, routed slots
+G00 / M15 / G01 / M16). This module adds what it lacks:
+  * G85 canned slots (``X..Y..G85X..Y..``), rewritten before parsing into the routed form
+    gerbonara understands (line numbers in errors still point at the original file);
+  * plating from X2-style comments (``; #@! TF.FileFunction,Plated,...`` / ``NonPlated``, tool
+    attributes ``; #@! TA.AperFunction,Plated,...``), from gerbonara's own flag (Altium
+    ``;TYPE=PLATED`` / ``;TYPE=NON_PLATED``, Allegro tool tables), then from the file name
+    (NPTH, unplated, non-plated -> not plated; PTH, plated -> plated);
+  * drill data written as Gerber (flashes of round apertures), which some programs export.
+
+A hole whose plating none of these settle counts as plated (common practice: drill files
+without plating marks carry the plated holes), and the file's ``plated`` is then None.
+
+References
+----------
+IPC-NC-349 (1985), "Computer numerical control formatting for drillers and routers" (the
+Excellon format family); Ucamco, "The Gerber Layer Format Specification" 2023.08, 5.6.10
+(.FileFunction Plated / NonPlated) and "XNC Format Specification" 2021 (G85 slots, X2 comments).
+"""
+
+from __future__ import annotations
+
+import re
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from gerbonara import graphic_objects as go
+from gerbonara.excellon import ExcellonParser
+from gerbonara.apertures import CircleAperture
+
+from ..board import Hole
+from ..errors import InputError
+from ..limits import DEFAULT_LIMITS, InputLimits
+from .aperture_shapes import unit_factor
+from .gerber import _read_text, sniff_gerber
+
+
+@dataclass
+class DrillFile:
+    path: str
+    holes: list[Hole]
+    plated: bool | None                  # all plated / all not plated / mixed or unknown
+    attributes: dict[str, str] = field(default_factory=dict)   # X2 file attributes in comments
+    units: str = "mm"
+    slot_count: int = 0
+
+
+_NPTH_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nonplated|[-_.]np[-_.]", re.I)
+_PTH_NAME = re.compile(r"(?<![a-z])pth|plated", re.I)
+_X2_COMMENT = re.compile(r"^;\s*(?:#@!\s*)?(?P<kind>TF|TA)\.?(?P<name>[A-Za-z][\w.]*),(?P<value>.*?)\*?%?\s*$")
+_TOOL_DEF = re.compile(r"^T0*(?P<num>\d+)(?=[A-Z])(?:[A-BD-Z][\d.+-]*)*C")
+_G85 = re.compile(r"^(?P<a>(?:[XY][+-]?[\d.]*)+)G85(?P<b>(?:[XY][+-]?[\d.]*)+)\s*$")
+
+
+def _plating_from_name(path: Path) -> bool | None:
+    name = path.name
+    if _NPTH_NAME.search(name):
+        return False
+    if _PTH_NAME.search(name):
+        return True
+    return None
+
+
+def _plating_word(value: str) -> bool | None:
+    v = value.split(",")[0].strip().lower()
+    if v in ("plated",):
+        return True
+    if v in ("nonplated", "non-plated", "non_plated"):
+        return False
+    return None
+
+
+def _prescan(lines: list[str]):
+    """File attributes, per-tool plating from TA attributes, and G85 slots rewritten."""
+    attributes: dict[str, str] = {}
+    tool_plating: dict[int, bool] = {}
+    pending: bool | None = None
+    out: list[str] = []
+    origin: list[int] = []      # original line number of each rewritten line
+    for n, raw in enumerate(lines, start=1):
+        line = raw.strip()
+        m = _X2_COMMENT.match(line)
+        if m:
+            if m["kind"] == "TF":
+                attributes[m["name"].lstrip(".")] = m["value"].strip()
+            elif m["name"].lstrip(".") == "AperFunction":
+                pending = _plating_word(m["value"])
+        elif (t := _TOOL_DEF.match(line)) and pending is not None:
+            tool_plating[int(t["num"])] = pending
+        g = _G85.match(line)
+        if g:
+            # a canned slot: route from the first point to the second with the current tool
+            for stmt in (f"G00{g['a']}", "M15", f"G01{g['b']}", "M16", "G05"):
+                out.append(stmt)
+                origin.append(n)
+            continue
+        out.append(raw)
+        origin.append(n)
+    return attributes, tool_plating, out, origin
+
+
+def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
+    """Read one drill file (Excellon, or drill data written as Gerber) into holes in mm.
+
+    Raises
+    ------
+    InputError : unreadable, malformed or over-limit files (one line, names the file and line)
+    """
+    path = Path(path)
+    text = _read_text(path, limits, "drill")
+    if not sniff_excellon_text(text) and sniff_gerber(path):
+        return _read_gerber_drill(path, limits)
+    attributes, tool_plating, lines, origin = _prescan(text.splitlines())
+    parser = ExcellonParser()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            parser.do_parse("\n".join(lines), filename=path.name)
+        except Exception as e:  # gerbonara raises SyntaxError, ValueError, NameError ... on bad input
+            line = None
+            if parser.lineno is not None and 0 < parser.lineno <= len(origin):
+                line = origin[parser.lineno - 1]
+            cause = e.__cause__ or e
+            detail = str(cause).split('": ', 1)[-1]
+            raise InputError(f"Excellon syntax error: {detail}", path=str(path), line=line) from None
+    if len(parser.objects) > limits.max_objects_per_layer:
+        raise InputError(f"more than {limits.max_objects_per_layer} holes in one file (limit)", path=str(path))
+
+    file_plating = _plating_word(attributes.get("FileFunction", "")) if "FileFunction" in attributes else None
+    name_plating = _plating_from_name(path)
+    tool_numbers = {id(tool): num for num, tool in parser.tools.items()}
+    holes: list[Hole] = []
+    slots = 0
+    for obj in parser.objects:
+        tool = obj.aperture
+        f = unit_factor(obj.unit)
+        d = tool.diameter * unit_factor(tool.unit) if tool.diameter is not None else 0.0
+        plated = tool_plating.get(tool_numbers.get(id(tool), -1))
+        if plated is None:
+            plated = file_plating
+        if plated is None:
+            plated = tool.plated
+        if plated is None:
+            plated = name_plating
+        if plated is None:
+            plated = True
+        if isinstance(obj, go.Flash):
+            holes.append(Hole(obj.x * f, obj.y * f, d, bool(plated), None, str(path)))
+        elif isinstance(obj, (go.Line, go.Arc)):
+            # a routed slot; an arc is kept as its chord (rare in drill data)
+            holes.append(Hole(obj.x1 * f, obj.y1 * f, d, bool(plated), (obj.x2 * f, obj.y2 * f), str(path)))
+            slots += 1
+    plated_set = {h.plated for h in holes}
+    decided = file_plating is not None or name_plating is not None or any(
+        t.plated is not None for t in parser.tools.values()) or bool(tool_plating)
+    file_plated = plated_set.pop() if len(plated_set) == 1 and decided else None
+    unit = parser.settings.unit
+    return DrillFile(str(path), holes, file_plated, attributes,
+                     units="inch" if unit is not None and unit_factor(unit) != 1.0 else "mm",
+                     slot_count=slots)
+
+
+def _read_gerber_drill(path: Path, limits: InputLimits) -> DrillFile:
+    """Drill data written as Gerber: each flash of a round aperture is a hole, each stroke a slot."""
+    from .gerber import _parse
+
+    text = _read_text(path, limits, "drill")
+    target, _parser, _notes = _parse(path, text, limits)
+    attributes = {k.lstrip("."): ",".join(map(str, v)) for k, v in target.file_attrs.items()}
+    plated = _plating_word(attributes.get("FileFunction", ""))
+    if plated is None:
+        plated = _plating_from_name(path)
+    holes = []
+    slots = 0
+    for obj in target.objects:
+        ap = getattr(obj, "aperture", None)
+        if not isinstance(ap, CircleAperture):
+            continue
+        f = unit_factor(obj.unit)
+        d = ap.diameter * unit_factor(ap.unit)
+        if isinstance(obj, go.Flash):
+            holes.append(Hole(obj.x * f, obj.y * f, d, True if plated is None else plated, None, str(path)))
+        elif isinstance(obj, go.Line):
+            holes.append(Hole(obj.x1 * f, obj.y1 * f, d, True if plated is None else plated,
+                              (obj.x2 * f, obj.y2 * f), str(path)))
+            slots += 1
+    return DrillFile(str(path), holes, plated, attributes,
+                     units="inch" if unit_factor(target.unit) != 1.0 else "mm", slot_count=slots)
+
+
+_EXCELLON_HINTS = re.compile(r"^\s*(M48|M72|M71|METRIC|INCH|FMAT|T0*\d+C[\d.]+|;\s*DRILL|;\s*#@!\s*TF)", re.M)
+
+
+def sniff_excellon_text(text: str) -> bool:
+    head = text[:65536]
+    if re.search(r"%FS[LTD]?[AI]|%MO(MM|IN)|%ADD", head):
+        return False
+    return bool(_EXCELLON_HINTS.search(head))
+
+
+def sniff_excellon(path) -> bool:
+    """Cheap content check: does the file look like an Excellon drill file? (reads 64 KB)"""
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(65536)
+    except OSError:
+        return False
+    if not head or b"\x00" in head:
+        return False
+    return sniff_excellon_text(head.decode("latin-1"))
