@@ -72,7 +72,12 @@ class MeasureContext:
     """Per-board caches for one analysis run (no global state)."""
 
     board: Board
+    values: dict[str, str] = field(default_factory=dict)     # ref -> part value text (board, BOM, project)
+    connectivity: Any = None       # a connectivity.ConnectivityResult: its copper groups give the nets' copper
     cache: dict[Any, Any] = field(default_factory=dict)
+
+    def value_of(self, ref: str) -> str | None:
+        return self.values.get(ref) or self.board.component_values.get(ref)
 
     def islands(self, layer: int) -> tuple[list[Polygon], shapely.STRtree]:
         key = ("islands", layer)
@@ -96,6 +101,12 @@ class MeasureContext:
         if key in self.cache:
             return self.cache[key]
         out: dict[int, BaseGeometry] = {}
+        if self.connectivity is not None and getattr(self.connectivity, "pad_group", None):
+            from ..connectivity import net_copper as group_copper
+            out = {k: g for k, g in group_copper(self.board, self.connectivity, net).items() if not g.is_empty}
+            if out:
+                self.cache[key] = out
+                return out
         pts = self.net_points(net)
         for layer in range(len(self.board.layers)):
             lay = self.board.layers[layer]

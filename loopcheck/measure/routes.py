@@ -16,7 +16,7 @@ Method (the same for DC and for the switching loop, with one addition for the lo
   distance from the other legs of the loop (projected on the board), so a return leg in a plane
   runs under them; where a slot or gap in the plane forces it away, the route records the detour.
 * The path is simplified (Douglas-Peucker, tolerance half the local distance to the copper's edge,
-  so the simplified line stays in copper) into segments; each segment's width is the narrowest
+  at most 0.3 mm, so the simplified line stays in copper) into segments; each segment's width is the narrowest
   local copper width on it (twice the distance transform at the path).
 """
 
@@ -39,9 +39,10 @@ from .raster import Grid, rasterise
 ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
 MIN_PITCH_MM = 0.05
 MAX_PITCH_MM = 0.25
-MAX_CELLS = 900_000    # copper cells of one net over all its layers
+MAX_CELLS = 300_000    # raster cells of one net's copper over all its layers (speed: about 0.2 s a route)
 ATTRACT_GAIN = 3.0     # loop return: extra cost per mm away from the outgoing conductor
 ATTRACT_CAP_MM = 10.0
+SIMPLIFY_MAX_MM = 0.3   # the simplified path stays this close to the raster path (planes)
 DETOUR_MM = 1.5        # a return leg this far from the outgoing conductor is reported as a detour
 
 # half of the 16-neighbourhood (the graph is undirected); intermediate cells a knight move crosses
@@ -154,6 +155,22 @@ class NetRaster:
         w = self.edge_len * 0.5 * (c[self.edge_a] + c[self.edge_b])
         w[self.edge_is_via] = self.edge_len[self.edge_is_via]
         return w
+
+    def graph(self, attract: np.ndarray | None = None):
+        """The weighted graph (CSR); its structure is built once, only the weights change."""
+        if getattr(self, "_csr", None) is None:
+            N = len(self.nodes)
+            order = np.arange(1, len(self.edge_a) + 1, dtype=float)
+            g = coo_matrix((order, (self.edge_a, self.edge_b)), shape=(N, N)).tocsr()
+            self._perm = g.data.astype(np.int64) - 1
+            self._csr = g
+        if attract is None and getattr(self, "_plain", None) is not None:
+            return self._plain
+        g = self._csr.copy()
+        g.data = self.costs(attract)[self._perm]
+        if attract is None:
+            self._plain = g
+        return g
 
 
 def choose_pitch(area_mm2: float, min_width_mm: float | None = None) -> float:
@@ -300,11 +317,15 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
     if not targets:
         raise RouteError(f"{', '.join(e.terminal for e in ends)} land(s) on no copper of net {net}")
     attract = _attraction(nr, attract_to) if attract_to is not None and not attract_to.is_empty else None
-    w = nr.costs(attract)
-    N = len(nr.nodes)
-    g = coo_matrix((w, (nr.edge_a, nr.edge_b)), shape=(N, N)).tocsr()
-    dist, pred, _ = dijkstra(g, directed=False, indices=src, return_predecessors=True, min_only=True)
+    g = nr.graph(attract)
     tnodes = np.array([t for t, _ in targets])
+    # a bounded search first (most routes are short and direct), the whole net if that fails
+    far = max(math.hypot(e.x_mm - start.x_mm, e.y_mm - start.y_mm) for e in ends)
+    for limit in (6.0 * far + 10.0, np.inf):
+        dist, pred, _ = dijkstra(g, directed=False, indices=src, return_predecessors=True, min_only=True,
+                                 limit=limit)
+        if np.isfinite(dist[tnodes]).any():
+            break
     k = int(np.argmin(dist[tnodes]))
     if not np.isfinite(dist[tnodes[k]]):
         raise RouteError(f"no copper of net {net} joins {start.terminal} to "
@@ -317,7 +338,7 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
     return _to_route(nr, path, start, end_pad, attract_to)
 
 
-WIDTH_SEARCH_MM = 2.5   # local width is found exactly up to twice this; wider copper reads at least that
+WIDTH_SEARCH_MM = 1.5   # local width is found exactly up to twice this; wider copper reads at least that
 
 
 def local_width(nr: NetRaster, nodes: np.ndarray) -> np.ndarray:
@@ -327,6 +348,11 @@ def local_width(nr: NetRaster, nodes: np.ndarray) -> np.ndarray:
     Unlike twice the distance to the edge it reads a trace's full width also where the path
     cuts a corner or runs off the centreline.
     """
+    if len(nodes) > 400:
+        # every k-th node, the others take the nearest sample's value (widths vary slowly along a path)
+        k = int(math.ceil(len(nodes) / 400))
+        sub = local_width(nr, nodes[::k])
+        return np.repeat(sub, k)[:len(nodes)]
     slots = nr.nodes[nodes, 0]
     jj = nr.nodes[nodes, 1]
     ii = nr.nodes[nodes, 2]
@@ -370,7 +396,7 @@ def _to_route(nr: NetRaster, path: np.ndarray, start: Pad, end: Pad,
     for r, (a, b) in enumerate(zip(starts, stops)):
         layer = nr.layers[int(slots[a])]
         xy = np.column_stack([xs[a:b], ys[a:b]])
-        tol = np.maximum(0.5 * edt[a:b], 1.5 * nr.pitch_mm)
+        tol = np.clip(0.5 * edt[a:b], 1.5 * nr.pitch_mm, max(1.5 * nr.pitch_mm, SIMPLIFY_MAX_MM))
         keep = _simplify(xy, tol) + a
         if r > 0:
             # the via crossing: from the previous run's last point to this run's first point
@@ -410,3 +436,53 @@ def _to_route(nr: NetRaster, path: np.ndarray, start: Pad, end: Pad,
                 far, at = d, (pt.x, pt.y)
         route.detour = (at[0], at[1], far)
     return route
+
+
+def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
+                    max_casts: int = 400) -> tuple[float, float, float, int]:
+    """(width_mm, x_mm, y_mm, layer) of the narrowest copper the route passes, refined on the
+    geometry: at points along each in-layer segment a line across the segment is cut with the net's
+    copper, and the piece under the point is the local width (exact for a trace, free of the
+    raster's one-pitch quantisation). The first and last half-pad of the route are skipped (pads
+    are entered, not crossed)."""
+    from shapely.geometry import Point
+
+    copper = ctx.net_copper(r.net)
+    segs = [(a, b) for a, b in zip(r.points[:-1], r.points[1:]) if a[2] == b[2] and (a[0], a[1]) != (b[0], b[1])]
+    if not segs:
+        return r.narrowest()
+    total = sum(math.hypot(b[0] - a[0], b[1] - a[1]) for a, b in segs)
+    step = max(step_mm, total / max_casts)
+    start_pad = ctx.board.terminals.get(r.start)
+    end_pad = ctx.board.terminals.get(r.end)
+    skip = []
+    for p in (start_pad, end_pad):
+        if p is not None:
+            skip.append(Point(p.x_mm, p.y_mm).buffer(max(p.width_mm or 0.3, p.height_mm or 0.3) / 2))
+    best = None
+    reach = 2 * WIDTH_SEARCH_MM
+    for a, b in segs:
+        g = copper.get(a[2])
+        if g is None:
+            continue
+        L = math.hypot(b[0] - a[0], b[1] - a[1])
+        ux, uy = (b[0] - a[0]) / L, (b[1] - a[1]) / L
+        n = max(int(L / step), 1)
+        for k in range(n):
+            s = (k + 0.5) * L / n
+            x, y = a[0] + ux * s, a[1] + uy * s
+            pt = Point(x, y)
+            if any(sk.contains(pt) for sk in skip):
+                continue
+            cut = LineString([(x - uy * reach, y + ux * reach), (x + uy * reach, y - ux * reach)]).intersection(g)
+            pieces = getattr(cut, "geoms", [cut])
+            w = None
+            for piece in pieces:
+                if piece.length > 0 and piece.distance(pt) < 1e-6:
+                    w = piece.length
+                    break
+            if w is None:
+                continue
+            if best is None or w < best[0]:
+                best = (w, x, y, a[2])
+    return best if best is not None else r.narrowest()

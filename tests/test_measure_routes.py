@@ -1,0 +1,79 @@
+"""Routes through copper and the raster they run on (boards built from geometry, no files)."""
+
+import math
+
+import numpy as np
+import pytest
+from shapely.geometry import LineString, Point, box
+from shapely.ops import unary_union
+
+from loopcheck.board import Pad
+from loopcheck.measure.netcopper import MeasureContext
+from loopcheck.measure.raster import Grid, rasterise
+from loopcheck.measure.routes import RouteError, narrowest_point, route
+
+from measure_boards import make_board, smd, square_pad, trace
+
+
+def test_raster_area_matches_shapely():
+    # an L-shaped trace, a ring with a hole and a rotated square: the raster's copper area
+    # (cells x pitch^2) against shapely's exact area
+    g = unary_union([trace([(0, 0), (10, 0), (10, 7)], 0.5),
+                     Point(20, 5).buffer(4).difference(Point(20, 5).buffer(2)),
+                     box(30, 0, 36, 6)])
+    grid = Grid.covering(g.bounds, 0.02)
+    m = rasterise(g, grid)
+    assert m.sum() * 0.02 ** 2 == pytest.approx(g.area, rel=0.01)
+    # the hole of the ring is empty
+    j, i = grid.cell_of(20, 5)
+    assert not m[j, i]
+
+
+def test_straight_trace_route_length_and_width():
+    t = unary_union([trace([(0, 0), (20, 0)], 0.5), square_pad(0, 0, 1), square_pad(20, 0, 1)])
+    b = make_board([t, []], [smd("N", "A", 1, 0, 0), smd("N", "B", 1, 20, 0)])
+    r = route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"])
+    assert r.length_mm == pytest.approx(20.0, abs=0.05)
+    assert r.straight_mm == pytest.approx(20.0)
+    assert r.vias == []
+    # raster width within one pitch, the geometric refinement within 1 %
+    assert min(r.widths_mm) == pytest.approx(0.5, abs=r.pitch_mm + 1e-9)
+    w, x, y, layer = narrowest_point(MeasureContext(b), r)
+    assert w == pytest.approx(0.5, rel=0.01)
+    assert 0.5 < x < 19.5 and layer == 0
+
+
+def test_route_keeps_to_the_trace_around_a_bend():
+    t = unary_union([trace([(0, 0), (10, 0), (10, 8)], 0.4), square_pad(0, 0, 0.8), square_pad(10, 8, 0.8)])
+    b = make_board([t, []], [smd("N", "A", 1, 0, 0, 0.8), smd("N", "B", 1, 10, 8, 0.8)])
+    r = route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"])
+    # the centreline is 18 mm; a route inside a 0.4 mm trace cannot be shorter than 18 - 0.4
+    assert 17.6 <= r.length_mm <= 18.1
+    line = LineString(r.xy)
+    assert line.difference(t.buffer(1e-6)).length < 1e-6      # the simplified path stays in copper
+
+
+def test_route_changes_layer_at_a_via():
+    top = unary_union([trace([(0, 0), (10, 0)], 0.5), square_pad(0, 0, 1), Point(10, 0).buffer(0.4)])
+    bot = unary_union([trace([(10, 0), (10, 10)], 0.5), Point(10, 0).buffer(0.4), square_pad(10, 10, 1)])
+    pads = [smd("N", "A", 1, 0, 0), Pad("N", "B", "1", 10, 10, (1,), width_mm=1, height_mm=1),
+            Pad("N", "", "", 10, 0, (0, 1), hole_mm=0.3, is_via=True)]
+    b = make_board([top, bot], pads)
+    r = route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"])
+    assert len(r.vias) == 1 and r.vias[0][2:] == (0, 1)
+    assert r.points[0][2] == 0 and r.points[-1][2] == 1
+    assert r.length_mm == pytest.approx(20.0, abs=0.3)
+
+
+def test_plane_route_is_straight():
+    plane = box(0, 0, 30, 20)
+    b = make_board([plane, []], [smd("G", "A", 1, 2, 2), smd("G", "B", 1, 28, 17)])
+    r = route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"])
+    assert r.length_mm == pytest.approx(math.hypot(26, 15), rel=0.02)
+
+
+def test_no_copper_path_is_a_route_error():
+    t = unary_union([trace([(0, 0), (8, 0)], 0.5), trace([(12, 0), (20, 0)], 0.5)])
+    b = make_board([t, []], [smd("N", "A", 1, 0, 0), smd("N", "B", 1, 20, 0)])
+    with pytest.raises(RouteError, match="no copper of net N joins A.1"):
+        route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"])
