@@ -42,6 +42,8 @@ def _rot(dx, dy, w, h, rot):
 
 # a three-terminal power transistor package (DPAK-like): gate and source leads, drain tab
 POWER3 = {"1": (-2.3, -3.8, 1.2, 2.0), "2": (2.3, -3.8, 1.2, 2.0), "3": (0.0, 0.9, 6.0, 6.2)}
+# a small three-terminal power package (3 mm class): gate and wide source pads, drain pad
+POWER3_SMALL = {"1": (-1.0, -1.35, 0.7, 0.8), "2": (0.6, -1.35, 1.6, 0.8), "3": (0.0, 0.55, 3.0, 2.2)}
 # SMA-like diode, vertical: pin 1 (cathode) on top
 DIODE_V = {"1": (0.0, 2.1, 1.5, 2.2), "2": (0.0, -2.1, 1.5, 2.2)}
 # 1210 capacitor: horizontal (pin 1 left) and vertical (pin 1 on top)
@@ -281,52 +283,58 @@ SYNC_VALUES = {"J1": "2-PIN 5.0MM", "J2": "2-PIN 5.0MM", "C1": "10uF", "C2": "10
 def sync_buck() -> Builder:
     b = Builder("sync-buck-4layer", 50.0, 27.0, layer_count=4)
     V = SYNC_VALUES
-    b.tht("J1", V["J1"], [("1", "VIN", 3.0, 20.9), ("2", "GND", 3.0, 15.9)])
-    b.part("C2", V["C2"], CAP1210_V, 6.0, 19.4, {"1": "VIN", "2": "GND"})
-    b.part("C1", V["C1"], CAP1210_V, 9.5, 16.0, {"1": "VIN", "2": "GND"})
-    b.part("Q1", V["Q1"], POWER3, 14.0, 20.0, {"1": "GH", "2": "SW", "3": "VIN"})
-    b.part("Q2", V["Q2"], POWER3, 18.6, 8.6, {"1": "GL", "2": "GND", "3": "SW"}, rot=180)
+    b.tht("J1", V["J1"], [("1", "VIN", 3.0, 16.55), ("2", "GND", 3.0, 11.55)])
+    b.part("C2", V["C2"], CAP1210_V, 7.0, 15.05, {"1": "VIN", "2": "GND"})
+    # the hot loop: C1 straddles the high-side drain tab (VIN) and the low-side source (GND)
+    b.part("Q1", V["Q1"], POWER3_SMALL, 14.0, 16.0, {"1": "GH", "2": "SW", "3": "VIN"})
+    b.part("Q2", V["Q2"], POWER3_SMALL, 19.0, 13.9, {"1": "GL", "2": "GND", "3": "SW"}, rot=180)
+    b.part("C1", V["C1"], CAP1210_H, 16.8, 18.9, {"1": "VIN", "2": "GND"})
     b.part("L1", V["L1"], IND_H, 30.0, 7.7, {"1": "SW", "2": "VOUT"})
     b.part("C3", V["C3"], CAP1210_V, 38.0, 6.2, {"1": "VOUT", "2": "GND"})
     b.part("C4", V["C4"], CAP1210_V, 42.0, 6.2, {"1": "VOUT", "2": "GND"})
     b.tht("J2", V["J2"], [("1", "VOUT", 47.0, 7.7), ("2", "GND", 47.0, 2.7)])
-    u1 = {"1": "GH", "2": "BST", "3": "SW", "4": "GL", "5": "GND", "6": "VCC", "7": "FB", "8": "VIN"}
+    u1 = {"1": "GH", "2": "GL", "3": "BST", "4": "SW", "5": "GND", "6": "VCC", "7": "FB", "8": "VIN"}
     b.part("U1", V["U1"], SOIC8, 28.0, 17.0, u1)
-    b.part("C6", V["C6"], P0603_V, 22.6, 17.0, {"1": "BST", "2": "SW"})
+    b.part("C6", V["C6"], P0603_V, 23.0, 15.8, {"1": "BST", "2": "SW"})
     b.part("C5", V["C5"], P0603_H, 33.8, 16.365, {"1": "GND", "2": "VCC"})
     b.part("R1", V["R1"], P0603_V, 38.0, 16.835, {"1": "FB", "2": "VOUT"})
     b.part("R2", V["R2"], P0603_H, 40.4, 17.635, {"1": "GND", "2": "FB"})
     # input
-    b.trace("VIN", 2.5, (3.0, 20.9), (6.0, 20.9), (9.5, 20.9), (14.0, 20.9))
-    b.trace("VIN", 1.5, (9.5, 17.5), (9.5, 20.9))
-    # switch node: high-side source -> low-side drain tab -> inductor
-    b.trace("SW", 1.5, (16.3, 16.2), (18.6, 16.2), (18.6, 7.7))
-    b.trace("SW", 2.5, (18.6, 7.7), (26.0, 7.7))
-    # hot-loop ground on top as well, with vias into the plane on layer 2
-    b.trace("GND", 1.5, (9.5, 14.5), (9.5, 12.4), (16.3, 12.4))
-    b.trace("GND", 1.0, (9.5, 12.4), (7.8, 12.4))
-    for x, y in [(7.8, 12.4), (13.5, 12.4), (14.6, 12.4)]:
-        b.via("GND", x, y)
-    b.trace("GND", 1.0, (6.0, 17.9), (6.0, 16.4))
-    b.via("GND", 6.0, 16.4)
+    b.trace("VIN", 2.0, (3.0, 16.55), (7.0, 16.55), (14.0, 16.55))
+    b.trace("VIN", 1.5, (14.0, 16.55), (15.3, 18.9))
+    b.trace("GND", 1.0, (7.0, 13.55), (7.0, 12.0))
+    b.via("GND", 7.0, 12.0)
+    # switch node: high-side source -> low-side drain -> inductor
+    b.trace("SW", 1.2, (14.6, 14.65), (16.3, 13.35), (19.0, 13.35))
+    b.trace("SW", 2.5, (19.0, 13.35), (19.0, 7.7), (26.0, 7.7))
+    # hot-loop ground: capacitor to low-side source on top, both into the layer-2 plane
+    b.trace("GND", 1.0, (18.3, 18.9), (18.4, 15.25))
+    b.trace("GND", 0.6, (18.3, 18.9), (18.3, 21.0))
+    b.via("GND", 18.3, 21.0)
+    b.trace("GND", 0.6, (18.4, 15.25), (16.8, 15.6))
+    b.via("GND", 16.8, 15.6)
     # output
     b.trace("VOUT", 2.5, (34.0, 7.7), (38.0, 7.7), (42.0, 7.7), (47.0, 7.7))
     for x in (38.0, 42.0):
         b.trace("GND", 1.0, (x, 4.7), (x, 3.0))
         b.via("GND", x, 3.0)
-    # gate drive: high side through a via and the bottom layer
-    b.trace("GH", 0.4, (11.7, 16.2), (11.7, 14.2))
-    b.via("GH", 11.7, 14.2)
-    b.trace("GH", 0.4, (23.3, 18.905), (11.7, 18.905), (11.7, 14.2), layer=4)
-    b.via("GH", 23.3, 18.905)
-    b.trace("GH", 0.3, (25.3, 18.905), (23.3, 18.905))
-    b.trace("GL", 0.4, (25.3, 15.095), (20.9, 15.095), (20.9, 12.4))
-    # bootstrap and the controller's switch-node pin
-    b.trace("BST", 0.3, (25.3, 17.635), (22.6, 17.8))
-    b.trace("SW", 0.4, (25.3, 16.365), (22.6, 16.2))
-    b.trace("SW", 0.4, (22.6, 16.2), (18.6, 16.2))
+    # gate drives through vias and the bottom layer
+    b.trace("GH", 0.4, (13.0, 14.65), (13.0, 12.8))
+    b.via("GH", 13.0, 12.8)
+    b.trace("GH", 0.3, (25.3, 18.905), (23.6, 18.905))
+    b.via("GH", 23.6, 18.905)
+    b.trace("GH", 0.4, (23.6, 18.905), (13.0, 18.905), (13.0, 12.8), layer=4)
+    b.trace("GL", 0.3, (25.3, 17.635), (23.6, 17.635))
+    b.via("GL", 23.6, 17.635)
+    b.trace("GL", 0.4, (23.6, 17.635), (21.0, 16.4), layer=4)
+    b.via("GL", 21.0, 16.4)
+    b.trace("GL", 0.4, (21.0, 16.4), (20.0, 15.25))
+    # bootstrap capacitor and the controller's switch-node pin
+    b.trace("BST", 0.3, (25.3, 16.365), (23.0, 16.6))
+    b.trace("SW", 0.4, (25.3, 15.095), (23.0, 15.0))
+    b.trace("SW", 0.4, (23.0, 15.0), (21.5, 13.35), (19.0, 13.35))
     # controller supply, ground, feedback
-    b.trace("VIN", 0.4, (30.7, 18.905), (32.5, 18.905), (32.5, 23.5), (16.0, 23.5))
+    b.trace("VIN", 0.4, (30.7, 18.905), (32.5, 18.905), (32.5, 22.5), (14.0, 22.5), (14.0, 17.0))
     b.trace("VCC", 0.4, (30.7, 16.365), (33.0, 16.365))
     b.trace("GND", 0.4, (34.6, 16.365), (34.6, 14.8))
     b.via("GND", 34.6, 14.8)
@@ -337,7 +345,7 @@ def sync_buck() -> Builder:
     b.trace("GND", 0.3, (41.2, 17.635), (41.2, 19.2))
     b.via("GND", 41.2, 19.2)
     for x, y in [(4.0, 5.0), (12.0, 4.0), (24.0, 3.0), (30.0, 24.5), (45.0, 22.0), (36.0, 12.0),
-                 (25.0, 12.0), (45.0, 13.0)]:
+                 (25.0, 11.0), (45.0, 13.0), (8.0, 22.0), (4.0, 22.0)]:
         b.via("GND", x, y)
     outline = box(0.3, 0.3, 49.7, 26.7)
     for layer in (2, 3, 4):
