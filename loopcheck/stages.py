@@ -675,7 +675,8 @@ class _Detector:
         for key in _REF_KEYS + _LIST_KEYS:
             v = fixed.get(key)
             named |= set(v) if isinstance(v, list) else ({v} if v else set())
-        in_caps = self._caps("input_caps", input_net, ground, switch_input_pads, fixed, exclude=named)
+        in_caps = self._caps("input_caps", input_net, ground, switch_input_pads, fixed, exclude=named,
+                             what="the switch")
         for i, (cap, conf, ev) in enumerate(in_caps):
             roles.append(Role("input_cap", cap.ref, cap.terminals_on(input_net) + cap.terminals_on(ground),
                               conf, ev))
@@ -684,7 +685,8 @@ class _Detector:
         out_ref_pads = (rect_el.part.pads_on(rect_el.rail) if (topology != "buck" and rect_el is not None
                         and rect_el.rail) else inductor.pads_on(x_net))
         out_caps = self._caps("output_caps", output_net, ground, out_ref_pads, fixed,
-                              exclude=named | {c.ref for c, _, _ in in_caps})
+                              exclude=named | {c.ref for c, _, _ in in_caps},
+                              what="the rectifier" if topology != "buck" else "the inductor")
         for cap, conf, ev in out_caps:
             roles.append(Role("output_cap", cap.ref, cap.terminals_on(output_net) + cap.terminals_on(ground),
                               conf, ev))
@@ -783,7 +785,7 @@ class _Detector:
             return switch_el.sw_pads
         return switch_el.part.pads_on(switch_el.rail_pin_net) if switch_el.rail_pin_net else []
 
-    def _caps(self, key, rail, ground, ref_pads, fixed, exclude) -> list[tuple[Part, float, str]]:
+    def _caps(self, key, rail, ground, ref_pads, fixed, exclude, what="the switch") -> list[tuple[Part, float, str]]:
         nl = self.nl
         if not rail or not ground:
             return []
@@ -793,7 +795,7 @@ class _Detector:
         out = []
         for c in sorted(caps, key=lambda c: (_min_dist(c.pads, ref_pads), c.ref)):
             d = _min_dist(c.pads, ref_pads)
-            where = f", {d:.1f} mm straight line from the switch" if math.isfinite(d) else ""
+            where = f", {d:.1f} mm straight line from {what}" if math.isfinite(d) else ""
             out.append((c, 0.9, f"capacitor between {rail} and {ground}{where}"))
         return out
 

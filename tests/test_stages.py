@@ -333,3 +333,76 @@ def test_placement_csv_headers(tmp_path):
     p = tmp_path / "pos.csv"
     p.write_text("# placement\nRefDes,Val,PosX,PosY,Rot\nU1,CTRL,1,2,0\nL1,22uH,3,4,90\n")
     assert read_bom(p) == {"U1": "CTRL", "L1": "22uH"}
+
+
+# --------------------------------------------------------------------------------------------
+# the `loopcheck stages` command, on the demo boards
+
+BOARDS = Path(__file__).resolve().parents[1] / "boards"
+
+
+def run_cli(*args):
+    from click.testing import CliRunner
+
+    from loopcheck.cli import main
+
+    return CliRunner().invoke(main, [str(a) for a in args])
+
+
+def test_cli_text_and_json():
+    import json
+
+    r = run_cli("stages", BOARDS / "led-driver-tidy")
+    assert r.exit_code == 0, r.output
+    assert "stage stage1: buck, discrete switching" in r.output
+    assert "hot loop: C1.1 -> Q1.2 -> Q1.3 -> D1.1 -> D1.2 -> C1.2" in r.output
+    assert "sense_resistor" in r.output and "why:" in r.output
+    r = run_cli("stages", BOARDS / "sync-buck-4layer", "--format", "json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    assert data["schema"] == "loopcheck-stages/1"
+    st = data["stages"][0]
+    assert (st["topology"], st["switching"]) == ("buck", "synchronous")
+    assert {x["role"]: x["ref"] for x in st["roles"]}["rectifier"] == "Q2"
+    assert st["hot_loop"][0] == "C1.1"
+    assert st["operating_point_sources"]["ambient_c"] == "default"
+
+
+def test_cli_write_project_round_trip(tmp_path):
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    target = tmp_path / "loopcheck.toml"
+    r = run_cli("stages", BOARDS / "led-driver-sprawl", "--write-project", target)
+    assert r.exit_code == 0, r.output
+    text = target.read_text()
+    assert 'sense_resistor = "RS1"' in text and 'input_caps = ["C2", "C1"]' in text
+    # refused without --force, and the file is left as it was
+    target.write_text(text + "# edited\n")
+    r = run_cli("stages", BOARDS / "led-driver-sprawl", "--write-project", target)
+    assert r.exit_code == 2 and "--force" in r.output
+    assert target.read_text().endswith("# edited\n")
+    r = run_cli("stages", BOARDS / "led-driver-sprawl", "--write-project", target, "--force")
+    assert r.exit_code == 0 and target.read_text() == text
+    # the written file loads, points at the fab outputs and names every role (confidence 1)
+    project = load_project(target)
+    st = find_stages(load_board(project), project).stages[0]
+    assert st.name == "stage1" and st.role("switch").ref == "Q1"
+    assert all(r.confidence == 1.0 for r in st.roles)
+    assert st.hot_loop == ("C2.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "C2.2")
+    assert st.operating_point.iout_a == 1.5
+    assert [p.name for p in tmp_path.iterdir()] == ["loopcheck.toml"]      # no temp files left
+
+
+def test_cli_bad_inputs(tmp_path):
+    r = run_cli("stages", BOARDS / "led-driver-tidy", "--write-project", tmp_path / "nope" / "x.toml")
+    assert r.exit_code == 2 and "does not exist" in r.output
+    assert not (tmp_path / "nope").exists()
+    # contradictory roles in the project file: one line naming the key, exit code 2
+    proj = tmp_path / "loopcheck.toml"
+    proj.write_text(f'[board]\nfab = "{(BOARDS / "led-driver-tidy").as_posix()}"\n'
+                    '[stages.s]\nswitch = "Q1"\ninput_caps = ["Q1"]\n')
+    r = run_cli("stages", proj)
+    assert r.exit_code == 2
+    assert "stages.s.input_caps" in r.output and "Traceback" not in r.output
+    assert len(r.output.strip().splitlines()) == 1
