@@ -81,7 +81,7 @@ def _module_quantities(name: str) -> list[str]:
     }[name]
 
 
-def measure_stage(ctx, stage: Stage) -> list[Measurement]:
+def measure_stage(ctx, stage: Stage, timings: dict[str, float] | None = None) -> list[Measurement]:
     """Every measurement of one stage; a failing module is reported as not made, the rest go on."""
     from .measure.common import not_made
     from .measure.current import measure_paths
@@ -98,13 +98,18 @@ def measure_stage(ctx, stage: Stage) -> list[Measurement]:
         ("high-current paths", measure_paths),
         ("switch node", measure_switch_node),
     ]
+    import time
+
     out: list[Measurement] = []
     for name, fn in modules:
+        t0 = time.perf_counter()
         try:
             out += fn(ctx, stage)
         except Exception as exc:     # one module's failure is reported, not hidden, and not fatal
             reason = f"{name} measurement failed: {type(exc).__name__}: {exc}"
             out += [not_made(q, stage, reason) for q in _module_quantities(name)]
+        if timings is not None:
+            timings[f"{stage.name} {name}"] = time.perf_counter() - t0
     return out
 
 
@@ -156,7 +161,5 @@ def analyse(board: Board, project: Any) -> Analysis:
     values, _ = component_values(board, project)
     ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None)
     for stage in analysis.stages:
-        ts = time.perf_counter()
-        analysis.measurements += measure_stage(ctx, stage)
-        analysis.timings_s[f"measure {stage.name}"] = time.perf_counter() - ts
+        analysis.measurements += measure_stage(ctx, stage, analysis.timings_s)
     return analysis

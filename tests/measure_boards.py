@@ -95,14 +95,12 @@ def synth_led_buck(name="mini-led-buck", kelvin=True):
         t += [SynthTrace("LEDP", 1, 0.3, [(29, 18.5), (29, 26), (24, 26)]),
               SynthTrace("LEDS", 1, 0.3, [(31.5, 18.5), (31.5, 27), (24, 27)])]
     else:
-        t += [SynthTrace("LEDP", 1, 0.3, [(23, 18.5), (23, 23), (25, 23), (25, 26), (24, 26)]),
-              SynthTrace("LEDS", 1, 0.3, [(37.5, 18.5), (37.5, 12), (33, 12), (33, 27), (24, 27)])]
-        t[0] = SynthTrace("VIN", 1, 1.0, [(3, 20), (13, 20)])
+        # the + tap leaves the inductor's pad (1.4 squares of power trace before RS1.1), the - tap
+        # the power trace 3.4 mm beyond RS1.2
+        t += [SynthTrace("LEDP", 1, 0.3, [(26, 18.5), (26, 23), (25, 23), (25, 26), (24, 26)]),
+              SynthTrace("LEDS", 1, 0.3, [(35.5, 18.5), (35.5, 27), (24, 27)])]
     vias = [SynthVia("GND", 13, 15.5, 0.4, 0.8), SynthVia("GND", 10, 15.5, 0.4, 0.8),
             SynthVia("GND", 18.5, 27, 0.4, 0.8), SynthVia("GND", 28, 31, 0.4, 0.8)]
-    if not kelvin:
-        # the LED return tapped from the power trace runs beside the inductor's switch-node pad
-        pass
     b = SynthBoard(name, 40, 33, 2, comps, t, [], vias)
     b.pours += pours_with_clearance(b, "GND", 2, [(0.5, 0.5), (39.5, 0.5), (39.5, 32.5), (0.5, 32.5)], 0.4)
     return b
