@@ -146,3 +146,22 @@ def make_result(variant: str = "sprawl", waivers=(), fail_on: str = "error", dec
 
 
 BOARDS_DIR = Path(__file__).resolve().parents[1] / "boards"
+
+
+_ANALYSES: dict = {}
+
+
+def cached_analyse(board, project):
+    """The measurement pipeline, run once per demo board per test session (it takes seconds);
+    keyed by what the analysis depends on, so a copy of a board with other waivers shares it."""
+    import os
+
+    from loopcheck.analysis import analyse
+
+    key = (board.name, tuple((os.path.basename(x.file or ""), round(x.copper_area_mm2, 3))
+                             for x in board.layers), len(board.pads),
+           repr(project.operating_point), repr(project.stages), repr(project.components),
+           repr(project.stackup))
+    if key not in _ANALYSES:
+        _ANALYSES[key] = analyse(board, project)
+    return _ANALYSES[key]

@@ -13,7 +13,7 @@ from click.testing import CliRunner
 
 from loopcheck.cli import main
 from loopcheck.commands import check_cmd
-from reportfixtures import make_analysis, make_project
+from reportfixtures import cached_analyse, make_analysis, make_project
 
 REPO = Path(__file__).resolve().parents[1]
 BOARDS = REPO / "boards"
@@ -223,6 +223,13 @@ def _pipeline_missing() -> str | None:
         if not (BOARDS / name / "loopcheck.toml").exists():
             return f"demo board boards/{name} not made yet (boards/make_demo_boards.py)"
     return None
+
+
+@pytest.fixture(autouse=True)
+def _share_demo_analyses(request, monkeypatch):
+    """Demo tests measure each board once per session (the CLI around it runs in full)."""
+    if request.node.name.startswith("test_demo"):
+        monkeypatch.setattr(check_cmd, "_analyse", cached_analyse)
 
 
 def _demo(*args):

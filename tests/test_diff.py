@@ -13,7 +13,7 @@ from loopcheck.commands import check_cmd
 from loopcheck.compare import compare, match_findings, match_measurements
 from loopcheck.findings import Finding, Measurement
 from loopcheck.report.diff import DiffResult, render_diff_html, render_diff_json, render_diff_text
-from reportfixtures import BOARDS_DIR, make_result
+from reportfixtures import BOARDS_DIR, cached_analyse, make_result
 
 
 def diff_of(old="tidy", new="sprawl"):
@@ -96,7 +96,8 @@ def test_diff_command(monkeypatch, tmp_path):
     assert r.exit_code == 2
 
 
-def test_demo_diff_tidy_vs_sprawl():
+def test_demo_diff_tidy_vs_sprawl(monkeypatch):
+    monkeypatch.setattr(check_cmd, "_analyse", cached_analyse)
     tidy, sprawl = BOARDS_DIR / "led-driver-tidy", BOARDS_DIR / "led-driver-sprawl"
     if not (tidy / "loopcheck.toml").exists() or not (sprawl / "loopcheck.toml").exists():
         pytest.skip("demo boards not made yet (boards/make_demo_boards.py)")

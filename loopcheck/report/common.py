@@ -92,6 +92,16 @@ def limits_text(check: Check | None, unit: str | None) -> str:
     return (", ".join(parts) + (f" {u}" if u else "")).strip()
 
 
+def path_label(m: Measurement) -> str:
+    """A measurement's label, naming its high-current path where the label does not already."""
+    label = m.label or m.quantity
+    if m.quantity.startswith("path."):
+        path = m.quantity.split(".")[1].replace("_", " ")
+        if path not in label:
+            label = f"{label} [{path} path]"
+    return label
+
+
 def checks_by_measurement(evaluation: Evaluation) -> dict[int, list[Check]]:
     out: dict[int, list[Check]] = {}
     for c in evaluation.checks:

@@ -10,7 +10,7 @@ from typing import Any
 
 from ..compare import Comparison, FindingChange
 from ..rules.evaluate import fmt
-from .common import CAUTION_LINE, CAUTIONS, CheckResult, UNIT_TEXT, value_text
+from .common import CAUTION_LINE, CAUTIONS, CheckResult, UNIT_TEXT, path_label, value_text
 from .html import _CSS
 from .svg import board_svg
 
@@ -36,10 +36,7 @@ def _change_text(value: float | None, unit: str, pct: float | None) -> str:
 
 
 def _label(ch) -> str:
-    label = ch.label or ch.quantity
-    if ch.quantity.startswith("path."):
-        label += f" [{ch.quantity.split('.')[1].replace('_', ' ')}]"
-    return label
+    return path_label(ch.new or ch.old)
 
 
 def _finding_line(fc: FindingChange) -> str:

@@ -12,7 +12,7 @@ from html import escape
 from ..findings import SEVERITIES
 from ..rules.docs import RULE_DOCS
 from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id, limits_text,
-                     operating_point_assumptions, sorted_findings, value_text)
+                     operating_point_assumptions, path_label, sorted_findings, value_text)
 from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, layer_colour
 
 _CSS = """
@@ -45,6 +45,10 @@ h3 { font-size: 15px; margin-bottom: 6px; }
 .board-svg .hot-loop { fill: rgba(255, 84, 64, .32); stroke:#ff5a40; stroke-linejoin: round; }
 .board-svg .route { fill:none; stroke-linecap: round; stroke-linejoin: round; }
 .board-svg .route-input-cap { stroke:#ffe14d; }
+.board-svg .route-hot-loop { stroke:#ff8a70; opacity:.9; }
+.board-svg .route-straight { stroke:#ffe14d; stroke-dasharray: 1.5 1.5; opacity:.6; }
+.board-svg .sense-pair { fill: rgba(85, 224, 208, .16); stroke:none; }
+.board-svg circle.route { fill:none; }
 .board-svg .route-decoupling { stroke:#fff2a8; stroke-dasharray: 2 1; }
 .board-svg .route-sense { stroke:#55e0d0; }
 .board-svg .route-path { stroke:#ffffff; opacity:.35; }
@@ -218,9 +222,7 @@ def render_html(result: CheckResult) -> str:
         for m in a.measurements_for(stage.name):
             checks = by_m.get(id(m), [])
             c = checks[0] if checks else None
-            label = m.label or m.quantity
-            if m.quantity.startswith("path."):
-                label += f" ({m.quantity.split('.')[1].replace('_', ' ')} path)"
+            label = path_label(m)
             value = value_text(m.value, m.unit)
             if m.value is None and m.not_made:
                 value = f"not measured: {m.not_made}"

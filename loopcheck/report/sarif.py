@@ -93,12 +93,18 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
     results = []
     for i, f in enumerate(result.findings):
         file = None
+        projected = False
         if f.layer and layer_files.get(f.layer):
             file = layer_files[f.layer]
         elif f.rule.startswith("netlist-") and board.netlist_file:
             file = board.netlist_file
         elif f.rule.startswith("unused-") and project_file:
             file = str(project_file)
+        elif board.layers and board.layers[0].file:
+            # a quantity projected on the board (a loop across layers) or one without a place:
+            # the top copper layer's file, so viewers that need a file can still show it
+            file = board.layers[0].file
+            projected = True
         location: dict[str, Any] = {}
         uri = _relative_uri(file, root)
         if uri is not None:
@@ -119,6 +125,8 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
         if logical:
             location["logicalLocations"] = logical
         props: dict[str, Any] = {"id": finding_id(i)}
+        if projected:
+            props["location_note"] = "no single copper layer: shown on the top layer's file"
         for key in ("value", "limit", "unit", "x_mm", "y_mm", "layer", "quantity"):
             v = getattr(f, key)
             if v is not None:

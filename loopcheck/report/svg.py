@@ -117,18 +117,40 @@ def drawing_element(d: Drawing, css_class: str, unit: float, title: str = "") ->
     return ""
 
 
-def _overlay_class(quantity: str) -> str | None:
+def _overlay_class(quantity: str, kind: str) -> str | None:
+    """The CSS class a measurement's drawing is drawn with; None: not drawn on the board."""
     if quantity == "hot_loop.area":
-        return "hot-loop"
-    if quantity.startswith("input_cap."):
+        return "hot-loop" if kind == "polygon" else "route route-hot-loop"
+    if quantity == "input_cap.path_length":
         return "route route-input-cap"
-    if quantity.startswith("controller_decoupling."):
+    if quantity == "input_cap.straight_distance":
+        return "route route-straight"
+    if quantity == "controller_decoupling.path_length":
         return "route route-decoupling"
     if quantity.startswith("sense."):
-        return "route route-sense"
-    if quantity.startswith("path."):
+        return "sense-pair" if kind == "polygon" else "route route-sense"
+    if quantity.startswith("path.") and quantity.endswith(".temperature_rise"):
         return "route route-path"
     return None
+
+
+def _spread(findings: list[Finding], r: float) -> dict[int, tuple[float, float]]:
+    """Board positions of the markers, nudged apart where findings share a spot (so each
+    marker can be seen and clicked): a row centred on the spot."""
+    groups: dict[tuple[int, int], list[int]] = {}
+    for i, f in enumerate(findings):
+        if f.x_mm is None or f.y_mm is None:
+            continue
+        key = (round(f.x_mm / (1.5 * r)), round(f.y_mm / (1.5 * r)))
+        groups.setdefault(key, []).append(i)
+    out: dict[int, tuple[float, float]] = {}
+    for members in groups.values():
+        n = len(members)
+        x0 = findings[members[0]].x_mm
+        y0 = findings[members[0]].y_mm
+        for k, i in enumerate(members):
+            out[i] = (x0 + (k - (n - 1) / 2) * 2.2 * r, y0)
+    return out
 
 
 def board_svg(board: Board, measurements: list[Measurement], findings: list[Finding],
@@ -164,14 +186,17 @@ def board_svg(board: Board, measurements: list[Measurement], findings: list[Find
                    f'<title>{escape(layer.name)} copper</title></path></g>')
     if overlays:
         out.append(f'<g class="overlays" stroke-width="{1.6 * u:.3f}">')
+        drawn: set[tuple] = set()
         for m in measurements:
-            cls = _overlay_class(m.quantity)
-            if cls is None:
-                continue
             for d in m.drawings:
+                cls = _overlay_class(m.quantity, d.kind)
+                key = (cls, d.kind, tuple(map(tuple, d.points)))
+                if cls is None or key in drawn:
+                    continue
+                drawn.add(key)
                 title = f"{m.stage + ': ' if m.stage else ''}{m.label}"
                 out.append(drawing_element(d, cls, u, title))
-            if cls == "hot-loop" and value_labels and id(m) in value_labels:
+            if m.quantity == "hot_loop.area" and value_labels and id(m) in value_labels:
                 x, y = _label_point(m)
                 if x is not None:
                     out.append(f'<text class="loop-label" x="{x:.3f}" y="{-y:.3f}" '
@@ -185,10 +210,8 @@ def board_svg(board: Board, measurements: list[Measurement], findings: list[Find
             x = fr.minx + (8 + slot * 14) * u
             y = -(fr.miny - strip / 2)
             out.append(_marker(findings[i], finding_ids[i], i, x, y, r, u, located=False))
-        for i, f in enumerate(findings):
-            if f.x_mm is None or f.y_mm is None:
-                continue
-            out.append(_marker(f, finding_ids[i], i, f.x_mm, f.y_mm, r, u, located=True))
+        for i, (x, y) in sorted(_spread(findings, r).items()):
+            out.append(_marker(findings[i], finding_ids[i], i, x, y, r, u, located=True))
         out.append("</g>")
         if unlocated:
             out.append(f'<text class="strip-label" x="{fr.minx + (8 + len(unlocated) * 14) * u:.3f}"'
@@ -199,13 +222,18 @@ def board_svg(board: Board, measurements: list[Measurement], findings: list[Find
 
 
 def _label_point(m: Measurement) -> tuple[float | None, float | None]:
-    """Where the loop's area label goes: the middle of its drawing (a marker may sit at the
-    measurement's own point)."""
+    """Where the loop's area label goes: a point inside its largest polygon (placement only)."""
+    from shapely.geometry import Polygon
+
+    best = None
     for d in m.drawings:
-        if d.points:
-            xs = [p[0] for p in d.points]
-            ys = [p[1] for p in d.points]
-            return (min(xs) + max(xs)) / 2, max(ys) - 0.3 * (max(ys) - min(ys))
+        if d.kind == "polygon" and len(d.points) >= 3:
+            poly = Polygon(d.points)
+            if poly.is_valid and (best is None or poly.area > best.area):
+                best = poly
+    if best is not None and not best.is_empty:
+        p = best.representative_point()
+        return p.x, p.y
     if m.x_mm is not None and m.y_mm is not None:
         return m.x_mm, m.y_mm
     return None, None

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from ..findings import SEVERITIES
 from .common import (CAUTION_LINE, CheckResult, checks_by_measurement, limits_text,
-                     operating_point_assumptions, sorted_findings, value_text)
+                     operating_point_assumptions, path_label, sorted_findings, value_text)
 
 _STATUS_WORD = {"pass": "ok", "note": "NOTE", "warning": "WARNING", "error": "ERROR",
                 "not made": "not measured", "off": "off", "": ""}
@@ -46,9 +46,7 @@ def render_text(result: CheckResult) -> str:
             checks = by_m.get(id(m), [])
             check = checks[0] if checks else None
             status = _STATUS_WORD.get(check.status, check.status) if check else ""
-            label = m.label or m.quantity
-            if m.quantity.startswith("path."):
-                label = f"{label} [{m.quantity.split('.')[1].replace('_', ' ')}]"
+            label = path_label(m)
             value = value_text(m.value, m.unit)
             if m.value is None and m.not_made:
                 value = f"not measured ({m.not_made})"
@@ -81,17 +79,19 @@ def render_text(result: CheckResult) -> str:
         lines.append("  none")
     lines.append("")
 
+    # The board's and the analysis's assumptions and each stage's operating point; those behind
+    # single measurements are many and stay in the JSON and HTML reports.
     assumptions = list(board.assumptions) + list(a.assumptions)
     for stage in a.stages:
         assumptions += operating_point_assumptions(stage)
-    seen = set()
-    for m in a.measurements:
-        for text in m.assumptions:
-            assumptions.append(text)
-    assumptions = [x for x in assumptions if not (x in seen or seen.add(x))]
-    if assumptions:
+    assumptions = list(dict.fromkeys(assumptions))
+    per_measurement = {x for m in a.measurements for x in m.assumptions} - set(assumptions)
+    if assumptions or per_measurement:
         lines.append("Assumptions")
         lines.extend(f"  - {x}" for x in assumptions)
+        if per_measurement:
+            lines.append(f"  ({len(per_measurement)} more behind single measurements: see "
+                         "--format json or html)")
         lines.append("")
 
     failing = result.failing
