@@ -378,6 +378,12 @@ class _Detector:
         if boot:
             score += 0.5
             ev.append(f"bootstrap-like capacitor {boot[0].ref} to an IC pin")
+        rail_caps = [c for c in caps if c not in boot and len(c.nets) == 2
+                     and (len(nl.on(next(iter(c.nets - {net})), "capacitor")) >= 2
+                          or nl.on(next(iter(c.nets - {net})), "connector"))]
+        if rail_caps:
+            # a capacitor straight to a rail (ground): this net is a rail, not a switch node
+            return 0.0, "", []
         if len(caps) - len(boot) > 0:
             score -= 1.5 * (len(caps) - len(boot))
         if nl.on(net, "connector"):
@@ -410,7 +416,19 @@ class _Detector:
                 rail, _ = self._resolve_rail(other, {best[0]})
                 if self.nl.is_railish(rail):
                     out.append(best)
-        return out
+        # a net where a transistor meets only IC pins is not a switch node when that transistor
+        # already switches at another candidate with its rectifier (an input filter's inductor)
+        switching = {p.ref for net, _, kind, _, _ in out if kind in ("discrete", "synchronous")
+                     for p in self.nl.on(net) if p.kind in ("transistor", "diode")}
+        kept = []
+        for cand in out:
+            net, ind, kind = cand[0], cand[1], cand[2]
+            if kind == "integrated" and any(p.ref in switching for p in self.nl.on(net, "transistor")):
+                self.messages.append(f"{ind.ref}: net {net} is not taken as a switch node: its transistor "
+                                     "switches at another switch node")
+                continue
+            kept.append(cand)
+        return kept
 
     # -- helpers ------------------------------------------------------------------------------
     def _resolve_rail(self, net: str, exclude: set[str]) -> tuple[str, Part | None]:
@@ -627,7 +645,7 @@ class _Detector:
             elif topology == "boost":
                 input_net = x_rail
                 output_net = (ext.rail if ext is not None and ext.rail else
-                              (max(others, key=lambda n: -self._input_likeness(n)) if others else None))
+                              (min(others, key=self._input_likeness) if others else None))
             else:
                 input_net = max(others, key=self._input_likeness) if others else None
                 output_net = ext.rail if ext is not None else None
@@ -824,6 +842,7 @@ class _Detector:
                       " is inside the IC")
             conf = 0.85
         elif el.kind == "diode":
+            conf = 0.9
             other = el.rail_pin_net
             cathode_on_sw = stage.topology in ("buck", "buck-boost")
             k_net, a_net = (sw, other) if cathode_on_sw else (other, sw)
@@ -850,7 +869,6 @@ class _Detector:
             # hot-loop order: the switch-node terminal first for a rectifier
             terms = part.terminals_on(sw) + part.terminals_on(other)
             ev.insert(0, f"diode from the switch node {sw} to {el.rail}")
-            conf = 0.9
         else:  # transistor
             other = el.rail_pin_net
             high_side = (name == "switch" and stage.topology != "boost") or (
