@@ -79,7 +79,10 @@ def match_measurements(old: list[Measurement], new: list[Measurement]) -> list[M
                                old=mo, new=mn)
         if ch.old_value is not None and ch.new_value is not None:
             ch.change = ch.new_value - ch.old_value
-            if ch.old_value != 0:
+            scale = max(abs(ch.old_value), abs(ch.new_value))
+            if abs(ch.change) <= 1e-9 * scale:      # the same number up to rounding
+                ch.change = 0.0
+            if abs(ch.old_value) > 1e-6 * max(scale, 1e-300) and abs(ch.old_value) > 1e-12:
                 ch.change_pct = 100.0 * ch.change / abs(ch.old_value)
         out.append(ch)
     return out

@@ -114,3 +114,13 @@ def test_demo_diff_tidy_vs_sprawl(monkeypatch):
     assert {"hot_loop.area", "input_cap.path_length", "sense.kelvin_error"} <= changed
     new_rules = {f["rule"] for f in data["findings"] if f["status"] in ("new", "changed")}
     assert {"hot-loop-area", "input-cap-distance", "sense-kelvin"} <= new_rules
+
+
+def test_rounding_noise_is_no_change():
+    old = [Measurement("sense.kelvin_error", 7.3e-14, "%", "k", stage="s"),
+           Measurement("input_cap.path_length", 2.3, "mm", "d", stage="s")]
+    new = [Measurement("sense.kelvin_error", 8.56, "%", "k", stage="s"),
+           Measurement("input_cap.path_length", 2.3 + 3.6e-15, "mm", "d", stage="s")]
+    k, d = match_measurements(old, new)
+    assert k.change == pytest.approx(8.56) and k.change_pct is None   # no % of a zero
+    assert d.change == 0.0 and d.change_pct == 0.0

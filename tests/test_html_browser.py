@@ -97,3 +97,37 @@ def test_html_renders_in_chromium(driver, tmp_path, variant):
     driver.find_element(By.CSS_SELECTOR, "label[for=show-layer-1]").click()
     layer = svg.find_element(By.CSS_SELECTOR, "g.layer-1")
     assert not layer.is_displayed()
+
+
+@pytest.mark.browser
+def test_demo_report_renders_with_a_marker_per_finding(driver, tmp_path):
+    """The sprawling demo board, through the whole pipeline, in Chromium."""
+    from selenium.webdriver.common.by import By
+
+    board = Path(__file__).resolve().parents[1] / "boards" / "led-driver-sprawl"
+    if not (board / "loopcheck.toml").exists():
+        pytest.skip("demo board boards/led-driver-sprawl not made yet")
+    from loopcheck.commands import check_cmd
+    from reportfixtures import cached_analyse
+
+    check_cmd_analyse = check_cmd._analyse
+    check_cmd._analyse = cached_analyse
+    try:
+        result = check_cmd.run_check(str(board), None, "error", check_cmd.Progress(False))
+    finally:
+        check_cmd._analyse = check_cmd_analyse
+    page = tmp_path / "demo.html"
+    page.write_text(render_html(result), encoding="utf-8")
+    assert page.stat().st_size < 3_000_000
+    driver.get(page.as_uri())
+    assert [x for x in driver.get_log("browser") if x.get("level") in ("SEVERE", "WARNING")] == []
+    svg = driver.find_element(By.ID, "board-view")
+    assert svg.find_elements(By.CSS_SELECTOR, "polygon.hot-loop")
+    markers = svg.find_elements(By.CSS_SELECTOR, ".finding-marker")
+    assert len(markers) == len(result.findings) > 0
+    rules = {f.rule for f in result.findings}
+    assert {"hot-loop-area", "input-cap-distance", "sense-kelvin"} <= rules
+    # each marker's link lands on its row in the findings table
+    first = markers[0]
+    fid = first.get_attribute("data-finding")
+    assert driver.find_element(By.ID, fid).tag_name == "tr"

@@ -42,7 +42,7 @@ h3 { font-size: 15px; margin-bottom: 6px; }
 .board-svg .backdrop { fill:#20262d; }
 .board-svg .outline { fill:#2b4034; stroke:#d7e3d9; }
 .board-svg .copper { opacity:.78; }
-.board-svg .hot-loop { fill: rgba(255, 84, 64, .32); stroke:#ff5a40; stroke-linejoin: round; }
+.board-svg .hot-loop { fill: rgba(255, 96, 72, .40); stroke:#ff5a40; stroke-linejoin: round; }
 .board-svg .route { fill:none; stroke-linecap: round; stroke-linejoin: round; }
 .board-svg .route-input-cap { stroke:#ffe14d; }
 .board-svg .route-hot-loop { stroke:#ff8a70; opacity:.9; }
@@ -66,6 +66,7 @@ table { border-collapse: collapse; width:100%; background: var(--panel); font-si
 th, td { text-align:left; padding: 5px 8px; border-bottom: 1px solid var(--line);
          vertical-align: top; }
 th { background:#eef1f4; font-weight:600; }
+td.rule { white-space:nowrap; }
 td.num { text-align:right; font-variant-numeric: tabular-nums; white-space:nowrap; }
 tr:target { outline: 3px solid var(--note); outline-offset:-3px; background:#eef5ff; }
 .sev { font-weight:700; text-transform: uppercase; font-size: 12px; letter-spacing: .04em; }
@@ -195,7 +196,7 @@ def render_html(result: CheckResult) -> str:
                          if f.rule in RULE_DOCS else escape(f.rule))
             h.append(f'<tr id="{fid}"><td><a class="badge" style="background:{colour}" '
                      f'href="#marker-{fid}">{i + 1}</a></td><td class="sev sev-{sev}">{sev}</td>'
-                     f'<td>{rule_link}</td><td>{msg}</td><td>{"<br>".join(where)}</td></tr>')
+                     f'<td class="rule">{rule_link}</td><td>{msg}</td><td>{"<br>".join(where)}</td></tr>')
         h.append("</tbody></table>")
     else:
         h.append("<p>No findings.</p>")

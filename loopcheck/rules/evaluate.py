@@ -187,7 +187,7 @@ def _unit(m: Measurement | None, quantity: str) -> str:
 
 def fmt(value: float) -> str:
     """A measured number for a message: three significant figures, no exponent for normal sizes."""
-    if value == 0:
+    if abs(value) < 1e-6:          # below a millionth of any unit we print: numerical noise
         return "0"
     if abs(value) >= 100:
         return f"{value:.0f}"
