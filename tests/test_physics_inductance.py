@@ -301,6 +301,30 @@ def test_partial_matrix_sums_to_loop_and_is_symmetric():
     assert mat.sum() == pytest.approx(ind.polyline_loop_inductance(pts, gmd_m=0.1e-3), rel=1e-12)
 
 
+def test_mixed_strip_and_round_sections_in_one_matrix():
+    # A loop of traces (strips) and two vias (round barrels, GMD = radius, Grover 1946 ch. 3)
+    # in one matrix; same sum as the strip-only loop where the via segments are given as
+    # strips of the same GMD, to within what the strip GMD changes for near parallel pairs.
+    h = 1.6e-3
+    pts = np.array([[0, 0, 0], [10e-3, 0, 0], [10e-3, 0, -h], [0, 0, -h]])
+    widths = np.array([0.5e-3, np.nan, 0.5e-3, np.nan])
+    mat = ind.partial_inductance_matrix(pts, np.roll(pts, -1, axis=0), 0.15e-3,
+                                        widths_m=widths, thicknesses_m=35e-6)
+    g = np.where(np.isnan(widths), 0.15e-3, 0.2235 * (0.5e-3 + 35e-6))
+    soft = ind.partial_inductance_matrix(pts, np.roll(pts, -1, axis=0), g)
+    assert np.allclose(np.diag(mat), np.diag(soft), rtol=1e-12)
+    assert mat.sum() == pytest.approx(soft.sum(), rel=0.05)
+    # a trace and its image as a strip pair through segment_mutual_inductance equals the loop
+    # engine's value for that pair
+    a0, a1 = np.array([0, 0, 0.2e-3]), np.array([20e-3, 0, 0.2e-3])
+    m = ind.segment_mutual_inductance(a0, a1, a0 * [1, 1, -1], a1 * [1, 1, -1],
+                                      widths_m=1e-3, thicknesses_m=35e-6)
+    pair = ind.partial_inductance_matrix(np.array([a0, a0 * [1, 1, -1]]), np.array([a1, a1 * [1, 1, -1]]),
+                                         widths_m=1e-3, thicknesses_m=35e-6)
+    assert m == pytest.approx(pair[0, 1], rel=1e-12)
+    assert m < ind.segment_mutual_inductance(a0, a1, a0 * [1, 1, -1], a1 * [1, 1, -1], 0.2235 * 1.035e-3)
+
+
 # ------------------------------------------------------------------ bad arguments
 
 @pytest.mark.parametrize("call, name", [
@@ -325,6 +349,12 @@ def test_partial_matrix_sums_to_loop_and_is_symmetric():
     (lambda: ind.polyline_loop_inductance(np.array([[0, 0, 0], [1, 0, 0.0]]), 1e-3, 35e-6), "points_m"),
     (lambda: ind.coaxial_circles_mutual(1e-3, 1e-3, 0.0), "separation_m"),
     (lambda: ind.touching_filaments_mutual(1e-3, 1e-3, 0.0), "angle_rad"),
+    (lambda: ind.partial_inductance_matrix(np.zeros((1, 3)), np.ones((1, 3)), -1.0), "gmd_m"),
+    (lambda: ind.partial_inductance_matrix(np.zeros((2, 3)), np.ones((2, 3)), widths_m=[1e-3, np.nan],
+                                           thicknesses_m=35e-6), "gmd_m"),
+    (lambda: ind.partial_inductance_matrix(np.zeros((1, 3)), np.ones((1, 3)), widths_m=-1e-3,
+                                           thicknesses_m=35e-6), "widths_m"),
+    (lambda: ind.segment_mutual_inductance([0, 0, 0], [1, 0, 0], [0, 1, 0], [1, 1, 0], -1.0), "gmd_m"),
     (lambda: ind.path_over_plane_inductance(np.array([[0, 0, 1e-3], [1e-3, 0, -1e-3]]), 1e-4, 35e-6, 0.0),
      "points_m"),
     (lambda: ind.loop_mutual_inductance(np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0.0]]),

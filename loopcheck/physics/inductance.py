@@ -650,7 +650,47 @@ def _graded_integral(o_start, o_dir, o_len, n_start, n_end, n_len, g2, c0, b0, c
     return _potential_integral(c0, b0, c1, b1, n_len, s, wk)
 
 
-def segment_mutual_inductance(a0, a1, b0, b1, gmd_m=0.0):
+def _sections(n, gmd_m, widths_m, thicknesses_m, allow_zero_gmd=False):
+    """Per-segment section GMD g (n,) and effective strip width (n,) (NaN for round sections).
+
+    Segments with a finite width are w x t strips (g = 0.2235 (w + t)); the others take
+    ``gmd_m`` (round sections, or filaments with g = 0 where allowed). Raises ValueError
+    naming the argument.
+    """
+    strip = np.zeros(n, dtype=bool)
+    g = np.full(n, np.nan)
+    strip_w = np.full(n, np.nan)
+    if widths_m is not None:
+        if thicknesses_m is None:
+            raise ValueError("thicknesses_m must be given with widths_m")
+        try:
+            w = np.broadcast_to(np.asarray(widths_m, dtype=float), (n,))
+            t = np.broadcast_to(np.asarray(thicknesses_m, dtype=float), (n,))
+        except (TypeError, ValueError):
+            raise ValueError(f"widths_m and thicknesses_m must be scalars or have {n} entries") from None
+        strip = ~np.isnan(w)
+        if np.any(~np.isfinite(w[strip])) or np.any(w[strip] <= 0.0):
+            raise ValueError(f"widths_m must be positive (NaN marks a round section), got {widths_m!r}")
+        if np.any(~np.isfinite(t[strip])) or np.any(t[strip] <= 0.0):
+            raise ValueError(f"thicknesses_m must be positive where widths_m is given, got {thicknesses_m!r}")
+        g[strip] = GMD_RECTANGLE_FACTOR * (w[strip] + t[strip])
+        strip_w[strip] = (w[strip] + t[strip]) * _STRIP_WIDTH_FACTOR
+    if not np.all(strip):
+        if gmd_m is None:
+            raise ValueError("gmd_m must be given for segments without widths_m")
+        try:
+            gg = np.broadcast_to(np.asarray(gmd_m, dtype=float), (n,))
+        except (TypeError, ValueError):
+            raise ValueError(f"gmd_m must be a scalar or have {n} entries") from None
+        rest = gg[~strip]
+        if np.any(~np.isfinite(rest)) or np.any(rest < 0.0) or (not allow_zero_gmd and np.any(rest == 0.0)):
+            raise ValueError(f"gmd_m must be {'non-negative' if allow_zero_gmd else 'positive'} and "
+                             f"finite for every round segment, got {gmd_m!r}")
+        g[~strip] = rest
+    return g, strip_w
+
+
+def segment_mutual_inductance(a0, a1, b0, b1, gmd_m=0.0, *, widths_m=None, thicknesses_m=None):
     r"""Mutual partial inductance of two straight segments at any position and angle.
 
     .. math:: M = \frac{\mu_0}{4\pi}\int_a\int_b \frac{d\mathbf{l}_a\cdot d\mathbf{l}_b}
@@ -672,6 +712,10 @@ def segment_mutual_inductance(a0, a1, b0, b1, gmd_m=0.0):
     gmd_m : float or array (P,)
         Geometric mean distance used to soften the kernel [m]; 0 for filaments. Must be > 0
         for parallel segments on one line.
+    widths_m, thicknesses_m : float or array (P,), optional
+        Strip section shared by both segments of a pair [m] (a trace and its image, say);
+        parallel strip pairs then use the strip-to-strip GMD as their distance (Grover), and
+        the others the softened kernel with g = 0.2235 (w + t). NaN widths fall back to gmd_m.
 
     Returns
     -------
@@ -697,11 +741,9 @@ def segment_mutual_inductance(a0, a1, b0, b1, gmd_m=0.0):
         raise ValueError("a0, a1: segment a has zero length")
     if np.any(np.linalg.norm(pb1 - pb0, axis=1) == 0.0):
         raise ValueError("b0, b1: segment b has zero length")
-    g = np.broadcast_to(as_finite("gmd_m", gmd_m), (len(pa0),)).astype(float)
-    if np.any(g < 0):
-        raise ValueError(f"gmd_m must not be negative, got {gmd_m!r}")
+    g, strip_w = _sections(len(pa0), gmd_m, widths_m, thicknesses_m, allow_zero_gmd=True)
     m = _mutual_pairs(pa0.astype(float), pa1.astype(float), pb0.astype(float), pb1.astype(float),
-                      g * g)
+                      g * g, strip_w, strip_w)
     if not np.all(np.isfinite(m)):
         raise ValueError("a0, a1, b0, b1: overlapping collinear filaments need gmd_m > 0")
     return float(m[0]) if single else m
@@ -725,10 +767,11 @@ def partial_inductance_matrix(starts_m, ends_m, gmd_m=None, *, widths_m=None, th
         Segment start and end points [m]; the direction sets the sign of the mutual terms.
     gmd_m : float or array (N,), optional
         Geometric mean distance of each segment's section from itself [m] for round sections
-        (a via barrel or wire at high frequency: its radius). Give this or widths/thicknesses.
+        (a via barrel or wire at high frequency: its radius).
     widths_m, thicknesses_m : float or array (N,), optional
         Strip sections [m]; the width lies in the horizontal plane across the segment
-        (g = 0.2235 (w + t)).
+        (g = 0.2235 (w + t)). A NaN width marks a round segment that takes ``gmd_m``, so a
+        loop of traces and vias can be given at once.
 
     Returns
     -------
@@ -741,17 +784,11 @@ def partial_inductance_matrix(starts_m, ends_m, gmd_m=None, *, widths_m=None, th
        environment", IBM J. Res. Dev. 16(5), 470-481, 1972.
     .. [2] F. W. Grover, "Inductance Calculations", 1946, ch. 3 (GMD) and ch. 5.
     """
-    strip_w = None
-    if gmd_m is None:
-        if widths_m is None or thicknesses_m is None:
-            raise ValueError("gmd_m, or widths_m and thicknesses_m, must be given")
-        w = as_positive("widths_m", widths_m)
-        t = as_positive("thicknesses_m", thicknesses_m)
-        gmd_m = GMD_RECTANGLE_FACTOR * (w + t)
-    a, b, g = _check_segments(starts_m, ends_m, gmd_m)
-    if widths_m is not None and thicknesses_m is not None:
-        strip_w = g / GMD_RECTANGLE_FACTOR * _STRIP_WIDTH_FACTOR
+    a, b = _check_segments(starts_m, ends_m)
     n = len(a)
+    if gmd_m is None and widths_m is None:
+        raise ValueError("gmd_m, or widths_m and thicknesses_m, must be given")
+    g, strip_w = _sections(n, gmd_m, widths_m, thicknesses_m)
     mat = np.zeros((n, n))
     length = np.linalg.norm(b - a, axis=1)
     mat[np.arange(n), np.arange(n)] = _filament_self(length, g)
@@ -761,7 +798,7 @@ def partial_inductance_matrix(starts_m, ends_m, gmd_m=None, *, widths_m=None, th
     return mat
 
 
-def _check_segments(starts_m, ends_m, gmd_m):
+def _check_segments(starts_m, ends_m):
     a = as_finite("starts_m", starts_m)
     b = as_finite("ends_m", ends_m)
     if a.ndim != 2 or a.shape[1] != 3 or a.shape != b.shape:
@@ -770,8 +807,7 @@ def _check_segments(starts_m, ends_m, gmd_m):
     if np.any(length == 0.0):
         k = int(np.nonzero(length == 0.0)[0][0])
         raise ValueError(f"starts_m, ends_m: segment {k} has zero length")
-    g = np.broadcast_to(as_positive("gmd_m", gmd_m), (len(a),)).astype(float)
-    return a, b, g
+    return a, b
 
 
 def _iter_mutual_chunks(a, b, g, strip_w=None, sums_only: bool = False):
