@@ -50,6 +50,7 @@ _PREFIX_KINDS = {
 _SI_PREFIX = {"p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3,
               "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "R": 1.0, "r": 1.0}
 
+NO_CONNECT = re.compile(r"^(|N/?C|NO_?CONNECT|UNCONNECTED.*)$", re.I)
 GROUND_NAMES = re.compile(r"^(P|A|D|S)?(GND|GROUND|VSS|0V|COM|AGND|PGND)(\d*|_.*)?$", re.I)
 SWITCH_NODE_NAMES = re.compile(r"(^|[^A-Z])(SW|LX|PH|PHASE|SWN|SWNODE|SW_NODE)(\d*|[^A-Z].*)?$", re.I)
 INPUT_NAMES = re.compile(r"(^|[^A-Z])(VIN|V_IN|VBAT|VBATT|VSUP|VSUPPLY|VCC_IN|VIN\d*|PVIN|VS|VDC|VBUS|IN)"
@@ -212,7 +213,10 @@ class _Netlist:
         self.board = board
         self.parts: dict[str, Part] = {}
         for ref, pads in board.components.items():
-            self.parts[ref] = Part(ref, component_kind(ref, len(pads)), list(pads), values.get(ref))
+            # unconnected pins ("" or N/C in IPC-D-356) join nothing
+            joined = [p for p in pads if not NO_CONNECT.match(p.net)]
+            if joined:
+                self.parts[ref] = Part(ref, component_kind(ref, len(pads)), joined, values.get(ref))
         self.net_parts: dict[str, list[Part]] = {}
         for part in self.parts.values():
             for net in part.nets:
@@ -588,7 +592,7 @@ class _Detector:
                     topology, topo_ev = "boost", (f"transistor {on_ground[0].part.ref} to ground and diode "
                                                   f"{off_ground[0].part.ref} to the output")
                 else:
-                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground])
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw)
             if topology == "buck":
                 switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
                     next((e for e in off_ground if e.kind == "transistor"), None))
@@ -632,7 +636,7 @@ class _Detector:
                     topology, topo_ev = "boost", f"{ext.part.ref} from the switch node to {ext.rail}"
                 else:
                     others = [n for n in ic_rails if n not in (ground, x_rail)]
-                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, others)
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, others, sw)
             switch_el = ic_el
             if ext is not None and (ext.rail == ground or topology != "buck"):
                 rect_el = ext
@@ -720,7 +724,8 @@ class _Detector:
         if sense is not None:
             roles.append(sense)
         # controller decoupling
-        taken = {r.ref for r in roles} | named
+        taken = {r.ref for r in roles if r.name not in ("input_cap", "output_cap")} | (
+            named - set(fixed.get("input_caps", [])) - set(fixed.get("output_caps", [])))
         dec = self._decoupling(controller, stage, fixed, taken)
         if dec is not None:
             roles.append(dec)
@@ -745,8 +750,10 @@ class _Detector:
         return (bool(INPUT_NAMES.search(net)) and not OUTPUT_NAMES.search(net),
                 bool(nl.on(net, "ic")), bool(nl.on(net, "connector")), -bool(OUTPUT_NAMES.search(net)), net)
 
-    def _buck_or_boost(self, x_rail: str, other_rails: list[str]) -> tuple[str, str, float]:
-        """A synchronous pair (or integrated switches) cannot tell buck from boost by topology."""
+    def _buck_or_boost(self, x_rail: str, other_rails: list[str], sw: str) -> tuple[str, str, float]:
+        """A synchronous pair (or integrated switches) cannot tell buck from boost by topology:
+        decide from the operating point, then net names, then which rail feeds other ICs (the
+        loads hang on the output)."""
         other = other_rails[0] if other_rails else None
         op = self.project.operating_point or {}
         vout = op.get("vout_v")
@@ -762,10 +769,26 @@ class _Detector:
             return "buck", f"net names: inductor to {x_rail}, switch from {other}", 0.8
         if INPUT_NAMES.search(x_rail) or (other and OUTPUT_NAMES.search(other)):
             return "boost", f"net names: inductor from {x_rail}, rectifier to {other}", 0.8
+        own = {p.ref for p in self.nl.on(sw, "ic")}
+        gate_ics = set()
+        for t in self.nl.on(sw, "transistor"):
+            for n in t.nets - {sw}:
+                gate_ics |= {p.ref for p in self.nl.on(n, "ic")}
+        own |= gate_ics
+
+        def loads(net):
+            return {p.ref for p in self.nl.on(net, "ic")} - own
+
+        if other and len(loads(x_rail)) != len(loads(other)):
+            if len(loads(x_rail)) > len(loads(other)):
+                return "buck", (f"{x_rail} (the inductor's far end) feeds {len(loads(x_rail))} other IC(s), "
+                                f"{other} {len(loads(other))}: the loads hang on the output"), 0.7
+            return "boost", (f"{other} feeds {len(loads(other))} other IC(s), {x_rail} (the inductor's far end) "
+                             f"{len(loads(x_rail))}: the loads hang on the output"), 0.7
         if other and self.nl.on(other, "ic") and not self.nl.on(x_rail, "ic"):
             return "buck", f"{other} feeds an IC pin, {x_rail} does not", 0.6
-        return "buck", ("assumed buck: a synchronous pair reads the same as a boost from the netlist; "
-                        "name topology in loopcheck.toml to be sure"), 0.5
+        return "buck", ("assumed buck: a synchronous pair or switches inside an IC read the same as a "
+                        "boost from the netlist; name topology in loopcheck.toml to be sure"), 0.5
 
     def _role(self, name, part, terminals, conf, ev, fixed, pins=None) -> Role:
         key = {"input_cap": "input_caps", "output_cap": "output_caps"}.get(name, name)
@@ -1006,20 +1029,25 @@ class _Detector:
                 pin_pads = controller.pads_on(net)
                 d = _min_dist(c.pads, pin_pads)
                 v = c.value_si
+                dedicated = net not in (stage.input_net, stage.output_net)
+                named_supply = bool(SUPPLY_NAMES.search(net))
                 score = (
-                    bool(SUPPLY_NAMES.search(net)),
-                    net not in (stage.input_net, stage.output_net),
+                    dedicated,                      # a pin of its own (VCC/VDD), not a rail
+                    dedicated and named_supply,
+                    net == stage.input_net,         # else the controller runs from the input rail
                     v is None or v >= 100e-9,
                     -d,
                 )
                 ev = f"capacitor from {controller.ref} pin(s) on {net} to {g}, {d:.1f} mm from the pin"
-                if SUPPLY_NAMES.search(net):
+                if dedicated and named_supply:
                     ev += f"; net name {net!r} is a usual supply name"
+                if not dedicated:
+                    ev += f"; no supply pin of its own: the capacitor on the {net} rail nearest the pin"
                 cands.append((score, c, net, ev))
         if not cands:
             return None
         score, c, net, ev = max(cands, key=lambda t: (t[0], t[1].ref))
-        conf = 0.6 + 0.15 * score[0] + 0.15 * score[1]
+        conf = 0.5 + 0.25 * score[0] + 0.15 * score[1]
         return Role("controller_decoupling", c.ref, c.terminals_on(net) + c.terminals_on(g), round(conf, 2), ev,
                     pins={"supply": controller.terminals_on(net)})
 

@@ -548,3 +548,31 @@ def test_integrated_boost():
     assert st.role("switch").ref == "U1" and st.role("rectifier").ref == "U1"
     # output cap to the IC's output pin, the IC's ground pin, back
     assert st.hot_loop == ("C2.1", "U1.4", "U1.3", "C2.2")
+
+
+CORPUS = Path(__file__).resolve().parents[1].parent / "shared" / "corpus"
+
+
+@pytest.mark.corpus
+def test_corpus_netlist_regulator():
+    """A real netlist nobody here wrote (spec-examples/ipc-d-356.ipc, an open-hardware DMX board):
+    a five-pin regulator U1 with pin 1 on the supply connector's net (with C1), pin 2 to L1 whose
+    far end is VCC (feeding the board's other ICs), pins 3 and 5 on GND. Unconnected pins (blank
+    net) must join nothing."""
+    path = CORPUS / "spec-examples" / "ipc-d-356.ipc"
+    if not path.is_file():
+        pytest.skip(f"corpus netlist not found at {path}")
+    from loopcheck.readers.ipc356 import read_ipc356
+
+    net = read_ipc356(path)
+    pads = [Pad(p.net, p.ref, p.pin, p.x_mm, p.y_mm, (0,), is_via=p.is_via) for p in net.points]
+    board = Board("corpus", [], Outline(box(0, 0, 1, 1), "test"), Stackup([35e-6], [], 1.6e-3), pads)
+    search = find_stages(board, project())
+    assert len(search.stages) == 1
+    st = search.stages[0]
+    assert (st.topology, st.switching) == ("buck", "integrated")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == ("N$4", "N$3", "VCC", "GND")
+    assert st.role("controller").ref == "U1" and st.role("inductor").ref == "L1"
+    assert [r.ref for r in st.roles_named("input_cap")] == ["C1"]
+    assert st.hot_loop[:2] == ("C1.+", "U1.1") and st.hot_loop[-1] == "C1.-"
+    assert "U1.6" not in st.role("controller").terminals          # pin 6 is unconnected
