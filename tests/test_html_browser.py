@@ -76,6 +76,9 @@ def test_html_renders_in_chromium(driver, tmp_path, variant):
     assert problems == []
     svg = driver.find_element(By.ID, "board-view")
     assert svg.size["width"] > 300 and svg.size["height"] > 150
+    # nothing is wider than the window (long messages wrap)
+    assert driver.execute_script(
+        "return document.documentElement.scrollWidth <= document.documentElement.clientWidth")
     loops = svg.find_elements(By.CSS_SELECTOR, "polygon.hot-loop")
     assert len(loops) == 1
     assert len(loops[0].get_attribute("points").split()) >= 3
@@ -121,6 +124,8 @@ def test_demo_report_renders_with_a_marker_per_finding(driver, tmp_path):
     assert page.stat().st_size < 3_000_000
     driver.get(page.as_uri())
     assert [x for x in driver.get_log("browser") if x.get("level") in ("SEVERE", "WARNING")] == []
+    assert driver.execute_script(
+        "return document.documentElement.scrollWidth <= document.documentElement.clientWidth")
     svg = driver.find_element(By.ID, "board-view")
     assert svg.find_elements(By.CSS_SELECTOR, "polygon.hot-loop")
     markers = svg.find_elements(By.CSS_SELECTOR, ".finding-marker")
