@@ -109,9 +109,11 @@ def test_ipc2152_style_shape():
 
 def test_ipc2152_style_inverses():
     w = copper.ipc2152_width(3.0, 20.0, OZ1, plane_distance_m=0.2e-3)
-    assert copper.ipc2152_temperature_rise(3.0, w, OZ1, plane_distance_m=0.2e-3) == pytest.approx(20.0, rel=1e-10)
+    rise = copper.ipc2152_temperature_rise(3.0, w, OZ1, plane_distance_m=0.2e-3)
+    assert rise == pytest.approx(20.0, rel=1e-10)
     i = copper.ipc2152_current(1e-3, OZ1, 20.0, board_thickness_m=2.4e-3)
-    assert copper.ipc2152_temperature_rise(i, 1e-3, OZ1, board_thickness_m=2.4e-3) == pytest.approx(20.0, rel=1e-10)
+    rise = copper.ipc2152_temperature_rise(i, 1e-3, OZ1, board_thickness_m=2.4e-3)
+    assert rise == pytest.approx(20.0, rel=1e-10)
 
 
 def test_ipc2152_style_agrees_with_ipc2221_external_within_band():

@@ -204,7 +204,8 @@ def test_rectangular_loop_of_strips_against_grover():
         assert ind.polyline_loop_inductance(subdivide(rect, k), W_EQ, T_CU) == pytest.approx(got, rel=3e-4)
     # repeating the first point at the end means the same loop
     closed = np.vstack([rect, rect[:1]])
-    assert ind.polyline_loop_inductance(closed, W_EQ, T_CU, require_closed=True) == pytest.approx(got, rel=1e-12)
+    again = ind.polyline_loop_inductance(closed, W_EQ, T_CU, require_closed=True)
+    assert again == pytest.approx(got, rel=1e-12)
 
 
 def test_square_loop_of_strips_against_grover():

@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-from loopcheck.physics._checks import as_finite, as_nonnegative, as_positive, scalar_or_array
+from loopcheck.physics._checks import as_finite, as_positive, scalar_or_array
 from loopcheck.physics.constants import MIL, MU0
 
 #: Resistivity of annealed copper at 20 C [ohm*m] (International Annealed Copper Standard).
