@@ -102,3 +102,18 @@ def test_schema_catches_a_bad_level(sprawl):
     doc["runs"][0]["results"][0]["level"] = "fatal"
     with pytest.raises(jsonschema.ValidationError):
         validate(doc)
+
+
+def test_zipped_board_names_the_member(tmp_path):
+    from loopcheck.project import Project
+
+    r = make_result("sprawl")
+    r.project = Project(path=None, fab=tmp_path / "rev-b.zip", name="x")
+    doc = json.loads(render_sarif(r))
+    validate(doc)
+    run = doc["runs"][0]
+    assert run["originalUriBaseIds"]["BOARDROOT"]["uri"] == tmp_path.resolve().as_uri() + "/"
+    area = next(x for x in run["results"] if x["ruleId"] == "hot-loop-area")
+    art = area["locations"][0]["physicalLocation"]["artifactLocation"]
+    assert art == {"uri": "rev-b.zip", "uriBaseId": "BOARDROOT",
+                   "properties": {"member": "board-F_Cu.gbr"}}

@@ -51,27 +51,49 @@ def _rule_entry(name: str, result: CheckResult) -> dict[str, Any]:
 
 
 def _relative_uri(file: str | None, root: Path | None) -> tuple[str, bool] | None:
-    """(uri, relative to the board root?) for a file the Board names."""
+    """(uri, relative to the board root?) for a file the Board or the project names."""
     if not file:
         return None
     p = Path(file)
-    if root is not None and p.is_absolute():
-        try:
-            return PurePosixPath(p.resolve().relative_to(root.resolve()).as_posix()).as_posix(), True
-        except ValueError:
-            return p.resolve().as_uri(), False
     if p.is_absolute():
-        return p.as_uri(), False
+        if root is not None:
+            try:
+                return p.resolve().relative_to(root.resolve()).as_posix(), True
+            except ValueError:
+                pass
+        return p.resolve().as_uri(), False
     return PurePosixPath(p.as_posix()).as_posix(), True
 
 
+def _fab_zip(result: CheckResult) -> Path | None:
+    fab = getattr(result.project, "fab", None)
+    if fab is not None and Path(fab).suffix.lower() == ".zip" and not Path(fab).is_dir():
+        return Path(fab)
+    return None
+
+
 def _board_root(result: CheckResult) -> Path | None:
-    proj = result.project
-    fab = getattr(proj, "fab", None)
+    """The folder the board's files are named relative to (a zip's own folder)."""
+    fab = getattr(result.project, "fab", None)
     if fab is None:
         return None
-    fab = Path(fab)
-    return fab if fab.is_dir() or fab.suffix.lower() != ".zip" else fab.parent
+    z = _fab_zip(result)
+    return z.parent if z is not None else Path(fab)
+
+
+def _artifact(file: str | None, result: CheckResult, root: Path | None,
+              fab_member: bool) -> dict[str, Any] | None:
+    """An artifactLocation: fab files relative to BOARDROOT; a zip's member named beside it."""
+    z = _fab_zip(result)
+    if fab_member and z is not None and file and not Path(file).is_absolute():
+        return {"uri": z.name, "uriBaseId": BASE_ID, "properties": {"member": file}}
+    uri = _relative_uri(file, root)
+    if uri is None:
+        return None
+    art: dict[str, Any] = {"uri": uri[0]}
+    if uri[1] and root is not None:
+        art["uriBaseId"] = BASE_ID
+    return art
 
 
 def render_sarif(result: CheckResult) -> str:
@@ -106,11 +128,8 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
             file = board.layers[0].file
             projected = True
         location: dict[str, Any] = {}
-        uri = _relative_uri(file, root)
-        if uri is not None:
-            art: dict[str, Any] = {"uri": uri[0]}
-            if uri[1] and root is not None:
-                art["uriBaseId"] = BASE_ID
+        art = _artifact(file, result, root, fab_member=not f.rule.startswith("unused-"))
+        if art is not None:
             location["physicalLocation"] = {"artifactLocation": art}
         logical = []
         if f.stage:
@@ -144,9 +163,9 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
             # The waiver lives in the project file: an external suppression, accepted.
             sup: dict[str, Any] = {"kind": "external", "status": "accepted",
                                    "justification": f.waiver_reason or "waived"}
-            puri = _relative_uri(str(project_file), root) if project_file else None
-            if puri is not None:
-                art = {"uri": puri[0], **({"uriBaseId": BASE_ID} if puri[1] and root else {})}
+            art = _artifact(str(project_file), result, root, fab_member=False) \
+                if project_file else None
+            if art is not None:
                 sup["location"] = {"physicalLocation": {"artifactLocation": art}}
             entry["suppressions"] = [sup]
         results.append(entry)
