@@ -34,6 +34,7 @@ from .netcopper import MeasureContext, dielectric_between, layer_thickness_m, la
 from .routes import DETOUR_MM, Route, RouteError, route
 
 PLANE_COVERAGE = 0.9      # share of a segment's footprint the adjacent copper must cover to count as a plane
+PLANE_LEG_WIDTH_MM = 2.5  # a leg whose copper is everywhere narrower than this is a trace, not a plane
 MAX_STRIP_WIDTH_MM = 5.0  # a plane leg's current at the edge rates spreads little beyond the conductor it follows
 
 
@@ -115,6 +116,10 @@ def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
     final: dict[int, Route] = {}
     for k, kind in legs:
         if kind != "net":
+            continue
+        if max(plain[k].widths_mm, default=0.0) < PLANE_LEG_WIDTH_MM:
+            # a leg in trace-like copper has nowhere else to go: the plain route stands
+            final[k] = plain[k]
             continue
         others = [leg_line(j, kd, plain) for j, kd in legs if j != k]
         others = [o for o in others if o is not None and o.length > 0]

@@ -39,7 +39,7 @@ from .raster import Grid, rasterise
 ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
 MIN_PITCH_MM = 0.05
 MAX_PITCH_MM = 0.25
-MAX_CELLS = 300_000    # raster cells of one net's copper over all its layers (speed: about 0.2 s a route)
+MAX_CELLS = 200_000    # raster cells of one net's copper over all its layers (speed: about 0.2 s a route)
 ATTRACT_GAIN = 3.0     # loop return: extra cost per mm away from the outgoing conductor
 ATTRACT_CAP_MM = 10.0
 SIMPLIFY_MAX_MM = 0.3   # the simplified path stays this close to the raster path (planes)
@@ -160,8 +160,11 @@ class NetRaster:
         """The weighted graph (CSR); its structure is built once, only the weights change."""
         if getattr(self, "_csr", None) is None:
             N = len(self.nodes)
-            order = np.arange(1, len(self.edge_a) + 1, dtype=float)
-            g = coo_matrix((order, (self.edge_a, self.edge_b)), shape=(N, N)).tocsr()
+            # both directions stored: dijkstra(directed=True) then needs no transpose per call
+            E = len(self.edge_a)
+            order = np.concatenate([np.arange(1, E + 1), np.arange(1, E + 1)]).astype(float)
+            g = coo_matrix((order, (np.concatenate([self.edge_a, self.edge_b]),
+                                    np.concatenate([self.edge_b, self.edge_a]))), shape=(N, N)).tocsr()
             self._perm = g.data.astype(np.int64) - 1
             self._csr = g
         if attract is None and getattr(self, "_plain", None) is not None:
@@ -322,7 +325,7 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
     # a bounded search first (most routes are short and direct), the whole net if that fails
     far = max(math.hypot(e.x_mm - start.x_mm, e.y_mm - start.y_mm) for e in ends)
     for limit in (6.0 * far + 10.0, np.inf):
-        dist, pred, _ = dijkstra(g, directed=False, indices=src, return_predecessors=True, min_only=True,
+        dist, pred, _ = dijkstra(g, directed=True, indices=src, return_predecessors=True, min_only=True,
                                  limit=limit)
         if np.isfinite(dist[tnodes]).any():
             break
@@ -348,9 +351,9 @@ def local_width(nr: NetRaster, nodes: np.ndarray) -> np.ndarray:
     Unlike twice the distance to the edge it reads a trace's full width also where the path
     cuts a corner or runs off the centreline.
     """
-    if len(nodes) > 400:
+    if len(nodes) > 200:
         # every k-th node, the others take the nearest sample's value (widths vary slowly along a path)
-        k = int(math.ceil(len(nodes) / 400))
+        k = int(math.ceil(len(nodes) / 200))
         sub = local_width(nr, nodes[::k])
         return np.repeat(sub, k)[:len(nodes)]
     slots = nr.nodes[nodes, 0]
