@@ -140,3 +140,28 @@ def test_write_atomic_leaves_nothing_on_failure(tmp_path):
         write_atomic(p, Boom())            # the write fails half way
     assert p.read_text() == "whole\n"       # the old file is untouched
     assert [x.name for x in tmp_path.iterdir()] == ["r.json"]   # no temp file left
+
+
+def test_every_format_renders_a_board_whose_measurement_stopped(tmp_path):
+    """A misaligned netlist: integrity finding, no stages, measurement stopped: still whole
+    reports that say so."""
+    from loopcheck.report.html import render_html
+    from loopcheck.report.junit import render_junit
+    from loopcheck.report.sarif import render_sarif
+
+    integ = [Finding("netlist-alignment", "error", "312 of 320 netlist pads land on no copper; "
+                     "a shift of (+25.4, 0) mm would align them")]
+    r = make_result("tidy", integrity=integ)
+    r.analysis.stages = []
+    r.analysis.measurements = []
+    r.analysis.measurement_stopped = "the netlist does not line up with the copper"
+    r.evaluation.findings[:] = [f for f in r.evaluation.findings if f.rule == "netlist-alignment"]
+    r.evaluation.checks[:] = []
+    t = render_text(r)
+    assert "measurement stopped: the netlist does not line up" in t and "Result: FAIL" in t
+    data = json.loads(render_json(r))
+    jsonschema.validate(data, schema())
+    assert data["stages"] == [] and data["measurement_stopped"]
+    assert "Measurement stopped" in render_html(r)
+    assert json.loads(render_sarif(r))["runs"][0]["results"][0]["ruleId"] == "netlist-alignment"
+    assert 'failures="1"' in render_junit(r)
