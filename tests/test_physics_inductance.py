@@ -326,6 +326,20 @@ def test_mixed_strip_and_round_sections_in_one_matrix():
     assert m < ind.segment_mutual_inductance(a0, a1, a0 * [1, 1, -1], a1 * [1, 1, -1], 0.2235 * 1.035e-3)
 
 
+def test_partial_matrix_is_positive_definite_for_random_segments():
+    # The magnetic energy (1/2) i^T Lp i of any current distribution is positive, so the
+    # partial-inductance matrix is positive definite (Paul, "Inductance: Loop and Partial",
+    # 2010, ch. 5); the approximations here must not break that, nor give a loop L <= 0.
+    rng = np.random.default_rng(11)
+    for _ in range(10):
+        pts = rng.normal(size=(30, 3)) * 1e-3
+        widths = rng.uniform(0.1e-3, 3e-3, size=30)
+        mat = ind.partial_inductance_matrix(pts, np.roll(pts, -1, axis=0), widths_m=widths,
+                                            thicknesses_m=35e-6)
+        assert np.linalg.eigvalsh(mat).min() > 0
+        assert ind.polyline_loop_inductance(pts, widths, 35e-6) == pytest.approx(mat.sum(), rel=1e-9)
+
+
 # ------------------------------------------------------------------ bad arguments
 
 @pytest.mark.parametrize("call, name", [
