@@ -65,7 +65,7 @@ h3 { font-size: 15px; margin-bottom: 6px; }
 table { border-collapse: collapse; width:100%; background: var(--panel); font-size: 14px; }
 th, td { text-align:left; padding: 5px 8px; border-bottom: 1px solid var(--line);
          vertical-align: top; overflow-wrap: anywhere; }
-th { background:#eef1f4; font-weight:600; }
+th { background:#eef1f4; font-weight:600; white-space:nowrap; overflow-wrap:normal; }
 td.rule { white-space:nowrap; }
 td.num { text-align:right; font-variant-numeric: tabular-nums; white-space:nowrap; }
 tr:target { outline: 3px solid var(--note); outline-offset:-3px; background:#eef5ff; }
