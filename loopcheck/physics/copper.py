@@ -379,7 +379,7 @@ def ipc2152_temperature_rise(current_a, width_m, thickness_m, board_thickness_m=
     r"""IPC-2152-style estimate of a trace's temperature rise at a current.
 
     IPC-2152 publishes charts, not a formula. This estimate uses a power-law fit of its
-    baseline chart (trace in a plane-free 0.070 in board in still air) in the form of
+    baseline chart (as recalled: traces in a plane-free 0.070 in board in still air) in the form of
     D. Brooks and J. Adam,
 
     .. math:: \Delta T_0 = 215.3 \, I^{2.0} \, W^{-1.15} \, Th^{-1.0}
