@@ -43,7 +43,7 @@ def _rot(dx, dy, w, h, rot):
 # a three-terminal power transistor package (DPAK-like): gate and source leads, drain tab
 POWER3 = {"1": (-2.3, -3.8, 1.2, 2.0), "2": (2.3, -3.8, 1.2, 2.0), "3": (0.0, 0.9, 6.0, 6.2)}
 # a small three-terminal power package (3 mm class): gate and wide source pads, drain pad
-POWER3_SMALL = {"1": (-1.0, -1.35, 0.7, 0.8), "2": (0.6, -1.35, 1.6, 0.8), "3": (0.0, 0.55, 3.0, 2.2)}
+POWER3_SMALL = {"1": (-1.0, -1.35, 0.7, 0.8), "2": (0.6, -1.35, 1.6, 1.0), "3": (0.0, 0.55, 3.0, 2.2)}
 # SMA-like diode, vertical: pin 1 (cathode) on top
 DIODE_V = {"1": (0.0, 2.1, 1.5, 2.2), "2": (0.0, -2.1, 1.5, 2.2)}
 # 1210 capacitor: horizontal (pin 1 left) and vertical (pin 1 on top)
@@ -190,8 +190,9 @@ def led_tidy() -> Builder:
     b.trace("GND", 1.0, (53.0, 17.9), (53.0, 16.3))
     b.via("GND", 53.0, 16.3)
     # Kelvin sense: from the resistor's own pads, the pair running together to the controller
-    b.trace("CS+", 0.3, (43.5, 20.9), (43.5, 28.635), (38.7, 28.635))
-    b.trace("LED+", 0.3, (49.3, 20.9), (44.9, 20.9), (44.9, 29.905), (38.7, 29.905))
+    b.trace("CS+", 0.3, (43.5, 20.9), (43.5, 22.2), (44.38, 23.08), (44.38, 28.635), (38.7, 28.635))
+    b.trace("LED+", 0.3, (49.3, 20.9), (44.9, 20.9), (44.9, 29.135), (39.9, 29.135), (39.9, 29.905),
+            (38.7, 29.905))
     # gate drive
     b.trace("GATE", 0.4, (17.7, 16.2), (15.5, 16.2), (15.5, 26.095), (33.3, 26.095))
     # controller supply decoupling and ground
@@ -305,13 +306,16 @@ def sync_buck() -> Builder:
     b.trace("GND", 1.0, (7.0, 13.55), (7.0, 12.0))
     b.via("GND", 7.0, 12.0)
     # switch node: high-side source -> low-side drain -> inductor
-    b.trace("SW", 1.2, (14.6, 14.65), (16.3, 13.35), (19.0, 13.35))
-    b.trace("SW", 2.5, (19.0, 13.35), (19.0, 7.7), (26.0, 7.7))
+    b.trace("SW", 1.0, (14.6, 14.65), (14.6, 13.6))
+    b.trace("SW", 1.5, (14.6, 13.6), (16.3, 13.35), (19.0, 13.35))
+    b.trace("SW", 2.0, (19.0, 13.35), (19.0, 7.7))
+    b.trace("SW", 2.5, (19.0, 7.7), (26.0, 7.7))
     # hot-loop ground: capacitor to low-side source on top, both into the layer-2 plane
-    b.trace("GND", 1.0, (18.3, 18.9), (18.4, 15.25))
-    b.trace("GND", 0.6, (18.3, 18.9), (18.3, 21.0))
+    b.trace("GND", 1.5, (18.3, 18.9), (18.4, 16.0))
+    b.trace("GND", 1.0, (18.4, 16.0), (18.4, 15.25))
+    b.trace("GND", 1.0, (18.3, 18.9), (18.3, 21.0))
     b.via("GND", 18.3, 21.0)
-    b.trace("GND", 0.6, (18.4, 15.25), (16.8, 15.6))
+    b.trace("GND", 1.4, (17.9, 15.45), (16.8, 15.6))     # from inside the source pad
     b.via("GND", 16.8, 15.6)
     # output
     b.trace("VOUT", 2.5, (34.0, 7.7), (38.0, 7.7), (42.0, 7.7), (47.0, 7.7))
