@@ -200,10 +200,16 @@ class _Copper:
         self.islands: dict[int, list[Polygon]] = {}
         self.trees: dict[int, shapely.STRtree] = {}
         self.offset: dict[int, int] = {}
+        self.arrays: dict[int, np.ndarray] = {}
         n = 0
         for layer in board.layers:
             polys = _polygons(layer.geometry)
             self.islands[layer.index] = polys
+            arr = np.array(polys, dtype=object)
+            # a plane island can have 10^5 vertices: prepare it once, so that each point or hole
+            # test against it is an indexed lookup rather than a walk around its boundary
+            shapely.prepare(arr)
+            self.arrays[layer.index] = arr
             self.trees[layer.index] = shapely.STRtree(polys)
             self.offset[layer.index] = n
             n += len(polys)
@@ -212,14 +218,25 @@ class _Copper:
     def node(self, layer: int, k: int) -> int:
         return self.offset[layer] + k
 
+    def hits(self, layer: int, shapes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(shape index, island number) pairs where a shape touches an island of the layer."""
+        arr = self.arrays.get(layer)
+        if arr is None or len(arr) == 0 or len(shapes) == 0:
+            return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+        si, ii = self.trees[layer].query(shapes)            # bounding boxes only
+        if len(si) == 0:
+            return si, ii
+        ok = shapely.intersects(arr[ii], shapes[si])        # prepared islands first
+        return si[ok], ii[ok]
+
     def points_on(self, layer: int, x: np.ndarray, y: np.ndarray) -> np.ndarray:
         """For each point, the island number it lies on (boundary included), or -1."""
         out = np.full(len(x), -1, dtype=np.int64)
         if layer not in self.trees or not self.islands[layer] or len(x) == 0:
             return out
         pts = shapely.points(np.asarray(x, float), np.asarray(y, float))
-        idx = self.trees[layer].query(pts, predicate="intersects")
-        out[idx[0]] = idx[1]
+        si, ii = self.hits(layer, pts)
+        out[si] = ii
         return out
 
 
@@ -270,22 +287,20 @@ def check_connectivity(board: Board) -> ConnectivityResult:
             uf.union(copper.node(la, ka), copper.node(lb, kb))
 
     # plated holes and slots join the islands they pierce on every layer
-    for hole in board.holes:
-        if not hole.plated:
-            continue
-        r = max(hole.diameter_mm / 2, 1e-3)
-        if hole.end is not None:
-            shape = shapely.LineString([(hole.x_mm, hole.y_mm), hole.end]).buffer(r, 8)
-        else:
-            shape = Point(hole.x_mm, hole.y_mm).buffer(r, 8)
-        nodes = []
+    plated = [h for h in board.holes if h.plated]
+    if plated:
+        shapes = np.array([
+            (shapely.LineString([(h.x_mm, h.y_mm), h.end]) if h.end is not None else Point(h.x_mm, h.y_mm))
+            .buffer(max(h.diameter_mm / 2, 1e-3), 8) for h in plated], dtype=object)
+        first_node = np.full(len(plated), -1, dtype=np.int64)
         for lay in copper.layers:
-            if not copper.islands[lay]:
-                continue
-            for k in copper.trees[lay].query(shape, predicate="intersects"):
-                nodes.append(copper.node(lay, int(k)))
-        for a, b in zip(nodes, nodes[1:]):
-            uf.union(a, b)
+            si, ii = copper.hits(lay, shapes)
+            for s_, k in zip(si.tolist(), ii.tolist()):
+                node = copper.node(lay, k)
+                if first_node[s_] < 0:
+                    first_node[s_] = node
+                else:
+                    uf.union(int(first_node[s_]), node)
 
     # groups
     root_to_group: dict[int, int] = {}
@@ -335,7 +350,7 @@ def _island_under_shape(copper: _Copper, lay: int, pad: Pad) -> int | None:
     shape = _pad_shape(pad)
     if shape is None or not copper.islands[lay]:
         return None
-    cand = copper.trees[lay].query(shape, predicate="intersects")
+    _, cand = copper.hits(lay, np.array([shape], dtype=object))
     if len(cand) == 0:
         return None
     best = max(cand, key=lambda k: copper.islands[lay][int(k)].intersection(shape).area)

@@ -12,7 +12,6 @@ Pad layers from IPC-D-356 access codes: 0 (and any point with a drilled hole) ->
 from __future__ import annotations
 
 import dataclasses
-from pathlib import Path
 
 import shapely
 from shapely.geometry import Polygon, box
@@ -94,6 +93,10 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         holes.extend(dataclasses.replace(h, file=name) for h in file_holes)
         kind = {True: "plated", False: "non-plated", None: "plating from the file"}[plated]
         inputs[name] = f"drill ({kind}): {fab.how.get(path, '')}"
+
+    holes, dup = _dedupe_holes(holes)
+    if dup:
+        assumptions.append(f"{dup} holes given in more than one drill file are counted once")
 
     # pads
     if netlist is not None:
@@ -193,6 +196,20 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
         assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
     )
+
+
+def _dedupe_holes(holes: list[Hole]) -> tuple[list[Hole], int]:
+    """Holes that two drill files both give (same place, size, plating, within 1 um) once."""
+    seen: set[tuple] = set()
+    out = []
+    for h in holes:
+        key = (round(h.x_mm, 3), round(h.y_mm, 3), round(h.diameter_mm, 3), h.plated,
+               None if h.end is None else (round(h.end[0], 3), round(h.end[1], 3)))
+        if key in seen:
+            continue
+        seen.add(key)
+        out.append(h)
+    return out, len(holes) - len(out)
 
 
 def _check_netlist_layers(fab: FabSet, netlist, n: int) -> None:

@@ -410,6 +410,10 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
     for f in files:
         if f.rel in decided:
             continue
+        if f.path.suffix.lower() in (".ipc", ".d356") and f.kind != "ipc356":
+            raise InputError("named like an IPC-D-356 netlist but its content is not one (binary or "
+                             "unknown text); replace it, or map it as \"ignore\" in the project file's [files]",
+                             path=fab.error_name(f.path))
         if f.kind == "excellon":
             drills[f.rel] = (f, None, "Excellon content")
         elif f.kind == "ipc356":

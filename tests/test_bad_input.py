@@ -1,0 +1,176 @@
+"""Bad input, end to end: one clear line on stderr, exit code 2, no traceback, nothing written
+beside the inputs (the folder listing is compared before and after)."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import zipfile
+from pathlib import Path
+
+import pytest
+
+from loopcheck.errors import InputError
+from loopcheck.limits import InputLimits
+from loopcheck.load import load_board
+from loopcheck.project import load_project
+from synth_fixtures import write_buck
+
+REPO = Path(__file__).parents[1]
+CORPUS = REPO.parent / "shared" / "corpus"
+
+
+def listing(folder: Path) -> list[tuple[str, int, int]]:
+    out = []
+    for p in sorted(folder.rglob("*")):
+        st = p.stat()
+        out.append((str(p.relative_to(folder)), st.st_size, st.st_mtime_ns))
+    return out
+
+
+def inspect_fails(target: Path, watch: Path, *expected: str) -> str:
+    """Run ``loopcheck inspect`` in a subprocess; assert the bad-input contract; return stderr."""
+    before = listing(watch)
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    res = subprocess.run([sys.executable, "-c", "from loopcheck.cli import main; main()", "inspect", str(target)],
+                         capture_output=True, text=True, env=env, cwd=str(watch), timeout=300)
+    assert res.returncode == 2, (res.returncode, res.stdout, res.stderr)
+    assert "Traceback" not in res.stderr
+    lines = res.stderr.strip("\n").split("\n")
+    assert len(lines) == 1, res.stderr
+    assert lines[0].startswith("loopcheck: ")
+    for text in expected:
+        assert text in lines[0], lines[0]
+    assert res.stdout == ""
+    assert listing(watch) == before
+    return lines[0]
+
+
+@pytest.fixture()
+def board(tmp_path):
+    paths = write_buck(tmp_path / "board")
+    return tmp_path / "board", paths
+
+
+def test_truncated_gerber(board):
+    folder, paths = board
+    top = paths["L1"]
+    text = top.read_text()
+    top.write_text(text[: len(text) // 2])
+    inspect_fails(folder, folder, top.name)
+
+
+def test_binary_garbage_mapped_as_copper(board):
+    folder, paths = board
+    paths["L1"].write_bytes(os.urandom(20000))
+    msg = inspect_fails(folder, folder)
+    assert "copper" in msg
+    (folder / "loopcheck.toml").write_text(f'[files]\n"{paths["L1"].name}" = "copper:1"\n')
+    inspect_fails(folder, folder, paths["L1"].name, "is not a Gerber file")
+
+
+def test_binary_garbage_as_netlist(board):
+    folder, paths = board
+    # garbage that still starts like a netlist: the reader, not the sniffer, must refuse it
+    paths["netlist"].write_bytes(b"P  UNITS CUST 1\n327" + os.urandom(3000) + b"\n999\n")
+    msg = inspect_fails(folder, folder)
+    assert "buck-netlist.ipc" in msg or "netlist" in msg
+
+
+def test_netlist_line_shorter_than_its_record(board):
+    folder, paths = board
+    lines = paths["netlist"].read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("327"))
+    lines[k] = lines[k][:30].rstrip() + "\n"
+    paths["netlist"].write_text("".join(lines))
+    inspect_fails(folder, folder, f"{paths['netlist'].name}:{k + 1}:")
+
+
+def test_empty_zip(tmp_path):
+    z = tmp_path / "empty.zip"
+    zipfile.ZipFile(z, "w").close()
+    inspect_fails(z, tmp_path, "empty.zip", "empty zip archive")
+
+
+def test_zip_member_leaving_the_folder(board, tmp_path):
+    folder, paths = board
+    z = tmp_path / "evil.zip"
+    with zipfile.ZipFile(z, "w") as zf:
+        for p in paths.values():
+            zf.write(p, p.name)
+        zf.writestr("../../escaped.gbr", paths["L1"].read_text())
+    inspect_fails(z, tmp_path, "evil.zip", "leaves the folder")
+    assert not (tmp_path.parent / "escaped.gbr").exists()
+
+
+def test_zip_bomb_ratio_refused(tmp_path):
+    z = tmp_path / "bomb.zip"
+    with zipfile.ZipFile(z, "w", zipfile.ZIP_DEFLATED) as zf:
+        zf.writestr("a.gtl", b"G04 x*\n" + b"\x20" * (20 * 1024 * 1024))
+    inspect_fails(z, tmp_path, "bomb.zip", "compression ratio")
+
+
+def test_zip_larger_than_the_limit_refused(board, tmp_path):
+    folder, paths = board
+    z = tmp_path / "big.zip"
+    with zipfile.ZipFile(z, "w", zipfile.ZIP_DEFLATED) as zf:
+        for p in paths.values():
+            zf.write(p, p.name)
+    size = sum(p.stat().st_size for p in paths.values())
+    with pytest.raises(InputError, match="uncompressed, more than the limit"):
+        load_board(load_project(z), InputLimits(max_zip_uncompressed_bytes=size // 2))
+    # and within the limit it reads
+    b = load_board(load_project(z), InputLimits(max_zip_uncompressed_bytes=size * 2))
+    assert len(b.layers) == 2
+
+
+SR_GERBER = """%FSLAX46Y46*%
+%MOMM*%
+%TF.FileFunction,Copper,L1,Top*%
+%ADD10C,0.1*%
+%SRX{nx}Y{ny}I0.2J0.2*%
+D10*
+X0Y0D03*
+%SR*%
+M02*
+"""
+
+
+def test_step_and_repeat_past_the_limit(board):
+    folder, paths = board
+    paths["L1"].write_text(SR_GERBER.format(nx=3000, ny=3000))      # 9 million flashes
+    inspect_fails(folder, folder, paths["L1"].name)
+    # in process, with a small limit
+    paths["L1"].write_text(SR_GERBER.format(nx=20, ny=20))
+    with pytest.raises(InputError):
+        load_board(load_project(folder), InputLimits(max_step_repeat_objects=100))
+
+
+def test_bad_project_file(board):
+    folder, _ = board
+    (folder / "loopcheck.toml").write_text("[stackup]\ncopper_um = 35\n")
+    inspect_fails(folder, folder, "loopcheck.toml:2:", "stackup.copper_um: expected a list of numbers")
+
+
+def test_netlist_naming_more_layers_than_copper_files(board):
+    folder, paths = board
+    text = paths["netlist"].read_text()
+    lines = text.splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("327"))
+    line = lines[k]
+    # access code columns 39-41 ("A01"): claim layer 6 of a 2-layer board
+    at = line.index("A0", 36)
+    lines[k] = line[:at] + "A06" + line[at + 3:]
+    paths["netlist"].write_text("".join(lines))
+    inspect_fails(folder, folder, "names copper layer 6 but 2 copper files were found", "[files]")
+
+
+def test_syntax_error_file_from_the_corpus(tmp_path):
+    src = CORPUS / "spec-examples" / "test_syntax_error.gbr"
+    if not src.is_file():
+        pytest.skip("../shared/corpus is absent")
+    folder = tmp_path / "b"
+    folder.mkdir()
+    (folder / "x.gtl").write_text(src.read_text())
+    inspect_fails(folder, folder, "x.gtl")

@@ -1,0 +1,186 @@
+"""``loopcheck inspect`` on synthesized boards: the JSON contract, the findings, the exit codes."""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import zipfile
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from loopcheck.cli import main
+from synth_fixtures import buck_board, write_buck
+
+from loopcheck.synth import write_fab
+
+REPO = Path(__file__).parents[1]
+
+
+def run_json(target) -> tuple[int, dict]:
+    res = CliRunner().invoke(main, ["inspect", str(target), "--format", "json"])
+    assert res.exception is None or isinstance(res.exception, SystemExit), res.output
+    return res.exit_code, json.loads(res.stdout)
+
+
+def cli(*args, cwd=None) -> subprocess.CompletedProcess:
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    return subprocess.run([sys.executable, "-c", "from loopcheck.cli import main; main()", *map(str, args)],
+                          capture_output=True, text=True, env=env, cwd=cwd, timeout=300)
+
+
+@pytest.fixture(scope="module")
+def boards(tmp_path_factory):
+    root = tmp_path_factory.mktemp("boards")
+    write_buck(root / "clean")
+    write_buck(root / "cut", "cut")
+    write_buck(root / "bridge", "bridge")
+    write_buck(root / "offset", netlist_offset_mm=(5.0, 5.0))
+    write_buck(root / "inch", netlist_units="inch")
+    write_buck(root / "inch-gerbers", gerber_units="inch")
+    # an inch netlist whose units record says mm: the numbers are 0.0001 inch, read as 0.001 mm
+    paths = write_buck(root / "inch-as-mm", netlist_units="inch")
+    text = paths["netlist"].read_text()
+    assert "UNITS CUST 0" in text
+    paths["netlist"].write_text(text.replace("UNITS CUST 0", "UNITS CUST 1"))
+    write_buck(root / "no-netlist", netlist=False)
+    return root
+
+
+def test_clean_board_json_contract(boards):
+    code, d = run_json(boards / "clean")
+    assert code == 0
+    assert d["schema"] == "loopcheck-inspect/1"
+    assert [layer["name"] for layer in d["layers"]] == ["top", "bottom"]
+    assert [layer["file"] for layer in d["layers"]] == ["buck-copper-L1-top.gbr", "buck-copper-L2-bottom.gbr"]
+    for layer in d["layers"]:
+        assert layer["copper_area_mm2"] > 0 and layer["clipped_area_mm2"] == 0 and layer["thickness_um"] == 35
+    # the bottom pour is 58 x 14 mm
+    assert d["layers"][1]["copper_area_mm2"] == pytest.approx(58 * 14, rel=0.01)
+    assert d["nets"] == 5 and d["components"] == 7
+    assert d["holes"] == {"plated": 5, "non_plated": 0, "slots": 0, "files": ["buck-plated.drl"]}
+    assert d["outline"]["width_mm"] == pytest.approx(60) and d["outline"]["height_mm"] == pytest.approx(35)
+    assert d["connectivity_checked"] is True and d["aligned"] is True
+    assert d["findings"] == []
+    assert any("copper thickness (default)" in a for a in d["assumptions"])
+
+
+def test_cut_trace_gives_exactly_one_open(boards):
+    code, d = run_json(boards / "cut")
+    assert code == 1
+    (f,) = d["findings"]
+    assert f["rule"] == "netlist-open" and f["severity"] == "error"
+    assert f["nets"] == ["OUT"]
+    assert sorted(f["terminals"]) == ["C2.1", "L1.2"]
+    assert "[L1.2]" in f["message"] and "[C2.1]" in f["message"]
+    assert f["layer"] == "top" and "x_mm" in f and "y_mm" in f
+
+
+def test_bridge_gives_exactly_one_short_at_the_bridge(boards):
+    code, d = run_json(boards / "bridge")
+    assert code == 1
+    (f,) = d["findings"]
+    assert f["rule"] == "netlist-short"
+    assert f["nets"] == ["SW", "VIN"]
+    assert {"Q1.1", "Q1.2"} <= set(f["terminals"])
+    # the stray trace runs from Q1.1 to Q1.2 along y = 20.6 (0.3 mm wide)
+    assert 24.0 <= f["x_mm"] <= 30.0 and 20.3 <= f["y_mm"] <= 20.9
+    assert f["layer"] == "top"
+
+
+def test_offset_netlist_names_the_offset(boards):
+    code, d = run_json(boards / "offset")
+    assert code == 1
+    (f,) = d["findings"]
+    assert f["rule"] == "netlist-alignment"
+    assert "offset by (-5.000, -5.000) mm" in f["message"]
+    assert d["aligned"] is False and "offset by (-5.000, -5.000) mm" in d["alignment_hint"]
+
+
+def test_inch_netlist_with_its_units_record_reads_clean(boards):
+    assert run_json(boards / "inch") == (0, run_json(boards / "inch")[1])
+    code, d = run_json(boards / "inch")
+    assert code == 0 and d["findings"] == []
+    code, d = run_json(boards / "inch-gerbers")
+    assert code == 0 and d["findings"] == []
+
+
+def test_inch_netlist_read_as_mm_names_the_scale(boards):
+    code, d = run_json(boards / "inch-as-mm")
+    assert code == 1
+    (f,) = d["findings"]
+    assert f["rule"] == "netlist-alignment"
+    assert "scale by 2.54" in f["message"] and "offset" not in d["alignment_hint"]
+    assert d["aligned"] is False
+
+
+def test_no_netlist_uses_x2_pin_attributes_then_not_checked(boards, tmp_path):
+    code, d = run_json(boards / "no-netlist")
+    assert code == 0 and d["connectivity_checked"] is True and d["netlist"] is None
+    assert any("X2 pin attributes" in a for a in d["assumptions"])
+    assert d["components"] == 7
+    # without %TO.P% attributes there is nothing to check against
+    bare = tmp_path / "bare"
+    bare.mkdir()
+    for p in (boards / "no-netlist").iterdir():
+        text = p.read_text()
+        if p.suffix == ".gbr":
+            text = "".join(line for line in text.splitlines(keepends=True) if not line.startswith("%TO"))
+        (bare / p.name).write_text(text)
+    code, d = run_json(bare)
+    assert code == 0 and d["connectivity_checked"] is False and d["findings"] == []
+    assert any("connectivity not checked" in a for a in d["assumptions"])
+
+
+def test_zip_and_project_file(boards, tmp_path):
+    z = tmp_path / "rev-a.zip"
+    with zipfile.ZipFile(z, "w", zipfile.ZIP_DEFLATED) as zf:
+        for p in sorted((boards / "clean").iterdir()):
+            zf.write(p, f"fab/{p.name}")
+    before = sorted(os.listdir(tmp_path))
+    code, d = run_json(z)
+    assert code == 0 and d["findings"] == [] and d["board"] == "rev-a"
+    assert d["layers"][0]["file"] == "fab/buck-copper-L1-top.gbr"
+    assert sorted(os.listdir(tmp_path)) == before
+    (tmp_path / "loopcheck.toml").write_text(
+        '[board]\nname = "tidy"\nfab = "rev-a.zip"\n[stackup]\ncopper_um = [70, 35]\n')
+    code, d = run_json(tmp_path / "loopcheck.toml")
+    assert code == 0 and d["board"] == "tidy"
+    assert [layer["thickness_um"] for layer in d["layers"]] == [70, 35]
+    assert not any(a.startswith("copper thickness") for a in d["assumptions"])
+    (tmp_path / "loopcheck.toml").write_text('[board]\nfab = "rev-a.zip"\n[stackup]\ncopper_um = [70, 35, 35]\n')
+    res = cli("inspect", tmp_path / "loopcheck.toml")
+    assert res.returncode == 2
+    assert res.stderr.strip().endswith("stackup.copper_um: gives 3 copper thicknesses, the fab outputs have "
+                                       "2 copper layers")
+    assert "loopcheck.toml:4:" in res.stderr
+
+
+def test_four_layer_board(tmp_path):
+    b = buck_board()
+    b.layer_count = 4
+    b.name = "four"
+    write_fab(b, tmp_path / "four")
+    code, d = run_json(tmp_path / "four")
+    assert code == 0 and d["findings"] == []
+    assert [layer["name"] for layer in d["layers"]] == ["top", "inner1", "inner2", "bottom"]
+    assert [layer["thickness_um"] for layer in d["layers"]] == [35, 17.5, 17.5, 35]
+    assert d["stackup"]["dielectric_um"] == [200, 1065, 200]
+
+
+def test_text_format_and_exit_codes_through_a_subprocess(boards):
+    res = cli("inspect", boards / "clean")
+    assert res.returncode == 0, res.stderr
+    assert "copper layers (top to bottom)" in res.stdout and "buck-copper-L1-top.gbr" in res.stdout
+    assert "assumptions" in res.stdout
+    res = cli("inspect", boards / "cut")
+    assert res.returncode == 1
+    assert "netlist-open" in res.stdout and "Traceback" not in res.stderr
+    res = cli("inspect", boards / "nowhere")
+    assert res.returncode == 2
+    assert res.stderr.count("\n") == 1 and "no such file or folder" in res.stderr
+    res = cli("inspect", boards / "clean", "--format", "xml")
+    assert res.returncode == 2 and "Traceback" not in res.stderr
