@@ -308,6 +308,28 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
     """
     if isinstance(ends, Pad):
         ends = [ends]
+    key = None
+    if attract_to is None:
+        # plain routes are asked for by several measurements: trace each once
+        key = ("route", start, tuple(ends), pitch_mm)
+        if key in ctx.cache:
+            hit = ctx.cache[key]
+            if isinstance(hit, RouteError):
+                raise RouteError(str(hit))
+            return hit
+    try:
+        r = _route(ctx, start, ends, attract_to, pitch_mm)
+    except RouteError as exc:
+        if key is not None:
+            ctx.cache[key] = exc
+        raise
+    if key is not None:
+        ctx.cache[key] = r
+    return r
+
+
+def _route(ctx: MeasureContext, start: Pad, ends: list[Pad], attract_to: BaseGeometry | None,
+           pitch_mm: float | None) -> Route:
     net = start.net
     nr = net_raster(ctx, net, pitch_mm)
     src = _terminal_nodes(nr, start)
@@ -341,7 +363,7 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
     return _to_route(nr, path, start, end_pad, attract_to)
 
 
-WIDTH_SEARCH_MM = 1.5   # local width is found exactly up to twice this; wider copper reads at least that
+WIDTH_SEARCH_MM = 1.0   # local width is found exactly up to twice this; wider copper reads at least that
 
 
 def local_width(nr: NetRaster, nodes: np.ndarray) -> np.ndarray:
