@@ -305,6 +305,9 @@ def _validate_spec(spec, nl: _Netlist, path: str | None) -> dict[str, Any]:
             if ref in seen and not (key in shareable and seen[ref] in shareable and nl.parts[ref].kind == "ic"):
                 raise InputError(f"{full}: {ref} is already named as {prefix}.{seen[ref]}", path=path)
             seen.setdefault(ref, key)
+    if "inductor" in roles and len(nl.parts[roles["inductor"]].nets) != 2:
+        raise InputError(f"{prefix}.inductor: {roles['inductor']} has {len(nl.parts[roles['inductor']].nets)} "
+                         "connected nets; an inductor has two", path=path)
     sw = roles.get("switch_node")
     if sw is not None and "inductor" in roles:
         if sw not in nl.parts[roles["inductor"]].nets:
@@ -498,13 +501,14 @@ class _Detector:
                 "C": "D", "COLLECTOR": "D", "K": "K", "CATHODE": "K", "KA": "K", "A": "A", "ANODE": "A",
                 "AN": "A", "CA": "K"}.get(p, p)
 
-    def _element(self, part: Part, sw: str) -> _Element:
-        el = _Element(part, part.kind, part.pads_on(sw))
-        if part.kind == "transistor":
+    def _element(self, part: Part, sw: str, kind: str | None = None) -> _Element:
+        kind = kind or part.kind
+        el = _Element(part, kind, part.pads_on(sw))
+        if kind == "transistor":
             gate, pin_net, ev = self._gate_and_rail(part, sw)
             el.gate_net = gate
             el.evidence += ev
-        elif part.kind == "diode":
+        elif kind == "diode":
             pin_net = next(iter(part.nets - {sw}))
         else:
             pin_net = None
@@ -552,7 +556,14 @@ class _Detector:
         # a named switch or rectifier must be among them
         for key in ("switch", "rectifier"):
             if key in fixed and fixed[key] not in [e.part.ref for e in elements]:
-                elements.append(self._element(nl.parts[fixed[key]], sw))
+                part = nl.parts[fixed[key]]
+                kind = part.kind
+                if kind not in ("transistor", "diode", "ic"):
+                    # a part of unknown kind named as a switch: by its connections
+                    kind = "transistor" if len(part.nets) >= 3 else "diode"
+                    self.messages.append(f"{name}: {part.ref} (named {key}) taken as a {kind} from its "
+                                         f"{len(part.nets)} connected nets")
+                elements.append(self._element(part, sw, kind))
         transistors = [e for e in elements if e.kind == "transistor"]
         diodes = [e for e in elements if e.kind == "diode"]
         ics = [e for e in elements if e.kind == "ic"]
@@ -740,7 +751,6 @@ class _Detector:
                                  + ("output" if topology == "boost" else "input") + " capacitor")
         core = [r.confidence for r in roles if r.name in ("switch", "rectifier", "inductor")]
         stage.confidence = round(min(core + [g_conf if ground else 0.0, topo_conf]) if core else 0.0, 2)
-        self._topo_note = topo_ev
         stage_ev = "; ".join(sw_evidence + ([f"topology {stage.topology}: {topo_ev}"] if topo_ev else []))
         self.messages.append(f"{name}: {stage.topology} ({switching}) at switch node {sw}: {stage_ev}")
         return stage
@@ -1191,7 +1201,10 @@ class _Detector:
                             sw = sorted(common)[0]
             if ind_part is None and sw is not None:
                 inds = nl.on(sw, "inductor")
-                ind_part = inds[0] if inds else None
+                if not inds:
+                    raise InputError(f"stages.{spec.name}.switch_node: net {sw!r} joins no inductor "
+                                     "(name the inductor too)", path=self.path)
+                ind_part = inds[0]
             if sw is None or ind_part is None:
                 self.messages.append(
                     f"[stages.{spec.name}] in loopcheck.toml matches no stage found on the board; name its "
@@ -1256,8 +1269,6 @@ def find_stages(board: Board, project: Project) -> StageSearch:
             if r is not None and r > 0:
                 op.vsense_v = r * op.iout_a
                 op.sources["vsense_v"] = f"{sense.ref} value {values[sense.ref]} x iout_a"
-        if op.vout_v is None and "vout_v" in op.sources:
-            pass
         for m in stage.missing:
             messages.append(f"{stage.name}: missing {m}")
     if not stages:

@@ -576,3 +576,32 @@ def test_corpus_netlist_regulator():
     assert [r.ref for r in st.roles_named("input_cap")] == ["C1"]
     assert st.hot_loop[:2] == ("C1.+", "U1.1") and st.hot_loop[-1] == "C1.-"
     assert "U1.6" not in st.role("controller").terminals          # pin 6 is unconnected
+
+
+def test_project_defines_a_stage_detection_missed():
+    """A switch with a reference prefix of no known kind (X1): no stage is found until the project
+    file names the switch node, the inductor and the switch."""
+    parts = {("X1" if k == "Q1" else k): v for k, v in LED_BUCK.items()}
+    search = find_stages(board_from(parts), project())
+    assert search.stages == [] and any("no power stage found" in m for m in search.messages)
+    spec = StageSpec("led", roles={"switch_node": "SW", "inductor": "L1", "switch": "X1"})
+    search = find_stages(board_from(parts), project(stages=[spec]))
+    st = search.stages[0]
+    assert (st.name, st.topology, st.switching) == ("led", "buck", "discrete")
+    assert st.role("switch").ref == "X1" and st.role("switch").confidence == 1.0
+    assert st.role("rectifier").ref == "D1" and st.role("controller").ref == "U1"
+    assert st.hot_loop == ("C1.1", "X1.2", "X1.3", "D1.1", "D1.2", "C1.2")
+    assert any("X1 (named switch) taken as a transistor" in m for m in search.messages)
+
+
+def test_project_switch_node_without_inductor_is_an_error():
+    with pytest.raises(InputError) as err:
+        find_stages(board_from(LED_BUCK), project(stages=[StageSpec("s", roles={"switch_node": "GATE"})]))
+    assert "stages.s.switch_node" in str(err.value) and "no inductor" in str(err.value)
+
+
+def test_project_spec_matching_nothing_is_reported():
+    search = find_stages(board_from(LED_BUCK), project(stages=[
+        StageSpec("stage1", roles={}), StageSpec("extra", operating_point={"iout_a": 2})]))
+    assert [s.name for s in search.stages] == ["stage1"]
+    assert any("[stages.extra]" in m and "matches no stage" in m for m in search.messages)
