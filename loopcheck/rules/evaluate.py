@@ -210,8 +210,12 @@ def _finding(rule: Rule, m: Measurement, level: str, limit: float) -> Finding:
     value_txt = f"{fmt(float(m.value))} {unit}".rstrip()
     limit_txt = f"{fmt(limit)} {unit}".rstrip()
     stage = f"{m.stage}: " if m.stage else ""
-    msg = f"{stage}{_label(rule, m, m.quantity)}{_where(m)} is {value_txt}, {word} the " \
-          f"{level} limit of {limit_txt}"
+    if level == "note" and limit == 0 and rule.direction == "above":
+        # a rule that notes every value (switch-node capacitance, vias in the loop)
+        msg = f"{stage}{_label(rule, m, m.quantity)}{_where(m)} is {value_txt} (for information)"
+    else:
+        msg = f"{stage}{_label(rule, m, m.quantity)}{_where(m)} is {value_txt}, {word} the " \
+              f"{level} limit of {limit_txt}"
     return Finding(rule=rule.name, severity=level, message=msg, stage=m.stage,
                    value=float(m.value), limit=limit, unit=m.unit, x_mm=m.x_mm, y_mm=m.y_mm,
                    layer=m.layer, nets=tuple(m.nets), terminals=tuple(m.terminals),
