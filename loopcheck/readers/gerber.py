@@ -45,6 +45,7 @@ from gerbonara.utils import Inch
 from ..errors import InputError
 from ..limits import DEFAULT_LIMITS, InputLimits
 from . import aperture_shapes as shp
+from . import fast_union as fu
 from .aperture_shapes import DEFAULT_TOL_MM, aperture_info, unit_factor
 
 EMPTY = Polygon()
@@ -567,6 +568,7 @@ class _Image:
         self.acc: BaseGeometry = EMPTY
         self.net_parts: dict[str, list] = {}
         self.bounds = [math.inf, math.inf, -math.inf, -math.inf]
+        self.cleared = False          # a clear run came after some dark copper
 
     def apply(self, run: _Run, offset=(0.0, 0.0)):
         geoms = run.geoms
@@ -575,19 +577,21 @@ class _Image:
         if offset != (0.0, 0.0):
             arr = np.array(geoms, dtype=object)
             geoms = shapely.transform(arr, lambda c: c + np.asarray(offset)).tolist()
-        merged = shapely.union_all(geoms)
+        merged = fu.union_many(geoms)
         if merged.is_empty:
             return
         b = merged.bounds
         self.bounds = [min(self.bounds[0], b[0]), min(self.bounds[1], b[1]),
                        max(self.bounds[2], b[2]), max(self.bounds[3], b[3])]
         if run.dark:
+            # one binary union: measured faster than re-clustering acc's parts with merged's
             self.acc = merged if self.acc.is_empty else shapely.union(self.acc, merged)
             for g, net in zip(geoms, run.nets):
                 if net is not None:
                     self.net_parts.setdefault(net, []).append(g)
         elif not self.acc.is_empty:
-            self.acc = shapely.difference(self.acc, merged)
+            self.acc = fu.cut(self.acc, merged)
+            self.cleared = True
 
 
 def _build_image(objects: list, sr_blocks: list[_SRBlock], f_sr: float, shapes: _Shapes) -> _Image:
@@ -715,10 +719,14 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
         geometry = shapely.difference(frame, geometry) if not frame.is_empty else EMPTY
 
     net_copper = {}
+    layer_parts = tree = None
+    if image.cleared and not negative and image.net_parts:
+        layer_parts = np.asarray(fu.polygons_of(geometry), dtype=object)
+        tree = shapely.STRtree(layer_parts)
     for net, parts in image.net_parts.items():
-        g = shapely.union_all(parts)
-        if not negative:
-            g = shapely.intersection(g, geometry)   # later clear objects cut it too
+        g = fu.union_many(parts)
+        if tree is not None:
+            g = fu.clip(g, geometry, layer_parts, tree)   # later clear objects cut it too
         net_copper[net] = g
 
     return GerberLayer(
