@@ -10,7 +10,7 @@ from shapely.ops import unary_union
 from loopcheck.board import Pad
 from loopcheck.measure.netcopper import MeasureContext
 from loopcheck.measure.raster import Grid, rasterise
-from loopcheck.measure.routes import RouteError, narrowest_point, route
+from loopcheck.measure.routes import Route, RouteError, narrowest_point, route
 
 from measure_boards import make_board, smd, square_pad, trace
 
@@ -77,3 +77,21 @@ def test_no_copper_path_is_a_route_error():
     b = make_board([t, []], [smd("N", "A", 1, 0, 0), smd("N", "B", 1, 20, 0)])
     with pytest.raises(RouteError, match="no copper of net N joins A.1"):
         route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"])
+
+
+def test_narrowest_point_finds_a_neck_but_not_a_pinch_between_holes():
+    # a 1 mm trace with a 3 mm long 0.3 mm neck: the neck is the narrowest point
+    t = unary_union([trace([(0, 0), (8, 0)], 1.0), trace([(8, 0), (11, 0)], 0.3), trace([(11, 0), (20, 0)], 1.0),
+                     square_pad(0, 0, 1.2), square_pad(20, 0, 1.2)])
+    b = make_board([t, []], [smd("N", "A", 1, 0, 0, 1.2), smd("N", "B", 1, 20, 0, 1.2)])
+    ctx = MeasureContext(b)
+    w, x, y, _ = narrowest_point(ctx, route(ctx, b.terminals["A.1"], b.terminals["B.1"]))
+    assert w == pytest.approx(0.3, rel=0.01) and 8 < x < 11
+    # a plane with two clearance holes 0.2 mm apart on the straight line between the pads:
+    # the current goes round them, so the pinch is not the plane's "narrowest point"
+    plane = box(0, -5, 20, 5).difference(Point(10, 0.5).buffer(0.4)).difference(Point(10, -0.5).buffer(0.4))
+    b = make_board([plane, []], [smd("G", "A", 1, 2, 0), smd("G", "B", 1, 18, 0)])
+    ctx = MeasureContext(b)
+    through = Route("G", "A.1", "B.1", [(2, 0, 0), (18, 0, 0)], [10.0], [], 16.0, 16.0, 0.05)
+    w, *_ = narrowest_point(ctx, through)          # a route straight through the pinch
+    assert w > 1.0

@@ -468,8 +468,10 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
     """(width_mm, x_mm, y_mm, layer) of the narrowest copper the route passes, refined on the
     geometry: at points along each in-layer segment a line across the segment is cut with the net's
     copper, and the piece under the point is the local width (exact for a trace, free of the
-    raster's one-pitch quantisation). The first and last half-pad of the route are skipped (pads
-    are entered, not crossed)."""
+    raster's one-pitch quantisation). The pads at the route's ends are skipped (pads are entered,
+    not crossed), and a neck must hold for one step either side: a point pinch, such as copper
+    between two clearance holes in a plane, is not a conductor the current must squeeze through
+    (it spreads around, and so does the heat)."""
     from shapely.geometry import Point
 
     copper = ctx.net_copper(r.net)
@@ -478,14 +480,22 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
         return r.narrowest()
     total = sum(math.hypot(b[0] - a[0], b[1] - a[1]) for a, b in segs)
     step = max(step_mm, total / max_casts)
-    start_pad = ctx.board.terminals.get(r.start)
-    end_pad = ctx.board.terminals.get(r.end)
     skip = []
-    for p in (start_pad, end_pad):
+    for term in (r.start, r.end):
+        p = ctx.board.terminals.get(term)
         if p is not None:
             skip.append(Point(p.x_mm, p.y_mm).buffer(max(p.width_mm or 0.3, p.height_mm or 0.3) / 2))
-    best = None
     reach = 2 * WIDTH_SEARCH_MM
+    best = None
+
+    def width_at(g, x, y, ux, uy):
+        pt = Point(x, y)
+        cut = LineString([(x - uy * reach, y + ux * reach), (x + uy * reach, y - ux * reach)]).intersection(g)
+        for piece in getattr(cut, "geoms", [cut]):
+            if piece.length > 0 and piece.distance(pt) < 1e-6:
+                return piece.length
+        return None
+
     for a, b in segs:
         g = copper.get(a[2])
         if g is None:
@@ -493,21 +503,26 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
         L = math.hypot(b[0] - a[0], b[1] - a[1])
         ux, uy = (b[0] - a[0]) / L, (b[1] - a[1]) / L
         n = max(int(L / step), 1)
+        samples = []
         for k in range(n):
-            s = (k + 0.5) * L / n
-            x, y = a[0] + ux * s, a[1] + uy * s
-            pt = Point(x, y)
-            if any(sk.contains(pt) for sk in skip):
+            s_ = (k + 0.5) * L / n
+            x, y = a[0] + ux * s_, a[1] + uy * s_
+            if any(sk.contains(Point(x, y)) for sk in skip):
+                samples.append(None)
                 continue
-            cut = LineString([(x - uy * reach, y + ux * reach), (x + uy * reach, y - ux * reach)]).intersection(g)
-            pieces = getattr(cut, "geoms", [cut])
-            w = None
-            for piece in pieces:
-                if piece.length > 0 and piece.distance(pt) < 1e-6:
-                    w = piece.length
-                    break
-            if w is None:
+            w = width_at(g, x, y, ux, uy)
+            samples.append(None if w is None else (w, x, y))
+        for k, smp in enumerate(samples):
+            if smp is None:
                 continue
-            if best is None or w < best[0]:
+            w, x, y = smp
+            if best is not None and w >= best[0]:
+                continue
+            # the neck must hold a step either way (within 1.5 w), where there is a sample
+            held = True
+            for j in (k - 1, k + 1):
+                if 0 <= j < len(samples) and samples[j] is not None and samples[j][0] > 1.5 * w:
+                    held = False
+            if held:
                 best = (w, x, y, a[2])
     return best if best is not None else r.narrowest()
