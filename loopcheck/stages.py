@@ -103,12 +103,18 @@ class Part:
     pads: list[Pad]
     value: str | None = None
 
-    @property
-    def nets(self) -> set[str]:
-        return {p.net for p in self.pads}
+    def __post_init__(self):
+        self._by_net: dict[str, list[Pad]] = {}
+        for p in self.pads:
+            self._by_net.setdefault(p.net, []).append(p)
+        self._nets = frozenset(self._by_net)
 
-    def pads_on(self, net: str) -> list[Pad]:
-        return [p for p in self.pads if p.net == net]
+    @property
+    def nets(self) -> frozenset[str]:
+        return self._nets
+
+    def pads_on(self, net: str | None) -> list[Pad]:
+        return list(self._by_net.get(net, ()))
 
     def terminals_on(self, net: str) -> tuple[str, ...]:
         return tuple(p.terminal for p in self.pads_on(net))
@@ -224,13 +230,20 @@ class _Netlist:
         for parts in self.net_parts.values():
             parts.sort(key=lambda p: p.ref)
 
+        self._on: dict[tuple[str, str | None], list[Part]] = {}
+        self._pad_count = {net: sum(len(p.pads_on(net)) for p in parts) for net, parts in self.net_parts.items()}
+
     def on(self, net: str | None, kind: str | None = None) -> list[Part]:
+        """Parts with a pin on ``net`` (of one kind), sorted by reference."""
         if net is None:
             return []
-        return [p for p in self.net_parts.get(net, []) if kind is None or p.kind == kind]
+        key = (net, kind)
+        if key not in self._on:
+            self._on[key] = [p for p in self.net_parts.get(net, []) if kind is None or p.kind == kind]
+        return list(self._on[key])
 
     def pad_count(self, net: str) -> int:
-        return sum(len(p.pads_on(net)) for p in self.net_parts.get(net, []))
+        return self._pad_count.get(net, 0)
 
     def two_terminal(self, part: Part) -> bool:
         return len(part.nets) == 2
@@ -978,8 +991,10 @@ class _Detector:
         if controller is None:
             return None
         best = None
-        for r in nl.parts.values():
-            if r.kind != "resistor" or len(r.nets) != 2 or r.ref in exclude:
+        # only resistors on the controller's own nets can have both nets reach its pins
+        near = {r.ref: r for net in sorted(controller.nets) for r in nl.on(net, "resistor")}
+        for r in near.values():
+            if len(r.nets) != 2 or r.ref in exclude:
                 continue
             a, b = sorted(r.nets)
             if not (controller.terminals_on(a) and controller.terminals_on(b)):

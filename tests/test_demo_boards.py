@@ -157,3 +157,21 @@ def test_design_intent_distances():
     assert sense_taps(tidy) == [0.0, 0.0]
     taps = sense_taps(sprawl)
     assert len(taps) == 2 and min(taps) > 8.5       # 8.9 mm (CS+) and 10.2 mm (CS-) of 1 mm trace
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_detection_holds_with_meaningless_net_names(name, loaded):
+    """The same roles when every net is renamed N001, N002 ... (names are evidence, never required)."""
+    import dataclasses
+
+    project, board = loaded[name]
+    nets = sorted(board.nets)
+    rename = {n: f"N{i + 1:03d}" for i, n in enumerate(nets)}
+    renamed = dataclasses.replace(board, pads=[dataclasses.replace(p, net=rename[p.net]) for p in board.pads])
+    a = find_stages(board, project).stages
+    b = find_stages(renamed, project).stages
+    assert len(a) == len(b) == 1
+    assert [(r.name, r.ref, r.terminals, r.pins) for r in a[0].roles] == \
+        [(r.name, r.ref, r.terminals, r.pins) for r in b[0].roles]
+    assert a[0].hot_loop == b[0].hot_loop
+    assert (b[0].switch_node, b[0].ground_net) == (rename[a[0].switch_node], rename[a[0].ground_net])
