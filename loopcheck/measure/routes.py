@@ -182,14 +182,22 @@ def choose_pitch(area_mm2: float, min_width_mm: float | None = None) -> float:
     return float(min(p, MAX_PITCH_MM))
 
 
-def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None) -> NetRaster:
-    """The net's copper as a raster graph (cached in the context)."""
-    key = ("raster", net, pitch_mm)
+def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
+               window: tuple[float, float, float, float] | None = None) -> NetRaster:
+    """The net's copper (within ``window`` [mm], if given) as a raster graph (cached in the context)."""
+    key = ("raster", net, pitch_mm, window)
     if key in ctx.cache:
         return ctx.cache[key]
     copper = ctx.net_copper(net)
     if not copper:
         raise RouteError(f"net {net} has no copper on any layer")
+    if window is not None:
+        from shapely.geometry import box as _box
+        clip = _box(*window)
+        copper = {l: g.intersection(clip) for l, g in copper.items()}
+        copper = {l: g for l, g in copper.items() if not g.is_empty and g.area > 0}
+        if not copper:
+            raise RouteError(f"net {net} has no copper near the terminals")
     layers = sorted(copper)
     area = sum(g.area for g in copper.values())
     p = pitch_mm or choose_pitch(area)
@@ -229,6 +237,8 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None) -> 
     tmp = NetRaster(net, grid, layers, masks, edt, index, nodes, np.zeros(0, int), np.zeros(0, int),
                     np.zeros(0), np.zeros(0, bool), np.ones(len(nodes)), z)
     for (x, y, drill, vlayers) in ctx.via_sites(net):
+        if window is not None and not (window[0] <= x <= window[2] and window[1] <= y <= window[3]):
+            continue
         vl = [l for l in vlayers if l in layers]
         ids = [tmp.nearest_node(l, x, y, max(drill / 2, p)) for l in vl]
         pairs = [(l, n) for l, n in zip(vl, ids) if n is not None]
@@ -328,10 +338,48 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
     return r
 
 
+WINDOW_MARGIN_MM = 3.0     # a route is looked for near its terminals first (margin, or a quarter of the span)
+
+
+def _window(ctx: MeasureContext, start: Pad, ends: list[Pad], attract_to: BaseGeometry | None):
+    """A box around the terminals (and the conductor a return follows), or None when it would
+    hold most of the net's copper anyway."""
+    xs = [start.x_mm] + [e.x_mm for e in ends]
+    ys = [start.y_mm] + [e.y_mm for e in ends]
+    if attract_to is not None and not attract_to.is_empty:
+        b = attract_to.bounds
+        xs += [b[0], b[2]]
+        ys += [b[1], b[3]]
+    span = max(max(xs) - min(xs), max(ys) - min(ys))
+    m = max(WINDOW_MARGIN_MM, 0.25 * span)
+    win = (min(xs) - m, min(ys) - m, max(xs) + m, max(ys) + m)
+    copper = ctx.net_copper(start.net)
+    if not copper:
+        return None
+    nb = (min(g.bounds[0] for g in copper.values()), min(g.bounds[1] for g in copper.values()),
+          max(g.bounds[2] for g in copper.values()), max(g.bounds[3] for g in copper.values()))
+    inter = max(0.0, min(win[2], nb[2]) - max(win[0], nb[0])) * max(0.0, min(win[3], nb[3]) - max(win[1], nb[1]))
+    full = (nb[2] - nb[0]) * (nb[3] - nb[1])
+    if full <= 0 or inter > 0.6 * full:
+        return None
+    return tuple(round(v, 3) for v in win)
+
+
 def _route(ctx: MeasureContext, start: Pad, ends: list[Pad], attract_to: BaseGeometry | None,
            pitch_mm: float | None) -> Route:
+    win = _window(ctx, start, ends, attract_to)
+    if win is not None:
+        try:
+            return _route_in(ctx, start, ends, attract_to, pitch_mm, win)
+        except RouteError:
+            pass          # the copper leaves the window: the whole net
+    return _route_in(ctx, start, ends, attract_to, pitch_mm, None)
+
+
+def _route_in(ctx: MeasureContext, start: Pad, ends: list[Pad], attract_to: BaseGeometry | None,
+              pitch_mm: float | None, window) -> Route:
     net = start.net
-    nr = net_raster(ctx, net, pitch_mm)
+    nr = net_raster(ctx, net, pitch_mm, window)
     src = _terminal_nodes(nr, start)
     if not src:
         raise RouteError(f"{start.terminal} lands on no copper of net {net}")
