@@ -201,12 +201,32 @@ def operating_point(project: Project, stage_name: str) -> OperatingPoint:
     return op
 
 
+_OP_LABELS = {
+    "vin_min_v": ("minimum input voltage", "V", 1.0),
+    "vin_max_v": ("maximum input voltage", "V", 1.0),
+    "vout_v": ("output voltage", "V", 1.0),
+    "iout_a": ("output current", "A", 1.0),
+    "fsw_hz": ("switching frequency", "kHz", 1e-3),
+    "edge_s": ("switching edge time", "ns", 1e9),
+    "vsense_v": ("sense voltage", "mV", 1e3),
+    "ambient_c": ("ambient temperature", "C", 1.0),
+    "switch_capacitance_f": ("switch output capacitance", "pF", 1e12),
+    "ripple_ratio": ("inductor ripple ratio", "", 1.0),
+}
+
+
 def operating_point_assumptions(op: OperatingPoint) -> list[str]:
-    """The operating-point values that are defaults, in words, for the reports' assumptions."""
+    """The operating-point values not given in the project file, in words, for the reports'
+    assumptions: defaults, and values derived from part values (the sense voltage)."""
     out = []
     for name, source in op.sources.items():
-        if source == "default":
-            out.append(f"operating point {name} = {getattr(op, name)!r} (default)")
+        if source.startswith("loopcheck.toml"):
+            continue
+        label, unit, scale = _OP_LABELS.get(name, (name, "", 1.0))
+        value = getattr(op, name)
+        shown = "unknown" if value is None else f"{value * scale:g}{' ' + unit if unit else ''}"
+        why = "default" if source == "default" else source
+        out.append(f"operating point: {label} {shown} ({why})")
     return out
 
 
