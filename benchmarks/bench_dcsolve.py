@@ -14,6 +14,7 @@ Each size runs in a fresh process so peak memory (getrusage maxrss) is per case.
 from __future__ import annotations
 
 import json
+import os
 import resource
 import subprocess
 import sys
@@ -40,9 +41,12 @@ def pour_case(pitch_mm: float, solver: str) -> dict:
     ]
     vias = [ViaLink(x, y, 0, 1, 0.0008, radius_mm=0.3)
             for x, y in ((10, 40), (25, 25), (40, 10), (12, 27), (27, 45), (45, 30))]
+    ru0 = resource.getrusage(resource.RUSAGE_SELF)
     t0 = time.perf_counter()
     sol = solve_dc(layers, contacts, vias, pitch_mm=pitch_mm, solver=solver)
     wall = time.perf_counter() - t0
+    ru1 = resource.getrusage(resource.RUSAGE_SELF)
+    cpu = (ru1.ru_utime - ru0.ru_utime) + (ru1.ru_stime - ru0.ru_stime)
     peak = sol.peak_current_density
     return {
         "pitch_mm": pitch_mm,
@@ -56,6 +60,7 @@ def pour_case(pitch_mm: float, solver: str) -> dict:
         "setup_s": round(sol.solver.setup_s, 2),
         "solve_s": round(sol.solver.solve_s, 2),
         "total_s": round(wall, 2),
+        "cpu_s": round(cpu, 2),
         "resistance_mohm": round(1e3 * sol.voltage("in", "out") / 10.0, 5),
         "peak_A_per_m": round(peak[0], 1),
         "peak_rss_MB": round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, 1),
@@ -67,19 +72,21 @@ def main() -> None:
         print(json.dumps(pour_case(float(sys.argv[2]), sys.argv[3])))
         return
     quick = "--quick" in sys.argv
+    print("load average at start (1, 5, 15 min):", " ".join(f"{v:.2f}" for v in os.getloadavg()))
+    print("wall times grow with other load on the machine; cpu s is this process's user+sys time")
     cases = [(0.4, "direct"), (0.4, "amg"), (0.2, "direct"), (0.2, "amg"),
              (0.1, "direct"), (0.1, "amg")]
     if not quick:
         cases += [(0.05, "amg")]
     print(f"{'pitch':>6} {'solver':>7} {'unknowns':>9} {'raster':>7} {'asm':>6} {'setup':>6} "
-          f"{'solve':>6} {'total s':>8} {'it':>4} {'R mohm':>9} {'RSS MB':>8}")
+          f"{'solve':>6} {'total s':>8} {'cpu s':>6} {'it':>4} {'R mohm':>9} {'RSS MB':>8}")
     for pitch, solver in cases:
         out = subprocess.run([sys.executable, __file__, "--one", str(pitch), solver],
                              capture_output=True, text=True, check=True)
         r = json.loads(out.stdout.strip().splitlines()[-1])
         print(f"{pitch:6.2f} {solver:>7} {r['unknowns']:9d} {r['raster_s']:7.2f} "
               f"{r['assemble_s']:6.2f} {r['setup_s']:6.2f} {r['solve_s']:6.2f} {r['total_s']:8.2f} "
-              f"{r['iterations']:4d} {r['resistance_mohm']:9.5f} {r['peak_rss_MB']:8.1f}", flush=True)
+              f"{r['cpu_s']:6.2f} {r['iterations']:4d} {r['resistance_mohm']:9.5f} {r['peak_rss_MB']:8.1f}", flush=True)
     print("targets for 0.05 mm / amg: total < 20 s, peak RSS < 4096 MB")
 
 
