@@ -783,7 +783,13 @@ class _Detector:
             stage.missing.append("hot loop: needs the switch, the rectifier and a "
                                  + ("output" if topology == "boost" else "input") + " capacitor")
         core = [r.confidence for r in roles if r.name in ("switch", "rectifier", "inductor")]
-        stage.confidence = round(min(core + [g_conf if ground else 0.0, topo_conf]) if core else 0.0, 2)
+        conf = min(core + [g_conf if ground else 0.0, topo_conf]) if core else 0.0
+        # usual names raise confidence a little; they are never needed
+        if conf and SWITCH_NODE_NAMES.search(sw):
+            conf += 0.05
+        if conf and ground and GROUND_NAMES.match(ground):
+            conf += 0.05
+        stage.confidence = round(min(conf, 1.0), 2)
         stage_ev = "; ".join(sw_evidence + ([f"topology {stage.topology}: {topo_ev}"] if topo_ev else []))
         self.messages.append(f"{name}: {stage.topology} ({switching}) at switch node {sw}: {stage_ev}")
         return stage

@@ -104,6 +104,20 @@ def test_meaningless_net_names():
     assert roles(st) == {"inductor": "L1", "switch": "Q1", "rectifier": "D1", "controller": "U1",
                          "sense_resistor": "RS1", "controller_decoupling": "C4"}
     assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "C1.2")
+    # the usual names (SW, GND) raised the named board's confidence, and only a little
+    named = find_stages(board_from(LED_BUCK), project()).stages[0]
+    assert named.confidence > st.confidence >= 0.7
+
+
+def test_operating_point_assumptions_in_words():
+    from loopcheck.stages import operating_point_assumptions
+
+    st = find_stages(board_from(LED_BUCK, values={"RS1": "0R1"}),
+                     project(operating_point={"vin_v": [20, 40], "iout_a": 1.5})).stages[0]
+    words = operating_point_assumptions(st.operating_point)
+    assert "operating point: sense voltage 150 mV (RS1 value 0R1 x iout_a)" in words
+    assert "operating point: switching frequency 500 kHz (default)" in words
+    assert not any("input voltage" in w or "output current" in w for w in words)
 
 
 SYNC_BUCK = {
