@@ -330,6 +330,11 @@ def check_connectivity(board: Board) -> ConnectivityResult:
         result.checked = False
         result.not_checked_reason = "no netlist pads (no IPC-D-356 netlist and no X2 pin attributes)"
         return result
+    reason = _why_x2_pads_cannot_be_checked(board)
+    if reason:
+        result.checked = False
+        result.not_checked_reason = reason
+        return result
 
     # alignment
     unlanded = [i for i, g in enumerate(pad_group) if g is None]
@@ -344,6 +349,24 @@ def check_connectivity(board: Board) -> ConnectivityResult:
     result.findings.extend(_opens(board, result))
     result.findings.extend(_shorts(board, result, copper))
     return result
+
+
+def _why_x2_pads_cannot_be_checked(board: Board) -> str | None:
+    """Pads from X2 pin attributes (no netlist) say less than a netlist; two cases say too little."""
+    if board.netlist_file is not None:
+        return None
+    if len(board.layers) > 1 and not board.holes:
+        return ("no netlist and no drill file: the pads come from X2 pin attributes, and without the "
+                "holes nothing says where the layers are joined")
+    places: dict[str, set[tuple[float, float]]] = {}
+    for p in board.pads:
+        if p.ref and not p.is_via:
+            places.setdefault(p.terminal, set()).add((round(p.x_mm, 2), round(p.y_mm, 2)))
+    repeated = sorted(t for t, where in places.items() if len(where) > 1)
+    if repeated:
+        return (f"no netlist, and the X2 pin attributes name {len(repeated)} terminals at more than one "
+                f"place (e.g. {', '.join(repeated[:3])}): a panel of several boards?")
+    return None
 
 
 def _island_under_shape(copper: _Copper, lay: int, pad: Pad) -> int | None:

@@ -13,8 +13,9 @@ from __future__ import annotations
 
 import dataclasses
 
+import numpy as np
 import shapely
-from shapely.geometry import Polygon, box
+from shapely.geometry import MultiPolygon, Polygon, box
 from shapely.geometry.base import BaseGeometry
 
 from .board import Board, CopperLayer, Hole, Outline, Pad
@@ -138,11 +139,11 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         clipped = 0.0
         net_copper = dict(gl.net_copper)
         if clip is not None and not geom.is_empty:
-            inside = geom.intersection(clip)
+            inside = clip_to_outline(geom, clip)
             clipped = max(float(geom.area - inside.area), 0.0)
             if clipped > 1e-6:
                 geom = inside
-                net_copper = {k: v.intersection(clip) for k, v in net_copper.items()}
+                net_copper = {k: clip_to_outline(v, clip) for k, v in net_copper.items()}
             else:
                 clipped = 0.0
         layers.append(CopperLayer(index=index, name=names[index], file=fab.relname(path), geometry=geom,
@@ -175,7 +176,11 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
             try:
                 bom = read_bom(fab.bom, limits)
             except InputError as exc:
-                raise _reraise(fab, exc) from None
+                # the BOM only adds part values; one we cannot read leaves them out, and says so
+                bom = {}
+                assumptions.append(f"the CSV {fab.relname(fab.bom)} was not read as a BOM ({exc.detail}); "
+                                   f"no part values from it")
+                inputs[fab.relname(fab.bom)] = "not used: not a readable BOM / placement list"
             values.update(bom)
             n_bom = len(bom)
     values.update(project.components)
@@ -196,6 +201,39 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
         assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
     )
+
+
+def clip_to_outline(geom: BaseGeometry, outline: BaseGeometry) -> BaseGeometry:
+    """The part of ``geom`` inside ``outline`` [mm].
+
+    Islands wholly inside are kept as they are and islands wholly outside dropped (prepared
+    outline, vectorised); only islands that cross the outline are intersected: a plane with
+    10^5 vertices is then never cut unless it really crosses the board edge.
+    """
+    polys = np.array(_polygon_parts(geom), dtype=object)
+    if len(polys) == 0:
+        return geom
+    shapely.prepare(outline)
+    inside = shapely.contains(outline, polys)
+    touching = shapely.intersects(outline, polys)
+    parts = list(polys[inside])
+    for p in polys[touching & ~inside]:
+        parts.extend(_polygon_parts(p.intersection(outline)))
+    parts = [p for p in parts if p.area > 0]
+    if not parts:
+        return Polygon()
+    return parts[0] if len(parts) == 1 else MultiPolygon(parts)
+
+
+def _polygon_parts(geom: BaseGeometry) -> list[Polygon]:
+    if geom.is_empty:
+        return []
+    if isinstance(geom, Polygon):
+        return [geom]
+    out: list[Polygon] = []
+    for g in getattr(geom, "geoms", []):
+        out.extend(_polygon_parts(g))
+    return out
 
 
 def _dedupe_holes(holes: list[Hole]) -> tuple[list[Hole], int]:

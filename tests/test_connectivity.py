@@ -22,7 +22,7 @@ def make_board(top, bottom=None, pads=(), holes=(), size=(60.0, 40.0)) -> Board:
     layers = [CopperLayer(index=i, name=names[i], file=None, geometry=g, thickness_m=35e-6)
               for i, g in enumerate(geoms)]
     return Board(name="t", layers=layers, outline=Outline(box(0, 0, *size), "test"), stackup=stack,
-                 pads=list(pads), holes=list(holes))
+                 pads=list(pads), holes=list(holes), netlist_file="test.ipc")
 
 
 def trace(points, width=0.5):
@@ -208,3 +208,17 @@ def test_a_few_stray_pads_are_listed_but_measurement_goes_on():
 def test_search_alignment_identity_on_aligned_board():
     a = search_alignment(grid_board())
     assert a.is_identity and a.landed_fraction == 1.0
+
+
+def test_x2_pads_without_drills_or_with_repeated_terminals_are_not_checked():
+    top = shapely.union_all([trace([(5, 10), (15, 10)]), box(4.5, 9.5, 5.5, 10.5)])
+    bottom = shapely.union_all([trace([(15, 10), (25, 10)]), box(24.5, 9.5, 25.5, 10.5)])
+    pads = [pad("A", "R1", "1", 5, 10, (0,)), pad("A", "R2", "1", 25, 10, (1,))]
+    b = make_board(top, bottom, pads=pads)
+    b.netlist_file = None          # pads as if from X2 pin attributes
+    r = check_connectivity(b)
+    assert not r.checked and r.findings == [] and "no drill file" in r.not_checked_reason
+    panel = make_board(top, pads=[pad("A", "R1", "1", 5, 10), pad("A", "R1", "1", 45, 10)])
+    panel.netlist_file = None
+    r = check_connectivity(panel)
+    assert not r.checked and "panel" in r.not_checked_reason

@@ -184,3 +184,62 @@ def test_text_format_and_exit_codes_through_a_subprocess(boards):
     assert res.stderr.count("\n") == 1 and "no such file or folder" in res.stderr
     res = cli("inspect", boards / "clean", "--format", "xml")
     assert res.returncode == 2 and "Traceback" not in res.stderr
+
+
+# --- the corpus: every board folder inspects without an exception ----------------------------
+
+CORPUS = REPO.parent / "shared" / "corpus"
+# folders holding several boards: a project file picks one (the error without it is tested in
+# test_discover.py)
+CORPUS_MAPPINGS = {
+    "diptrace": {"mainboard_Top.gbr": "copper:1", "mainboard_Bottom.gbr": "copper:2",
+                 "mainboard_BoardOutline.gbr": "outline", "mainboard.drl": "drill"},
+    "geda": {"driver.top.gbr": "copper:1", "driver.bottom.gbr": "copper:2",
+             "driver.plated-drill.cnc": "drill:plated", "driver.unplated-drill.cnc": "drill:nonplated"},
+}
+# read in benchmarks/bench_inspect.py instead: 14 layers of 1 MB each take minutes to read here
+CORPUS_HEAVY = {"altium-composite-drill"}
+
+
+def corpus_targets():
+    if not CORPUS.is_dir():
+        return []
+    out = []
+    for d in sorted(CORPUS.iterdir()):
+        if not d.is_dir():
+            continue
+        if d.name == "kicad-x2-tests":
+            out.extend(f"{d.name}/{s.name}" for s in sorted(d.iterdir()) if s.is_dir())
+        else:
+            out.append(d.name)
+    return out
+
+
+@pytest.mark.corpus
+@pytest.mark.parametrize("name", corpus_targets() or ["(corpus absent)"])
+def test_corpus_board_inspects(name, tmp_path):
+    if not CORPUS.is_dir():
+        pytest.skip("../shared/corpus is absent")
+    if name in CORPUS_HEAVY:
+        pytest.skip("read in benchmarks/bench_inspect.py (minutes on this machine)")
+    target = CORPUS / name
+    if name in CORPUS_MAPPINGS:
+        lines = ["[board]", f'fab = "{target}"', "[files]"]
+        lines += [f'"{k}" = "{v}"' for k, v in CORPUS_MAPPINGS[name].items()]
+        (tmp_path / "loopcheck.toml").write_text("\n".join(lines) + "\n")
+        target = tmp_path / "loopcheck.toml"
+    res = CliRunner().invoke(main, ["inspect", str(target), "--format", "json"])
+    if name == "spec-examples":
+        # single-feature files and a netlist of another board: it reads, and says they disagree
+        assert res.exit_code == 1
+        d = json.loads(res.stdout)
+        assert [f["rule"] for f in d["findings"]] == ["netlist-alignment"] and d["aligned"] is False
+        return
+    assert res.exit_code == 0, res.output
+    d = json.loads(res.stdout)
+    assert d["layers"] and all(layer["copper_area_mm2"] > 0 for layer in d["layers"])
+    # gEDA writes no outline layer: the extent of the holes stands in, and the report says so
+    assert d["outline"]["from_extent"] is (name == "geda")
+    if name == "geda":
+        assert any("no outline layer" in a for a in d["assumptions"])
+    assert d["findings"] == []
