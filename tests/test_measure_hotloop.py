@@ -167,3 +167,25 @@ def test_no_hot_loop_is_not_made_with_reason():
     assert all("hot loop was not found" in m.not_made and "input capacitor" in m.not_made for m in ms)
     ms = measure_hot_loop(MeasureContext(b), stage(loop=("C1.1", "X9.1", "D1.2")))
     assert all(m.value is None and "X9.1" in m.not_made for m in ms)
+
+
+def test_circular_loop_vs_the_closed_form():
+    # a ring trace of radius 10 mm, 0.5 mm wide, cut at 0 and 180 degrees into two nets joined by
+    # two small parts: the loop through copper and parts against the circular loop of Grover
+    # (1946) / PHYSICS.md, L = mu0 R [ln(8R/r) - 2], with the strip's equivalent radius
+    from shapely.geometry import Point
+    R, gap = 10.0, 1.0
+    ring = Point(0, 0).buffer(R + W / 2, quad_segs=64).difference(Point(0, 0).buffer(R - W / 2, quad_segs=64))
+    upper = ring.intersection(box(-20, gap / 2, 20, 20))
+    lower = ring.intersection(box(-20, -20, 20, -gap / 2))
+    pads = [smd("N2", "P1", 1, R, -gap / 2 - W / 2, W), smd("N1", "P1", 2, R, gap / 2 + W / 2, W),
+            smd("N1", "P2", 1, -R, gap / 2 + W / 2, W), smd("N2", "P2", 2, -R, -gap / 2 - W / 2, W)]
+    b = make_board([[upper, lower], []], pads)
+    ctx = MeasureContext(b)
+    loop = build_loop(ctx, ("P1.1", "P1.2", "P2.1", "P2.2"))
+    area, _ = enclosed_area(loop.projected())
+    assert area == pytest.approx(math.pi * R ** 2, rel=0.02)
+    L, _, _ = loop_inductance(ctx, loop)
+    r = 0.2235 * (W + OZ1_M * 1e3) * 1e-3
+    ref = MU0 * R * 1e-3 * (math.log(8 * R * 1e-3 / r) - 2)       # 56.6 nH
+    assert L == pytest.approx(ref, rel=0.05)

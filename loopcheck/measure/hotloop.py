@@ -31,7 +31,7 @@ from ..findings import Measurement
 from ..powerstage import Stage
 from .common import measurement, not_made, op_assumptions, point, polygon, polyline, switch_current
 from .netcopper import MeasureContext, dielectric_between, layer_thickness_m, layer_z_mm
-from .routes import DETOUR_MM, Route, RouteError, route
+from .routes import DETOUR_MM, Route, RouteError, route, segment_widths
 
 PLANE_COVERAGE = 0.9      # share of a segment's footprint the adjacent copper must cover to count as a plane
 PLANE_LEG_WIDTH_MM = 2.5  # a leg whose copper is everywhere narrower than this is a trace, not a plane
@@ -146,7 +146,7 @@ def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
         if kind == "net":
             r = final[k]
             pts = list(r.points)
-            ws = list(r.widths_mm)
+            ws = segment_widths(ctx, r)
             ks = [kind_of(p, q) for p, q in zip(pts[:-1], pts[1:])]
             if points and points[-1] == pts[0]:
                 pts = pts[1:]

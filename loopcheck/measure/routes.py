@@ -511,6 +511,39 @@ def _to_route(nr: NetRaster, path: np.ndarray, start: Pad, end: Pad,
     return route
 
 
+CAST_REACH_MM = 10.0
+
+
+def cast_width(copper: BaseGeometry, x: float, y: float, ux: float, uy: float,
+               reach_mm: float = CAST_REACH_MM) -> float | None:
+    """Copper width [mm] across the direction (ux, uy) at (x, y): the piece of a line across it,
+    cut with the copper, that holds the point (at most 2 ``reach_mm``); None off copper."""
+    from shapely.geometry import Point
+
+    pt = Point(x, y)
+    cut = LineString([(x - uy * reach_mm, y + ux * reach_mm), (x + uy * reach_mm, y - ux * reach_mm)]).intersection(copper)
+    for piece in getattr(cut, "geoms", [cut]):
+        if piece.length > 0 and piece.distance(pt) < 1e-6:
+            return float(piece.length)
+    return None
+
+
+def segment_widths(ctx: MeasureContext, r: Route) -> list[float]:
+    """Per-segment copper width [mm] measured on the geometry at each in-layer segment's midpoint
+    (the raster width where the cut misses the copper, and for via crossings)."""
+    copper = ctx.net_copper(r.net)
+    out = []
+    for w, a, b in zip(r.widths_mm, r.points[:-1], r.points[1:]):
+        L = math.hypot(b[0] - a[0], b[1] - a[1])
+        g = copper.get(a[2])
+        if a[2] != b[2] or L == 0 or g is None:
+            out.append(w)
+            continue
+        c = cast_width(g, (a[0] + b[0]) / 2, (a[1] + b[1]) / 2, (b[0] - a[0]) / L, (b[1] - a[1]) / L)
+        out.append(c if c is not None else w)
+    return out
+
+
 def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
                     max_casts: int = 400) -> tuple[float, float, float, int]:
     """(width_mm, x_mm, y_mm, layer) of the narrowest copper the route passes, refined on the
@@ -533,16 +566,10 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
         p = ctx.board.terminals.get(term)
         if p is not None:
             skip.append(Point(p.x_mm, p.y_mm).buffer(max(p.width_mm or 0.3, p.height_mm or 0.3) / 2))
-    reach = 2 * WIDTH_SEARCH_MM
     best = None
 
     def width_at(g, x, y, ux, uy):
-        pt = Point(x, y)
-        cut = LineString([(x - uy * reach, y + ux * reach), (x + uy * reach, y - ux * reach)]).intersection(g)
-        for piece in getattr(cut, "geoms", [cut]):
-            if piece.length > 0 and piece.distance(pt) < 1e-6:
-                return piece.length
-        return None
+        return cast_width(g, x, y, ux, uy)
 
     for a, b in segs:
         g = copper.get(a[2])
