@@ -1301,6 +1301,8 @@ def find_stages(board: Board, project: Project) -> StageSearch:
         return StageSearch([], ["no netlist: power stages cannot be found without one"])
     stages = det.run()
     messages = notes + det.messages
+    if not board.netlist_file:
+        messages.insert(0, "no netlist file: pads and nets taken from the Gerber X2 pad attributes")
     for stage in stages:
         stage.operating_point = operating_point(project, stage.name)
         op = stage.operating_point

@@ -74,7 +74,7 @@ def _op_text(op: OperatingPoint) -> str:
 
 
 def render_text(board_name: str, search: StageSearch) -> str:
-    lines = [f"{board_name}: {len(search.stages)} power stage(s) found from the netlist"]
+    lines = [f"{board_name}: {len(search.stages)} power stage(s) found"]
     for st in search.stages:
         lines.append("")
         lines.append(f"stage {st.name}: {st.topology}, {st.switching} switching (confidence {st.confidence:.2f})")
