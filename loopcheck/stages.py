@@ -603,7 +603,8 @@ class _Detector:
         if fixed.get("switch") and nl.parts[fixed["switch"]].kind == "ic":
             transistors = [e for e in transistors if e.part.ref == fixed.get("rectifier")]
         if transistors:
-            switching = "synchronous" if len(transistors) >= 2 and not diodes else "discrete"
+            # two transistors switch synchronously, also with a Schottky across the low side
+            switching = "synchronous" if len(transistors) >= 2 else "discrete"
         elif ics:
             switching = "integrated"
 
@@ -630,11 +631,14 @@ class _Detector:
             if topology is None:
                 if ground == x_rail:
                     topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
-                elif on_ground and on_ground[0].kind == "diode":
-                    topology, topo_ev = "buck", f"diode {on_ground[0].part.ref} from the switch node to ground"
-                elif on_ground and off_ground and off_ground[0].kind == "diode":
-                    topology, topo_ev = "boost", (f"transistor {on_ground[0].part.ref} to ground and diode "
-                                                  f"{off_ground[0].part.ref} to the output")
+                elif any(e.kind == "diode" for e in on_ground) and any(e.kind == "transistor" for e in off_ground):
+                    d = next(e for e in on_ground if e.kind == "diode")
+                    topology, topo_ev = "buck", f"diode {d.part.ref} from the switch node to ground"
+                elif any(e.kind == "transistor" for e in on_ground) and any(e.kind == "diode" for e in off_ground):
+                    t = next(e for e in on_ground if e.kind == "transistor")
+                    d = next(e for e in off_ground if e.kind == "diode")
+                    topology, topo_ev = "boost", (f"transistor {t.part.ref} to ground and diode "
+                                                  f"{d.part.ref} to the output")
                 else:
                     topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw)
             if topology == "buck":
@@ -1298,7 +1302,8 @@ def find_stages(board: Board, project: Project) -> StageSearch:
     values, notes = component_values(board, project)
     det = _Detector(board, project, values)
     if not board.pads:
-        return StageSearch([], ["no netlist: power stages cannot be found without one"])
+        return StageSearch([], ["no pads (no netlist and no Gerber X2 pad attributes): power stages cannot be "
+                                "found without them"])
     stages = det.run()
     messages = notes + det.messages
     if not board.netlist_file:

@@ -619,3 +619,18 @@ def test_project_spec_matching_nothing_is_reported():
         StageSpec("stage1", roles={}), StageSpec("extra", operating_point={"iout_a": 2})]))
     assert [s.name for s in search.stages] == ["stage1"]
     assert any("[stages.extra]" in m and "matches no stage" in m for m in search.messages)
+
+
+def test_synchronous_buck_with_a_schottky_across_the_low_side():
+    parts = dict(SYNC_BUCK)
+    parts["D5"] = [(1, "PH", 13, 6), (2, "0V", 13, 3)]
+    st = find_stages(board_from(parts), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck", "synchronous")
+    assert st.role("switch").ref == "M1" and st.role("rectifier").ref == "M2"
+    assert st.hot_loop == ("C1.1", "M1.3", "M1.2", "M2.3", "M2.2", "C1.2")
+
+
+def test_no_pads_at_all():
+    board = board_from({})
+    search = find_stages(board, project())
+    assert search.stages == [] and "no pads" in search.messages[0]
