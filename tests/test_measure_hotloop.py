@@ -189,3 +189,18 @@ def test_circular_loop_vs_the_closed_form():
     r = 0.2235 * (W + OZ1_M * 1e3) * 1e-3
     ref = MU0 * R * 1e-3 * (math.log(8 * R * 1e-3 / r) - 2)       # 56.6 nH
     assert L == pytest.approx(ref, rel=0.05)
+
+
+def test_switches_inside_the_controller_loop():
+    # cap + -> the IC's VIN pin, through the IC to its GND pin, back to cap -: a 6 x 4 mm loop
+    vin = unary_union([trace([(0, 4), (6, 4)], W), square_pad(0, 4, W), square_pad(6, 4, W)])
+    gnd = unary_union([trace([(6, 0), (0, 0)], W), square_pad(6, 0, W), square_pad(0, 0, W)])
+    pads = [smd("VIN", "C1", 1, 0, 4, W), smd("GND", "C1", 2, 0, 0, W),
+            smd("VIN", "U1", 1, 6, 4, W), smd("GND", "U1", 2, 6, 0, W)]
+    b = make_board([[vin, gnd], []], pads)
+    st = Stage("s1", "buck", "integrated", "SW", "VIN", "OUT", "GND", hot_loop=("C1.1", "U1.1", "U1.2", "C1.2"))
+    ms = {m.quantity: m for m in measure_hot_loop(MeasureContext(b), st)}
+    assert ms["hot_loop.area"].value == pytest.approx(24.0, rel=0.02)
+    ref = grover_rectangle_h(6e-3, 4e-3, 0.2235 * (W * 1e-3 + OZ1_M))
+    assert ms["hot_loop.inductance"].value * 1e-9 == pytest.approx(ref, rel=0.10)
+    assert any("through a part" in a for a in ms["hot_loop.inductance"].assumptions)

@@ -234,6 +234,8 @@ def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
         out.append(not_made("copper_loss", stage, "the output voltage is not known: give vout_v in [operating_point]"))
     elif len(loss_missing) == 4:
         out.append(not_made("copper_loss", stage, "no high-current path could be measured"))
+    elif abs(op.vout_v) * op.iout_a <= 0:
+        out.append(not_made("copper_loss", stage, "the output power is zero at this operating point"))
     else:
         p_out = abs(op.vout_v) * op.iout_a
         notes = [f"output power {p_out:.2f} W = vout x iout"] + op_assumptions(op, ("vout_v", "iout_a", "ambient_c"))
