@@ -1017,7 +1017,7 @@ class _Detector:
         nl = self.nl
         if "sense_resistor" in fixed:
             r = nl.parts[fixed["sense_resistor"]]
-            return self._sense_role(r, controller, 1.0, ["named in loopcheck.toml"])
+            return self._sense_role(r, controller, 1.0, ["named in loopcheck.toml"], stage)
         if controller is None:
             return None
         best = None
@@ -1051,13 +1051,25 @@ class _Detector:
                 best = cand
         if best is None or best[0] < 0.5:
             return None
-        return self._sense_role(best[1], controller, round(best[0], 2), best[2])
+        return self._sense_role(best[1], controller, round(best[0], 2), best[2], stage)
 
-    def _sense_role(self, r: Part, controller: Part | None, conf: float, ev: list[str]) -> Role:
+    def _sense_role(self, r: Part, controller: Part | None, conf: float, ev: list[str],
+                    stage: Stage | None = None) -> Role:
         a, b = sorted(r.nets)
-        # order: the terminal nearer the inductor / switch first (the higher potential in a buck)
+        # order: the end the current enters first (sense+): the input rail before anything, the
+        # inductor side before the output, anything before ground
         ind = [p for p in self.nl.parts.values() if p.kind == "inductor"]
-        if any(b in i.nets for i in ind) and not any(a in i.nets for i in ind):
+
+        def rank(net):
+            if stage is not None and net == stage.input_net:
+                return 0
+            if stage is not None and net == stage.ground_net:
+                return 3
+            if any(net in i.nets for i in ind):
+                return 1
+            return 2
+
+        if rank(b) < rank(a):
             a, b = b, a
         pins = {"sense+": (), "sense-": ()}
         if controller is not None:

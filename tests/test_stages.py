@@ -502,6 +502,8 @@ def test_high_side_sense_resistor_and_input_filter():
     assert (st.switch_node, st.input_net, st.output_net) == ("SW", "VIN", "LED+")
     assert st.role("inductor").ref == "L1"
     assert st.role("sense_resistor").ref == "RS1"
+    assert st.role("sense_resistor").terminals == ("RS1.1", "RS1.2")       # VIN side first
+    assert st.role("sense_resistor").pins == {"sense+": ("U1.1",), "sense-": ("U1.3",)}
     assert st.hot_loop == ("C1.1", "RS1.1", "RS1.2", "Q1.2", "Q1.3", "D1.1", "D1.2", "C1.2")
 
 
