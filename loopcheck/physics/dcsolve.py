@@ -85,7 +85,7 @@ DEFAULT_MAX_CELLS = 4_000_000
 #: explicit pitches giving more cells than this are refused [-]
 HARD_MAX_CELLS = 10_000_000
 #: unknowns up to which the direct solver is used [-]
-DIRECT_SOLVER_LIMIT = 30_000
+DIRECT_SOLVER_LIMIT = 20_000
 
 
 @dataclass

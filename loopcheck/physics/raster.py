@@ -277,7 +277,7 @@ def _topology(parts) -> tuple[np.ndarray, np.ndarray]:
     return n_parts, holes
 
 
-def narrowest_width_mm(geometry: BaseGeometry, iterations: int = 14) -> float:
+def narrowest_width_mm(geometry: BaseGeometry, iterations: int = 10) -> float:
     """Width of the narrowest current-carrying neck of a polygonal geometry [mm].
 
     Found by erosion: the smallest inward offset d at which any part splits, vanishes or loses
