@@ -127,8 +127,9 @@ def analyse(board: Board, project: Any) -> Analysis:
     t1 = time.perf_counter()
     analysis = Analysis(board=board, integrity=list(conn.findings), connectivity_checked=conn.checked)
     analysis.timings_s["connectivity"] = t1 - t0
-    analysis.assumptions += list(board.assumptions)
-    if board.stackup.source == "default":
+    # the board's own assumptions (stackup defaults, resistivity, part values) stay in
+    # board.assumptions, which the reports list beside these
+    if board.stackup.source == "default" and not any("default" in a for a in board.assumptions):
         analysis.assumptions.append(
             "stackup: defaults (" + ", ".join(f"{t * 1e6:.0f} um" for t in board.stackup.copper_thickness_m) +
             " copper; " + ", ".join(f"{d.thickness_m * 1e3:.3f} mm eps_r {d.eps_r:g}" for d in board.stackup.dielectrics)

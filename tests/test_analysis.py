@@ -53,7 +53,8 @@ def test_tidy_layout_figures(tidy):
     assert ms["input_cap.path_length"].refs == ("C1",)
     assert ms["sense.kelvin_error"].value < 0.5
     assert 1.0 < ms["hot_loop.inductance"].value < 20.0
-    assert any("stackup" in a or "default" in a for a in tidy.assumptions)
+    assert any("default" in a for a in tidy.board.assumptions + tidy.assumptions)
+    assert any("routes:" in a for a in tidy.assumptions)
 
 
 def test_shared_sense_copper_shows_kelvin_error(shared):

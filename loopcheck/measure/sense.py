@@ -217,8 +217,9 @@ def _clearance(ctx: MeasureContext, stage: Stage, routes: list[Route], role) -> 
     ctrl = stage.role("controller")
     power = {stage.input_net, stage.output_net, stage.ground_net, sw}
     if ctrl is not None:
+        fb_pins = {t for key, ts in ctrl.pins.items() if key in ("fb", "feedback") for t in ts}
         fb_nets = sorted({p.net for p in ctx.board.components.get(ctrl.ref, [])
-                          if p.net not in power and FEEDBACK_NAMES.search(p.net)})
+                          if p.net not in power and (FEEDBACK_NAMES.search(p.net) or p.terminal in fb_pins)})
         if role is not None:
             fb_nets = [n for n in fb_nets if n not in {p.net for p in ctx.board.components.get(role.ref, [])}]
         for n in fb_nets:
