@@ -343,6 +343,12 @@ def test_bad_bom(tmp_path, text):
     assert "b.csv" in str(err.value)
 
 
+def test_bom_ranges_and_tabs(tmp_path):
+    p = tmp_path / "bom.txt"
+    p.write_text("Qty\tReference\tValue\n4\tC1-C4\t100nF\n1\tR7\t10k\n")
+    assert read_bom(p) == {"C1": "100nF", "C2": "100nF", "C3": "100nF", "C4": "100nF", "R7": "10k"}
+
+
 def test_placement_csv_headers(tmp_path):
     p = tmp_path / "pos.csv"
     p.write_text("# placement\nRefDes,Val,PosX,PosY,Rot\nU1,CTRL,1,2,0\nL1,22uH,3,4,90\n")

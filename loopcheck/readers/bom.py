@@ -3,7 +3,7 @@
 Accepted header spellings (case and spaces ignored): reference ``Ref``, ``Reference``,
 ``Designator``, ``RefDes``, ``Ref Des``, ``Part``; value ``Value``, ``Val``, ``Comment``.
 Delimiter comma, semicolon or tab (sniffed). A BOM row may group references
-("C1, C2, C5" or "C1 C2"); each gets the row's value.
+("C1, C2, C5", "C1 C2" or a range "C1-C4"); each gets the row's value.
 """
 
 from __future__ import annotations
@@ -23,6 +23,16 @@ VALUE_HEADERS = {"value", "val", "comment", "values"}
 
 def _norm(header: str) -> str:
     return re.sub(r"[\s_\-.]+", " ", header.strip().lower()).strip().replace("ref des", "refdes")
+
+
+def _expand(ref: str) -> list[str]:
+    """``C1-C4`` -> C1, C2, C3, C4 (a range written in one cell); anything else as it is."""
+    if not ref:
+        return []
+    m = re.fullmatch(r"([A-Za-z]+)(\d+)-\1?(\d+)", ref)
+    if m and int(m.group(2)) < int(m.group(3)) <= int(m.group(2)) + 1000:
+        return [f"{m.group(1)}{i}" for i in range(int(m.group(2)), int(m.group(3)) + 1)]
+    return [ref]
 
 
 def read_bom(path: str | Path, limits: InputLimits = DEFAULT_LIMITS) -> dict[str, str]:
@@ -67,7 +77,9 @@ def read_bom(path: str | Path, limits: InputLimits = DEFAULT_LIMITS) -> dict[str
             continue
         if len(row) <= max(ref_col, val_col):
             raise InputError(f"row has {len(row)} columns, the header {len(header)}", path=str(path), line=n)
-        refs = [r for r in re.split(r"[\s,;]+", row[ref_col].strip()) if r]
+        refs = []
+        for r in re.split(r"[\s,;]+", row[ref_col].strip()):
+            refs += _expand(r)
         value = row[val_col].strip()
         for ref in refs:
             if not re.fullmatch(r"[A-Za-z][A-Za-z0-9_+\-]*", ref):
