@@ -23,7 +23,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from shapely.geometry import LineString, Polygon
+from shapely.geometry import LineString, Polygon, box
 from shapely.ops import polygonize, unary_union
 
 from ..board import Pad
@@ -235,7 +235,11 @@ def _plane_images(ctx: MeasureContext, loop: LoopPath, z_mm: list[float]) -> lis
             h_m, _ = dielectric_between(board, k, m)
             foot = seg.buffer(loop.widths_mm[i] / 2 + h_m * 1e3, cap_style="flat")
             if m not in plane_cache:
-                g = board.layers[m].geometry
+                # only the copper near the loop matters: clip first (layers can be large)
+                xs = [q[0] for q in loop.points]
+                ys = [q[1] for q in loop.points]
+                near = box(min(xs) - 10, min(ys) - 10, max(xs) + 10, max(ys) + 10)
+                g = board.layers[m].geometry.intersection(near)
                 if m in own:
                     g = g.difference(own[m].buffer(2 * h_m * 1e3))
                 plane_cache[m] = g

@@ -15,6 +15,9 @@ Method (the same for DC and for the switching loop, with one addition for the lo
   carries it out (the path of least inductance). ``attract_to`` adds a cost that grows with the
   distance from the other legs of the loop (projected on the board), so a return leg in a plane
   runs under them; where a slot or gap in the plane forces it away, the route records the detour.
+* A route is first looked for in a window around its terminals (a quarter of their span, at
+  least 3 mm, beyond them): a finer raster and a faster search; when the copper leaves the window
+  the whole net is searched.
 * The path is simplified (Douglas-Peucker, tolerance half the local distance to the copper's edge,
   at most 0.3 mm, so the simplified line stays in copper) into segments; each segment's width is the narrowest
   local copper width on it (twice the distance transform at the path).

@@ -8,6 +8,7 @@ dielectric from the stackup; fringing at the edges is neglected, so this is a lo
 
 from __future__ import annotations
 
+from shapely.geometry import box
 from shapely.ops import unary_union
 
 from ..findings import Measurement
@@ -52,7 +53,7 @@ def measure_switch_node(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
         for m in (k - 1, k + 1):
             if not 0 <= m < len(board.layers):
                 continue
-            other = board.layers[m].geometry
+            other = board.layers[m].geometry.intersection(box(*g.bounds).buffer(0.1))
             own = cu.get(m)
             if own is not None:
                 other = other.difference(own)
