@@ -642,3 +642,18 @@ def test_no_pads_at_all():
     board = board_from({})
     search = find_stages(board, project())
     assert search.stages == [] and "no pads" in search.messages[0]
+
+
+def test_cli_board_without_a_power_stage(tmp_path):
+    """A small synthesized board with a resistor divider only: no stage, a clear note, exit 0."""
+    from loopcheck.synth import SynthBoard, SynthComponent, SynthPad, SynthTrace, write_fab
+
+    board = SynthBoard("divider", 20, 10, 2, components=[
+        SynthComponent("R1", "10k", [SynthPad("1", "IN", 4, 5, 1, 1), SynthPad("2", "MID", 8, 5, 1, 1)]),
+        SynthComponent("R2", "10k", [SynthPad("1", "MID", 12, 5, 1, 1), SynthPad("2", "GND", 16, 5, 1, 1)]),
+    ], traces=[SynthTrace("MID", 1, 0.3, [(8, 5), (12, 5)])])
+    write_fab(board, tmp_path / "divider")
+    r = run_cli("stages", tmp_path / "divider")
+    assert r.exit_code == 0, r.output
+    assert "0 power stage(s) found" in r.output
+    assert "no power stage found: no inductor" in r.output
