@@ -923,12 +923,16 @@ class _Detector:
             cathode_on_sw = stage.topology in ("buck", "buck-boost")
             k_net, a_net = (sw, other) if cathode_on_sw else (other, sw)
             pins = {"cathode": part.terminals_on(k_net), "anode": part.terminals_on(a_net)}
-            named = {self._pin_name(p.pin): p for p in part.pads}
-            if "K" in named or "A" in named:
-                want_k = named.get("K")
-                if want_k is not None and want_k.net != k_net:
+            diode_names = {"K": "K", "C": "K", "CATHODE": "K", "KA": "K", "CA": "K",
+                           "A": "A", "AN": "A", "ANODE": "A"}
+            named = {diode_names[p.pin.upper()]: p for p in part.pads if p.pin.upper() in diode_names}
+            if named:
+                wrong = [p for key, p in named.items() if p.net != (k_net if key == "K" else a_net)]
+                if wrong:
+                    p = wrong[0]
+                    what = "cathode" if diode_names[p.pin.upper()] == "K" else "anode"
                     self.messages.append(
-                        f"{stage.name}: diode {part.ref} pin {want_k.pin} is named cathode but the {stage.topology} "
+                        f"{stage.name}: diode {part.ref} pin {p.pin} is named {what} but the {stage.topology} "
                         f"topology puts the cathode on {k_net}: check the part's orientation")
                     conf = 0.6
                 else:

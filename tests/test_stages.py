@@ -490,6 +490,17 @@ def test_pin_names_and_a_reversed_diode():
     assert any("D1" in m and "orientation" in m for m in search.messages)
 
 
+def test_diode_pins_named_a_and_c():
+    parts = dict(LED_BUCK)
+    parts["D1"] = [("C", "SW", 17, 17), ("A", "GND", 13, 17)]
+    search = find_stages(board_from(parts), project())
+    d = search.stages[0].role("rectifier")
+    assert d.pins == {"cathode": ("D1.C",), "anode": ("D1.A",)} and "pin names agree" in d.evidence
+    parts["D1"] = [("A", "SW", 17, 17), ("C", "GND", 13, 17)]
+    search = find_stages(board_from(parts), project())
+    assert any("D1 pin" in m and "orientation" in m for m in search.messages)
+
+
 def test_high_side_sense_resistor_and_input_filter():
     """Buck with the sense resistor between VIN and the switch source, and an input filter inductor."""
     parts = dict(LED_BUCK)
