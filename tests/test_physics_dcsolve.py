@@ -333,3 +333,25 @@ def test_unconnected_terminals_are_reported():
     with pytest.raises(ValueError, match="not connected"):
         two_terminal_resistance([SheetLayer(copper, 1.0)], Contact("a", 0, shapely.box(0, 0, 1, 1)),
                                 Contact("b", 0, shapely.box(0, 3, 1, 4)), pitch_mm=0.1)
+
+
+@pytest.mark.parametrize("gap_fraction", [0.3, 0.6])
+def test_rectangle_with_two_electrodes_on_one_edge(gap_fraction):
+    # exact (conformal mapping, derived by two Schwarz-Christoffel maps): w = sn(z | m) maps the
+    # rectangle [-K, K] x [0, K'] onto the upper half-plane (NIST DLMF 22.18(ii)); electrodes on
+    # the bottom edge over |x| >= x0 land on s <= |w| <= 1 with s = sn(x0 | m), and mapping back
+    # with modulus s gives R = Rs * 2 K(s^2) / K(1 - s^2). Evaluated with scipy.special.
+    from scipy.special import ellipj, ellipk
+
+    m = 0.5
+    k_full, k_prime = ellipk(m), ellipk(1 - m)
+    s = ellipj(gap_fraction * k_full, m)[0]
+    expected = 2 * ellipk(s * s) / ellipk(1 - s * s)
+    scale = 10.0 / (2 * k_full)  # a 10 mm wide rectangle
+    half, height, x0 = k_full * scale, k_prime * scale, gap_fraction * k_full * scale
+    # electrodes are equipotential tabs below the edge, so the sheet itself is the rectangle
+    tab_a, tab_b = shapely.box(-half, -0.5, -x0, 0), shapely.box(x0, -0.5, half, 0)
+    copper = shapely.union_all([shapely.box(-half, 0, half, height), tab_a, tab_b])
+    r = two_terminal_resistance([SheetLayer(copper, 1.0)], Contact("a", 0, tab_a),
+                                Contact("b", 0, tab_b))
+    assert rel(r, expected) < 0.005

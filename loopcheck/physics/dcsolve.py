@@ -425,7 +425,7 @@ def choose_pitch_mm(
     contacts: Sequence[Contact] = (),
     links: Sequence[LumpedLink] = (),
     cells_across: float = 6.0,
-    min_cells_along: int = 64,
+    min_cells_along: int = 100,
     max_cells: int = DEFAULT_MAX_CELLS,
 ) -> tuple[float, bool]:
     """Automatic raster pitch [mm] and whether the cell cap coarsened it.
