@@ -131,3 +131,16 @@ def test_switch_node_area_and_capacitance_over_a_plane():
     c = ms["switch_node.capacitance"]
     assert c.value == pytest.approx(EPS0 * 4.5 * 100e-6 / 1.5e-3 * 1e12, rel=0.01)
     assert c.value == pytest.approx(2.656, rel=1e-3)
+
+
+def test_rms_currents_of_a_boost_and_its_switch_current():
+    from loopcheck.measure.common import switch_current
+    st = Stage("s1", "boost", "discrete", "SW", "VIN", "OUT", "GND",
+               operating_point=OperatingPoint(vin_min_v=12, vin_max_v=12, vout_v=24, iout_a=1.0, ripple_ratio=0.0))
+    cur, _ = rms_currents(st)
+    d = 1 - 12 / 24                           # D = 1 - Vin/Vout
+    il = 1.0 / (1 - d)                        # inductor (input) current 2 A
+    assert cur["input"] == pytest.approx(il)
+    assert cur["output"] == pytest.approx(il * math.sqrt(1 - d))     # the rectifier's RMS current
+    i_sw, v_sw, _ = switch_current(st, st.operating_point)
+    assert i_sw == pytest.approx(il) and v_sw == 24
