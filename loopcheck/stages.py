@@ -951,8 +951,10 @@ class _Detector:
             ev.insert(0, f"diode from the switch node {sw} to {el.rail}")
         else:  # transistor
             other = el.rail_pin_net
+            # high side: the buck's and inverting buck-boost's switch (from the input), the boost's
+            # rectifier (up to the output); an inverting rectifier sits below the switch node
             high_side = (name == "switch" and stage.topology != "boost") or (
-                name == "rectifier" and stage.topology != "buck")
+                name == "rectifier" and stage.topology == "boost")
             channel, ch_ev = self._channel(part, sw, stage, high_side, controller)
             ev.append(ch_ev)
             if channel == "P":

@@ -668,3 +668,25 @@ def test_cli_board_without_a_power_stage(tmp_path):
     assert r.exit_code == 0, r.output
     assert "0 power stage(s) found" in r.output
     assert "no power stage found: no inductor" in r.output
+
+
+def test_inverting_synchronous():
+    parts = {
+        "J1": [(1, "N1", 0, 10), (2, "N2", 0, 5)],
+        "C1": [(1, "N1", 4, 12), (2, "N2", 4, 8)],
+        "Q1": [(1, "N5", 6, 16), (2, "N3", 8, 12), (3, "N1", 6, 12)],
+        "Q2": [(1, "N6", 12, 16), (2, "N4", 12, 12), (3, "N3", 10, 12)],
+        "L1": [(1, "N3", 10, 8), (2, "N2", 10, 4)],
+        "C2": [(1, "N4", 16, 12), (2, "N2", 16, 8)],
+        "J2": [(1, "N4", 20, 12), (2, "N2", 20, 8)],
+        "CB": [(1, "N8", 8, 18), (2, "N3", 8, 16)],
+        "U1": [(1, "N1", 5, 30), (2, "N5", 6, 30), (3, "N6", 7, 30), (4, "N2", 8, 30), (5, "N8", 9, 30)],
+    }
+    st = find_stages(board_from(parts), project()).stages[0]
+    assert (st.topology, st.switching) == ("buck-boost", "synchronous")
+    assert (st.input_net, st.output_net, st.ground_net) == ("N1", "N4", "N2")
+    assert st.role("switch").ref == "Q1" and st.role("rectifier").ref == "Q2"
+    assert st.hot_loop == ("C1.1", "Q1.3", "Q1.2", "Q2.3", "Q2.2", "C2.1", "C2.2", "C1.2")
+    # N-channel high side (bootstrap CB): drain on the input; the rectifier's source on the negative output
+    assert st.role("switch").pins == {"source": ("Q1.2",), "drain": ("Q1.3",), "gate": ("Q1.1",)}
+    assert st.role("rectifier").pins == {"source": ("Q2.2",), "drain": ("Q2.3",), "gate": ("Q2.1",)}
