@@ -32,6 +32,29 @@ gradients preconditioned with one V-cycle of classical (Ruge-Stuben) algebraic m
 suits this M-matrix; both are checked by their residual. For a 2-million-unknown two-layer pour
 this takes about 12 s of CPU time and 1.6 GB (benchmarks/bench_dcsolve.py).
 
+Examples
+--------
+(a) resistance of a copper path between two pads::
+
+    r_ohm = two_terminal_resistance([SheetLayer(path_mm, rs)], Contact("J1", 0, pad1_mm),
+                                    Contact("J2", 0, pad2_mm))
+
+(b) Kelvin sense error: load current in at one end, out at the other, the shunt body a lumped
+link between its two (floating, equipotential) pads, sense taps floating::
+
+    sol = solve_dc([SheetLayer(copper, rs)],
+                   [Contact("in", 0, end_a, current_a=5.0), Contact("out", 0, end_b, potential_v=0.0),
+                    Contact("R+", 0, pad_p, equipotential=True), Contact("R-", 0, pad_n, equipotential=True),
+                    Contact("S+", 0, tap_p), Contact("S-", 0, tap_n)],
+                   links=[LumpedLink(pad_p_xy, pad_n_xy, 0, 0, r_shunt)])
+    error = sol.voltage("S+", "S-") / (5.0 * r_shunt) - 1.0
+
+(c) van der Pauw: ``four_terminal_resistance(layers, A, B, D, C)`` is R_AB,CD (point contacts).
+
+Point contacts and vias with radius_mm = 0 occupy one grid cell: their spreading resistance
+grows as ln(1 / pitch), so give pads as polygons and vias a land radius when absolute values
+matter.
+
 References
 ----------
 - S. V. Patankar, "Numerical Heat Transfer and Fluid Flow", Hemisphere, 1980, ch. 4
@@ -239,6 +262,11 @@ class DCSolution:
     @property
     def layer_count(self) -> int:
         return len(self._potential)
+
+    @property
+    def contact_names(self) -> list[str]:
+        """Names of the contacts, in the order given."""
+        return list(self._contacts)
 
     def potential_map(self, layer: int) -> np.ndarray:
         """Cell potentials of a layer, (ny, nx) [V]; NaN outside copper or on unused copper."""
