@@ -690,3 +690,18 @@ def test_inverting_synchronous():
     # N-channel high side (bootstrap CB): drain on the input; the rectifier's source on the negative output
     assert st.role("switch").pins == {"source": ("Q1.2",), "drain": ("Q1.3",), "gate": ("Q1.1",)}
     assert st.role("rectifier").pins == {"source": ("Q2.2",), "drain": ("Q2.3",), "gate": ("Q2.1",)}
+
+
+def test_buck_with_low_side_sense_resistor():
+    """Sense resistor between the diode anode and ground: in the hot loop, and the sense role."""
+    parts = dict(LED_BUCK)
+    parts["D1"] = [(1, "SW", 17, 17), (2, "ISL", 15, 17)]
+    parts["RS1"] = [(1, "ISL", 13, 17), (2, "GND", 11, 17)]
+    parts["L1"] = [(1, "SW", 22, 23), (2, "LED+", 30, 23)]
+    parts["U1"] = [(1, "VIN", 20, 40), (2, "EN", 20, 39), (3, "ISL", 20, 38), (4, "NC4", 20, 37),
+                   (5, "GND", 25, 37), (6, "GATE", 25, 38), (7, "VCC", 25, 39), (8, "GND", 25, 40)]
+    st = find_stages(board_from(parts, values={"RS1": "0.05"}), project()).stages[0]
+    assert (st.topology, st.ground_net) == ("buck", "GND")
+    assert st.role("rectifier").ref == "D1" and st.role("sense_resistor").ref == "RS1"
+    assert st.role("sense_resistor").terminals == ("RS1.1", "RS1.2")      # ground last
+    assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "RS1.1", "RS1.2", "C1.2")
