@@ -17,6 +17,7 @@ Pads with no net name (blank or N/C in the netlist) join copper but are never an
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -62,7 +63,8 @@ class Alignment:
     mirror_y_about: float | None = None
     dx_mm: float = 0.0
     dy_mm: float = 0.0
-    landed_fraction: float = 0.0            # share of sampled pads on copper after the transform
+    landed_fraction: float = 0.0            # share of sampled pads on copper of their own net, after
+    baseline_fraction: float = 0.0          # ... and as given (the same measure)
 
     def apply(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         x = np.asarray(x, dtype=float)
@@ -98,7 +100,9 @@ class Alignment:
             else:
                 parts.append(f"scale by {self.scale:g}")
         if abs(self.dx_mm) > 1e-9 or abs(self.dy_mm) > 1e-9:
-            parts.append(f"offset by ({self.dx_mm:+.3f}, {self.dy_mm:+.3f}) mm")
+            dx = self.dx_mm if abs(self.dx_mm) >= 5e-4 else 0.0
+            dy = self.dy_mm if abs(self.dy_mm) >= 5e-4 else 0.0
+            parts.append(f"offset by ({dx:+.3f}, {dy:+.3f}) mm")
         return ", then ".join(parts) if parts else "no change"
 
 
@@ -336,18 +340,41 @@ def check_connectivity(board: Board) -> ConnectivityResult:
         result.not_checked_reason = reason
         return result
 
-    # alignment
+    # alignment: pads on no copper, or so many opens and shorts that the netlist may simply sit
+    # in the wrong place (on a board of planes and pours a shifted pad still lands on copper)
     unlanded = [i for i, g in enumerate(pad_group) if g is None]
     landed_fraction = 1.0 - len(unlanded) / len(pads)
     result.landed_fraction = landed_fraction
+    opens = _opens(board, result)
+    shorts = _shorts(board, result, copper)
+    named_nets = sum(1 for n in board.nets if n)
+    suspicious = (len(unlanded) / len(pads) >= SEARCH_MIN_UNLANDED
+                  or len(opens) + len(shorts) >= max(2, SEARCH_MIN_UNLANDED * named_nets))
+    found = search_alignment(board, copper) if suspicious else None
+    if (found is not None and not found.is_identity and found.landed_fraction >= HINT_MIN_FRACTION
+            and found.landed_fraction - found.baseline_fraction >= HINT_MIN_GAIN):
+        result.aligned = False
+        result.alignment = found
+        result.alignment_hint = (f"{found.describe()} puts {found.landed_fraction:.0%} of the pads on "
+                                 f"copper of their own net (as given: {found.baseline_fraction:.0%})")
+        skipped = len(opens) + len(shorts)
+        result.findings.append(_alignment_finding(board, unlanded, landed_fraction, result.alignment_hint,
+                                                  stopped=True, skipped=skipped))
+        return result
     result.aligned = landed_fraction >= ALIGNED_MIN_FRACTION
     if unlanded:
-        result.findings.append(_alignment_finding(board, copper, unlanded, landed_fraction, result))
+        hint = None
+        if not result.aligned:
+            hint = ("no offset, inch/mm scale or mirror aligns the netlist with the copper: is it the "
+                    "netlist of this board and revision?")
+            result.alignment_hint = hint
+        result.findings.append(_alignment_finding(board, unlanded, landed_fraction, hint,
+                                                  stopped=not result.aligned,
+                                                  skipped=0 if result.aligned else len(opens) + len(shorts)))
     if not result.aligned:
         return result
-
-    result.findings.extend(_opens(board, result))
-    result.findings.extend(_shorts(board, result, copper))
+    result.findings.extend(opens)
+    result.findings.extend(shorts)
     return result
 
 
@@ -458,17 +485,23 @@ def _meeting_point(board: Board, result: ConnectivityResult, group: CopperGroup,
     unattributed copper that touches both. Otherwise: the point of the island nearest the midpoint
     of the closest pair of pads of different nets.
     """
-    nets = sorted(by_net)
-    # the closest pair of pads of different nets, on a common layer where possible
+    # the closest pair of pads of different nets (among the nets with most pads here: a group
+    # that joins dozens of nets needs one place to look first, not every pair)
+    nets = sorted(by_net, key=lambda n: (-len(by_net[n]), n))[:6]
     best = None
     for a_i, na in enumerate(nets):
         for nb in nets[a_i + 1:]:
-            for i in by_net[na][:200]:
-                for j in by_net[nb][:200]:
-                    pi, pj = board.pads[i], board.pads[j]
-                    d = (pi.x_mm - pj.x_mm) ** 2 + (pi.y_mm - pj.y_mm) ** 2
-                    if best is None or d < best[0]:
-                        best = (d, i, j, na, nb)
+            ia = np.array(by_net[na][:500])
+            ib = np.array(by_net[nb][:500])
+            xa = np.array([board.pads[k].x_mm for k in ia])
+            ya = np.array([board.pads[k].y_mm for k in ia])
+            xb = np.array([board.pads[k].x_mm for k in ib])
+            yb = np.array([board.pads[k].y_mm for k in ib])
+            d = (xa[:, None] - xb[None, :]) ** 2 + (ya[:, None] - yb[None, :]) ** 2
+            k = int(np.argmin(d))
+            u, v = divmod(k, len(ib))
+            if best is None or d.flat[k] < best[0]:
+                best = (float(d.flat[k]), int(ia[u]), int(ib[v]), na, nb)
     _, i, j, na, nb = best
     lays_i = {lay for lay, _ in result.pad_islands[i]}
     lays_j = {lay for lay, _ in result.pad_islands[j]}
@@ -501,32 +534,26 @@ def _meeting_point(board: Board, result: ConnectivityResult, group: CopperGroup,
     return near.x, near.y, lay, (na, nb)
 
 
-def _alignment_finding(board: Board, copper: _Copper, unlanded: list[int], landed_fraction: float,
-                       result: ConnectivityResult) -> Finding:
+def _alignment_finding(board: Board, unlanded: list[int], landed_fraction: float, hint: str | None,
+                       stopped: bool, skipped: int) -> Finding:
     n = len(board.pads)
-    examples = []
-    for i in unlanded[:5]:
-        p = board.pads[i]
-        examples.append(f"{p.terminal} at ({p.x_mm:.3f}, {p.y_mm:.3f}) on {_layer_name(board, p.layers[0])}")
-    more = f", ... ({len(unlanded) - 5} more)" if len(unlanded) > 5 else ""
-    message = (f"{len(unlanded)} of {n} netlist pads land on no copper ({', '.join(examples)}{more})")
-    hint = None
-    if len(unlanded) / n >= SEARCH_MIN_UNLANDED:
-        found = search_alignment(board, copper)
-        if (found is not None and found.landed_fraction >= HINT_MIN_FRACTION
-                and found.landed_fraction - landed_fraction >= HINT_MIN_GAIN):
-            hint = (f"{found.describe()} lands {found.landed_fraction:.0%} of the pads on copper "
-                    f"(as given: {landed_fraction:.0%})")
-            result.alignment = found
-        elif landed_fraction < ALIGNED_MIN_FRACTION:
-            hint = ("no offset, inch/mm scale or mirror aligns the netlist with the copper: is it the "
-                    "netlist of this board and revision?")
+    if unlanded:
+        examples = []
+        for i in unlanded[:5]:
+            p = board.pads[i]
+            examples.append(f"{p.terminal} at ({p.x_mm:.3f}, {p.y_mm:.3f}) on {_layer_name(board, p.layers[0])}")
+        more = f", ... ({len(unlanded) - 5} more)" if len(unlanded) > 5 else ""
+        message = f"{len(unlanded)} of {n} netlist pads land on no copper ({', '.join(examples)}{more})"
+    else:
+        message = f"the netlist's pads land on copper of the wrong nets ({landed_fraction:.0%} on some copper)"
     if hint:
         message += f"; {hint}"
-        result.alignment_hint = hint
-    if landed_fraction < ALIGNED_MIN_FRACTION:
+    if stopped:
         message += "; measurement stops until the netlist and the copper agree"
-    p = board.pads[unlanded[0]]
+        if skipped:
+            message += f" ({skipped} opens and shorts this would cause are not reported)"
+    where = unlanded or list(range(min(n, 1)))
+    p = board.pads[where[0]]
     terminals = tuple(sorted({board.pads[i].terminal for i in unlanded
                               if board.pads[i].ref and not board.pads[i].is_via}))
     nets = tuple(sorted({board.pads[i].net for i in unlanded if board.pads[i].net}))
@@ -560,13 +587,32 @@ def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int =
     py = np.array([p.y_mm for p in sample])
     pad_layer = np.array([p.layers[0] if p.layers else -1 for p in sample])
 
+    net_names = sorted({p.net for p in sample if p.net})
+    net_index = {n: k for k, n in enumerate(net_names)}
+    net_id = np.array([net_index.get(p.net, -1) for p in sample], dtype=np.int64)
+    n_nets = max(len(net_names), 1)
+
     def score(x: np.ndarray, y: np.ndarray) -> float:
-        ok = np.zeros(len(x), dtype=bool)
+        """Share of pads on copper of their own net: on each island, the pads of its most common
+        net count (a netlist squeezed or shifted onto one plane lands on copper, but not on the
+        copper of its own nets). Pads without a net count when they land at all."""
+        node = np.full(len(x), -1, dtype=np.int64)
         for lay in copper.layers:
             m = pad_layer == lay
             if m.any():
-                ok[m] = copper.points_on(lay, x[m], y[m]) >= 0
-        return float(ok.mean())
+                k = copper.points_on(lay, x[m], y[m])
+                node[m] = np.where(k >= 0, copper.offset[lay] + k, -1)
+        landed = node >= 0
+        named = landed & (net_id >= 0)
+        good = int(np.count_nonzero(landed & (net_id < 0)))
+        if named.any():
+            keys, counts = np.unique(node[named] * n_nets + net_id[named], return_counts=True)
+            islands = keys // n_nets
+            order = np.lexsort((-counts, islands))
+            first = np.ones(len(order), dtype=bool)
+            first[1:] = islands[order][1:] != islands[order][:-1]
+            good += int(counts[order][first].sum())
+        return good / len(x)
 
     bounds = board.outline.geometry.bounds if not board.outline.geometry.is_empty else None
     if bounds is None:
@@ -601,20 +647,38 @@ def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int =
             s = score(bx + dx, by + dy)
             a = Alignment(scale=base.scale, mirror_x_about=base.mirror_x_about,
                           mirror_y_about=base.mirror_y_about, dx_mm=dx, dy_mm=dy, landed_fraction=s)
-            if best is None or _better(a, best):
+            if best is None or _better(a, best, exact, best_exact):
                 best, best_exact = a, exact
     if best is not None and not best_exact:
         best = _refine(best, px, py, score, rasters.cell)
+    if best is not None:
+        best = _mirror_absorbs_offset(best)
+        best.baseline_fraction = score(px, py)
     return best
 
 
-def _better(a: Alignment, b: Alignment) -> bool:
-    """More pads landed wins; within 1 %, the simpler transform (fewer parts, smaller offset)."""
+def _mirror_absorbs_offset(a: Alignment) -> Alignment:
+    """x -> 2c - x + dx is the mirror about c + dx/2: name that mirror rather than an offset."""
+    if a.mirror_x_about is not None and a.scale == 1.0 and abs(a.dx_mm) > 0:
+        a = dataclasses.replace(a, mirror_x_about=round(a.mirror_x_about + a.dx_mm / 2, 3), dx_mm=0.0)
+    if a.mirror_y_about is not None and a.scale == 1.0 and abs(a.dy_mm) > 0:
+        a = dataclasses.replace(a, mirror_y_about=round(a.mirror_y_about + a.dy_mm / 2, 3), dy_mm=0.0)
+    return a
+
+
+def _better(a: Alignment, b: Alignment, a_exact: bool = True, b_exact: bool = True) -> bool:
+    """More pads landed wins; within 1 %, the simpler transform (fewer parts), then an exact
+    offset (from holes) over a raster one, then the smaller offset."""
     if a.landed_fraction > b.landed_fraction + 0.01:
         return True
     if a.landed_fraction < b.landed_fraction - 0.01:
         return False
-    return _complexity(a) < _complexity(b)
+    ca, cb = _complexity(a), _complexity(b)
+    if int(ca // 1000) != int(cb // 1000):
+        return ca < cb
+    if a_exact != b_exact:
+        return a_exact
+    return ca < cb
 
 
 def _complexity(a: Alignment) -> float:
@@ -645,6 +709,7 @@ class _CopperRaster:
         self.copper = copper
         self.layers = [lay for lay in copper.layers if (pad_layer == lay).any() and copper.islands[lay]]
         self.pad_layer = pad_layer
+        self._fft: dict[tuple[int, int, int], np.ndarray] = {}
         b = [board.layers[[l.index for l in board.layers].index(lay)].geometry.bounds for lay in self.layers]
         self.ok = bool(b)
         if not self.ok:
@@ -687,7 +752,10 @@ class _CopperRaster:
             ix = np.clip(((bx[m] - px0) / c).astype(int), 0, pnx - 1)
             iy = np.clip(((by[m] - py0) / c).astype(int), 0, pny - 1)
             np.add.at(pad_img, (iy, ix), 1.0)
-            fa = np.fft.rfft2(self.masks[lay].astype(float), s=(H, W))
+            key = (lay, H, W)
+            if key not in self._fft:
+                self._fft[key] = np.fft.rfft2(self.masks[lay].astype(float), s=(H, W))
+            fa = self._fft[key]
             fb = np.fft.rfft2(pad_img, s=(H, W))
             corr = np.fft.irfft2(fa * np.conj(fb), s=(H, W))
             total = corr if total is None else total + corr

@@ -222,3 +222,23 @@ def test_x2_pads_without_drills_or_with_repeated_terminals_are_not_checked():
     panel.netlist_file = None
     r = check_connectivity(panel)
     assert not r.checked and "panel" in r.not_checked_reason
+
+
+def test_shift_onto_planes_is_still_an_alignment_error():
+    """On a 4-layer board with planes, a shifted through pad still lands on copper (a plane),
+    only not on its own net's copper: the search must name the shift, not report shorts."""
+    from pathlib import Path
+
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    demo = Path(__file__).parents[1] / "boards" / "sync-buck-4layer"
+    if not (demo / "loopcheck.toml").is_file():
+        pytest.skip("demo board not generated")
+    b = load_board(load_project(demo))
+    assert check_connectivity(b).findings == []
+    shifted = moved(b, lambda x, y: (x + 5.0, y + 5.0))
+    r = check_connectivity(shifted)
+    assert [f.rule for f in r.findings] == ["netlist-alignment"]
+    assert not r.aligned
+    assert (r.alignment.dx_mm, r.alignment.dy_mm) == (pytest.approx(-5.0, abs=0.01), pytest.approx(-5.0, abs=0.01))
