@@ -20,7 +20,7 @@ from shapely.ops import unary_union
 from loopcheck.board import Pad
 from loopcheck.measure.hotloop import build_loop, enclosed_area, loop_inductance, measure_hot_loop
 from loopcheck.measure.netcopper import MeasureContext
-from loopcheck.powerstage import OperatingPoint, Role, Stage
+from loopcheck.powerstage import OperatingPoint, Stage
 
 from measure_boards import OZ1_M, make_board, smd, square_pad, trace
 

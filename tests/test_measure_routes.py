@@ -2,7 +2,6 @@
 
 import math
 
-import numpy as np
 import pytest
 from shapely.geometry import LineString, Point, box
 from shapely.ops import unary_union

@@ -119,14 +119,10 @@ class MeasureContext:
             polys, tree = self.islands(layer)
             if not polys:
                 continue
-            hit: set[int] = set()
-            xy = np.asarray(here)
-            idx = tree.query(shapely.points(xy), predicate="intersects")
-            hit.update(int(i) for i in idx[1])
-            if not hit:
-                continue
-            out[layer] = unary_union([polys[i] for i in sorted(hit)])
-        # plated holes from the drill files that land in the net's copper on two or more layers
+            idx = tree.query(shapely.points(np.asarray(here)), predicate="intersects")
+            hit = sorted({int(i) for i in idx[1]})
+            if hit:
+                out[layer] = unary_union([polys[i] for i in hit])
         self.cache[key] = out
         return out
 
@@ -146,7 +142,6 @@ class MeasureContext:
         if len(copper) > 1 and self.board.holes:
             plated = [h for h in self.board.holes if h.plated and h.end is None]
             if plated:
-                pts = shapely.points([(h.x_mm, h.y_mm) for h in plated])
                 inside = {layer: shapely.contains_xy(g, [h.x_mm for h in plated], [h.y_mm for h in plated])
                           for layer, g in copper.items()}
                 for n, h in enumerate(plated):
@@ -154,7 +149,6 @@ class MeasureContext:
                     k = (round(h.x_mm, 3), round(h.y_mm, 3))
                     if len(layers) > 1 and k not in sites:
                         sites[k] = (h.x_mm, h.y_mm, h.diameter_mm, layers)
-                del pts
         out = list(sites.values())
         self.cache[key] = out
         return out

@@ -17,7 +17,7 @@ from __future__ import annotations
 import math
 import re
 
-from shapely.geometry import LineString, Polygon
+from shapely.geometry import LineString
 from shapely.ops import unary_union
 
 from ..board import Pad
