@@ -8,8 +8,11 @@ Findings (rule names from RULES.md, severity "error"):
 
 - ``netlist-open``: one net's pads fall in more than one copper group;
 - ``netlist-short``: one copper group holds pads of two or more nets;
-- ``netlist-alignment``: netlist pads land on no copper. The offset, inch/mm scale or mirror that
-  would align them is searched for and named. When most pads land on no copper, opens and shorts
+- ``netlist-alignment``: netlist pads land on no copper, or on copper of the wrong nets. The
+  offset, inch/mm scale or mirror that would align them is searched for and named; a transform is
+  judged by the share of pads it puts on copper of their own net (on each island, the pads of its
+  most common net count), because on a board of planes and pours a shifted pad still lands on
+  *some* copper. When such a transform is found, or most pads land on no copper, opens and shorts
   are not judged (they would be noise) and ``aligned`` is False: measurement must stop.
 
 Pads with no net name (blank or N/C in the netlist) join copper but are never an open or a short.
@@ -136,6 +139,13 @@ class ConnectivityResult:
             if lay == layer:
                 return self.islands[lay][k]
         return None
+
+    def islands_of(self, pad: Pad) -> dict[int, Polygon]:
+        """The copper island under the pad on each layer it lands on (layer index -> island)."""
+        i = self._pad_index.get(pad)
+        if i is None:
+            return {}
+        return {lay: self.islands[lay][k] for lay, k in self.pad_islands[i]}
 
     def group_copper(self, group: int) -> dict[int, BaseGeometry]:
         """The copper of one group, per layer index."""

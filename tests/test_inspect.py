@@ -9,6 +9,7 @@ import sys
 import zipfile
 from pathlib import Path
 
+import jsonschema
 import pytest
 from click.testing import CliRunner
 
@@ -20,10 +21,15 @@ from loopcheck.synth import write_fab
 REPO = Path(__file__).parents[1]
 
 
+SCHEMA = json.loads((REPO / "loopcheck" / "schemas" / "inspect.schema.json").read_text())
+
+
 def run_json(target) -> tuple[int, dict]:
     res = CliRunner().invoke(main, ["inspect", str(target), "--format", "json"])
     assert res.exception is None or isinstance(res.exception, SystemExit), res.output
-    return res.exit_code, json.loads(res.stdout)
+    data = json.loads(res.stdout)
+    jsonschema.validate(data, SCHEMA)
+    return res.exit_code, data
 
 
 def cli(*args, cwd=None) -> subprocess.CompletedProcess:
@@ -229,6 +235,7 @@ def test_corpus_board_inspects(name, tmp_path):
         (tmp_path / "loopcheck.toml").write_text("\n".join(lines) + "\n")
         target = tmp_path / "loopcheck.toml"
     res = CliRunner().invoke(main, ["inspect", str(target), "--format", "json"])
+    jsonschema.validate(json.loads(res.stdout), SCHEMA)
     if name == "spec-examples":
         # single-feature files and a netlist of another board: it reads, and says they disagree
         assert res.exit_code == 1

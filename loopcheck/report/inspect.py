@@ -127,6 +127,12 @@ def render_text(data: dict[str, Any]) -> str:
             where = f" at ({f['x_mm']:.3f}, {f['y_mm']:.3f}) mm" + (f" on {f['layer']}" if f.get("layer") else "")
         add(f"  {f['severity']}  {f['rule']}{where}")
         add(f"      {f['message']}")
+    if data.get("inputs"):
+        add("")
+        add("files")
+        wf = max(len(k) for k in data["inputs"])
+        for name, role in data["inputs"].items():
+            add(f"  {name:<{wf}}  {role}")
     if data["assumptions"]:
         add("")
         add("assumptions")
