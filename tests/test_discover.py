@@ -241,3 +241,11 @@ def test_corpus_stacks():
         assert fab.display(fab.bom).endswith(".csv")
     with discover(CORPUS / "eagle-newer") as fab:
         assert fab.layer_count == 2 and fab.display(fab.outline) == "profile.gbr"
+
+
+@pytest.mark.corpus
+def test_corpus_folder_of_four_board_variants_is_ambiguous():
+    if not CORPUS.is_dir():
+        pytest.skip("../shared/corpus is absent")
+    with pytest.raises(InputError, match="more than one file claims the same copper layer"):
+        discover(CORPUS / "kicad-x2-tests")

@@ -16,7 +16,7 @@ from click.testing import CliRunner
 from loopcheck.cli import main
 from synth_fixtures import buck_board, write_buck
 
-from loopcheck.synth import write_fab
+from loopcheck.synth import SynthPour, write_fab
 
 REPO = Path(__file__).parents[1]
 
@@ -250,3 +250,45 @@ def test_corpus_board_inspects(name, tmp_path):
     if name == "geda":
         assert any("no outline layer" in a for a in d["assumptions"])
     assert d["findings"] == []
+
+
+def test_copper_outside_the_outline_is_left_out_and_reported(tmp_path):
+    b = buck_board()
+    b.name = "framed"
+    # a copper film frame below the board edge (the board is 0..60 x 0..35 mm)
+    b.pours.append(SynthPour("", 1, [(-5, -5), (65, -5), (65, -2), (-5, -2)]))
+    write_fab(b, tmp_path / "framed")
+    code, d = run_json(tmp_path / "framed")
+    assert code == 0 and d["findings"] == []
+    top = d["layers"][0]
+    assert top["clipped_area_mm2"] == pytest.approx(70 * 3, rel=1e-3)
+    assert any("outside the outline left out" in a for a in d["assumptions"])
+    # without the profile layer: the netlist's board-edge (389) records give the outline ...
+    (tmp_path / "framed" / "framed-profile.gbr").unlink()
+    code, d = run_json(tmp_path / "framed")
+    assert code == 0 and "board-edge records" in d["outline"]["source"]
+    assert d["layers"][0]["clipped_area_mm2"] == pytest.approx(70 * 3, rel=1e-3)
+    # ... and without those, the extent of pads and holes stands in, and nothing is clipped
+    net = tmp_path / "framed" / "framed-netlist.ipc"
+    net.write_text("".join(line for line in net.read_text().splitlines(keepends=True)
+                           if not line.startswith(("389", "089"))))
+    code, d = run_json(tmp_path / "framed")
+    assert code == 0
+    assert d["outline"]["from_extent"] is True and d["layers"][0]["clipped_area_mm2"] == 0
+    assert any("no outline layer" in a and "2 mm margin" in a for a in d["assumptions"])
+
+
+def test_net_copper_per_layer_on_a_read_board(boards):
+    from loopcheck.connectivity import check_connectivity, net_copper
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    b = load_board(load_project(boards / "clean"))
+    r = check_connectivity(b)
+    gnd = net_copper(b, r, "GND")
+    assert set(gnd) == {0, 1}
+    assert gnd[1].area == pytest.approx(58 * 14, rel=0.01)      # the bottom pour
+    out = net_copper(b, r, "OUT")
+    assert set(out) == {0}
+    c2 = b.terminals["C2.1"]
+    assert r.islands_of(c2)[0].equals(out[0])
