@@ -204,3 +204,24 @@ def test_switches_inside_the_controller_loop():
     ref = grover_rectangle_h(6e-3, 4e-3, 0.2235 * (W * 1e-3 + OZ1_M))
     assert ms["hot_loop.inductance"].value * 1e-9 == pytest.approx(ref, rel=0.10)
     assert any("through a part" in a for a in ms["hot_loop.inductance"].assumptions)
+
+
+@pytest.mark.parametrize("h_mm", [0.2, 0.5, 1.5])
+def test_return_in_own_plane_vs_microstrip(h_mm):
+    # VIN and SW out on top (30 + 2 + 11 + 2 mm through parts and traces), the ground return in
+    # the bottom GND plane h_mm below, joined by vias at C1.2 and D1.2: the loop is a 45 mm
+    # microstrip over its return plane, 45 mm x L'(Hammerstad 1975) plus the two vias
+    vin = unary_union([trace([(0, 15), (30, 15)], W), square_pad(0, 15, W), square_pad(30, 15, W)])
+    sw = unary_union([trace([(30, 13), (30, 2)], W), square_pad(30, 13, W), square_pad(30, 2, W)])
+    gtop = unary_union([square_pad(0, 13, 0.8), square_pad(30, 0, 0.8)])
+    pads = [smd("VIN", "C1", 1, 0, 15, W), smd("GND", "C1", 2, 0, 13, W), smd("VIN", "Q1", 1, 30, 15, W),
+            smd("SW", "Q1", 2, 30, 13, W), smd("SW", "D1", 1, 30, 2, W), smd("GND", "D1", 2, 30, 0, W),
+            Pad("GND", "", "", 0, 13, (0, 1), hole_mm=0.3, is_via=True),
+            Pad("GND", "", "", 30, 0, (0, 1), hole_mm=0.3, is_via=True)]
+    b = make_board([[vin, sw, gtop], box(-5, -5, 35, 20)], pads, dielectric_mm=[h_mm])
+    ctx = MeasureContext(b)
+    loop = build_loop(ctx, LOOP)
+    assert enclosed_area(loop.projected())[0] < 5          # the return runs under the outgoing path
+    L, notes, det = loop_inductance(ctx, loop)
+    assert det["return_plane"] == "bottom"
+    assert L == pytest.approx(45e-3 * hammerstad_l_per_m(W, h_mm), rel=0.15)

@@ -114,6 +114,7 @@ def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
         return LineString([(a.x_mm, a.y_mm), (b.x_mm, b.y_mm)])
 
     final: dict[int, Route] = {}
+    plane_legs: set[int] = set()
     for k, kind in legs:
         if kind != "net":
             continue
@@ -125,8 +126,9 @@ def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
         others = [o for o in others if o is not None and o.length > 0]
         attract = unary_union(others) if others else None
         r = route(ctx, pads[k], pads[(k + 1) % n], attract_to=attract)
-        # keep the attracted route only where it lowers the loop (it runs nearer the other legs)
         final[k] = r
+        if not (r.detour and r.detour[2] > DETOUR_MM):
+            plane_legs.add(k)          # the return runs under the outgoing conductor all the way
         if r.detour and r.detour[2] > DETOUR_MM and attract is not None:
             cover = _copper_under(ctx, r, attract)
             if cover is not None and cover > 0.5:
@@ -148,6 +150,9 @@ def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
             pts = list(r.points)
             ws = segment_widths(ctx, r)
             ks = [kind_of(p, q) for p, q in zip(pts[:-1], pts[1:])]
+            if k in plane_legs:
+                # in-plane stretches of a return that follows the outgoing conductor
+                ks = ["plane" if kd == "copper" and w >= PLANE_LEG_WIDTH_MM else kd for kd, w in zip(ks, ws)]
             if points and points[-1] == pts[0]:
                 pts = pts[1:]
             elif points:
@@ -273,9 +278,12 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
         gmd[i] = float(inductance.strip_equivalent_radius(w * 1e-3, layer_thickness_m(board, a[2])))
     seg_len = np.linalg.norm(ends - starts, axis=1)
     keep = seg_len > 1e-9
+    notes = []
+    plane_segs = [i for i in range(n) if loop.kinds[i] == "plane" and keep[i]]
+    if plane_segs:
+        return _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z)
     mat = inductance.partial_inductance_matrix(starts[keep], ends[keep], gmd[keep])
     L_free = float(mat.sum())
-    notes = []
     images = [(j, zp, m) for j, zp, m in _plane_images(ctx, loop, z) if keep[j]]
     L_img = 0.0
     if images:
@@ -303,6 +311,39 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
     detail = {"free_space_nH": L_free * 1e9, "plane_image_nH": -L_img * 1e9,
               "segments_over_plane": len(images)}
     return L, notes, detail
+
+
+def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z):
+    """A loop whose return runs in its own plane under the outgoing conductor: the plane is a
+    perfect-conductor image (the return current is the image current), so the in-plane
+    segments are dropped and L = Lp(path) - M(path, mirrored path) over the rest of the loop
+    (the outgoing conductor and its vias down to the plane), the microstrip picture of a
+    conductor over its return plane."""
+    from ..physics import inductance
+
+    board = ctx.board
+    layers = sorted({loop.points[i][2] for i in plane_segs})
+    m = layers[0]
+    zp = z[m] * 1e-3
+    path = [i for i in range(len(loop.points)) if keep[i] and loop.kinds[i] != "plane"]
+    a, b, g = starts[path], ends[path], gmd[path]
+    Lp = float(inductance.partial_inductance_matrix(a, b, g).sum())
+    ma, mb = a.copy(), b.copy()
+    ma[:, 2] = 2 * zp - ma[:, 2]
+    mb[:, 2] = 2 * zp - mb[:, 2]
+    P = len(path)
+    ii, jj = np.meshgrid(np.arange(P), np.arange(P), indexing="ij")
+    ii, jj = ii.ravel(), jj.ravel()
+    # segments lying in the plane itself coincide with their mirror: softened by their section
+    M = inductance.segment_mutual_inductance(a[ii], b[ii], ma[jj], mb[jj], 0.5 * (g[ii] + g[jj]))
+    L = Lp - float(np.sum(M))
+    notes = [f"the return runs in the {board.layers[m].name} plane under the outgoing conductor: the plane is "
+             "taken as a perfect-conductor image (the return current is the image current)"]
+    if L <= 0:
+        notes.append("the image correction exceeded the path's partial inductance; the path value is reported")
+        L = Lp
+    return L, notes, {"free_space_nH": Lp * 1e9, "plane_image_nH": -float(np.sum(M)) * 1e9,
+                      "segments_over_plane": P, "return_plane": board.layers[m].name}
 
 
 def measure_hot_loop(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
