@@ -48,7 +48,7 @@ METHOD_ASSUMPTIONS = (
     "coarser on large nets), layers joined at vias and plated holes",
     "switching-loop return current is drawn under the conductor that carries it out where the copper allows",
     "inductance: partial-inductance sum of straight flat-strip segments; solid planes on the adjacent "
-    "layer act as perfect-conductor images",
+    "layer (and a return plane the loop's current runs in) act as perfect-conductor images",
     "DC resistance and sense error: finite-volume DC solve of the copper sheets, pads as equipotential contacts",
     "temperature rise: IPC-2221 curve fit and an IPC-2152-style fit at the narrowest point of each path",
     "the tool estimates; it does not certify (mains-powered LED drivers need their own safety review)",

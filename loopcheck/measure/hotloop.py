@@ -14,7 +14,10 @@ that is not part of the loop lies on the adjacent layer under a segment, the pla
 image current (a perfect-conductor image at the plane, valid above the frequency where the plane
 is thicker than a skin depth, a few MHz for 1 oz copper): the mutual inductance with the mirrored
 segments is subtracted, which reproduces the microstrip inductance per length of a trace over a
-plane.
+plane. Where the loop's own return runs in a plane under the outgoing conductor (no detour), that
+plane is the image: its in-plane stretches are dropped and L = Lp(path) - M(path, mirrored path)
+over the outgoing conductor and its vias. Where a gap forces the return away, the real path is
+summed instead (and the detour reported).
 """
 
 from __future__ import annotations
