@@ -249,3 +249,9 @@ def test_corpus_folder_of_four_board_variants_is_ambiguous():
         pytest.skip("../shared/corpus is absent")
     with pytest.raises(InputError, match="more than one file claims the same copper layer"):
         discover(CORPUS / "kicad-x2-tests")
+
+
+def test_folder_with_too_many_files_is_refused(tmp_path):
+    d = make(tmp_path / "b", {f"f{i}.gbr": gerber() for i in range(6)})
+    with pytest.raises(InputError, match="more than 5 files under this folder"):
+        discover(d, limits=InputLimits(max_zip_members=5))

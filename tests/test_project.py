@@ -194,3 +194,20 @@ def test_layer_names():
     assert layer_names(1) == ["top"]
     assert layer_names(2) == ["top", "bottom"]
     assert layer_names(4) == ["top", "inner1", "inner2", "bottom"]
+
+
+def test_one_layer_and_broadcast_permittivity():
+    s, assumptions = build_stackup(1)
+    assert s.copper_thickness_m == pytest.approx([35e-6]) and s.dielectrics == []
+    assert s.finished_thickness_m == pytest.approx(1.6e-3)
+    s, _ = build_stackup(4, StackupSpec(dielectric_er=[3.8]))
+    assert [d.eps_r for d in s.dielectrics] == [3.8, 3.8, 3.8]
+    assert s.source == "project file + defaults"
+    with pytest.raises(InputError, match="stackup.dielectric_er: gives 2 values, expected 3"):
+        build_stackup(4, StackupSpec(dielectric_er=[3.8, 4.0]))
+    with pytest.raises(InputError, match="stackup.dielectric_um: gives 1 dielectric thicknesses, expected 3"):
+        build_stackup(4, StackupSpec(dielectric_um=[1000]))
+    # a finished thickness alone spreads the dielectric evenly
+    s, assumptions = build_stackup(2, StackupSpec(finished_mm=0.8))
+    assert s.dielectrics[0].thickness_m == pytest.approx(0.73e-3)
+    assert any("finished 0.8 mm" in a for a in assumptions)

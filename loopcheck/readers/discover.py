@@ -271,7 +271,15 @@ class _Claim:
 
 def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project_file: str | None) -> None:
     files: list[_File] = []
-    for path in sorted(p for p in fab.root.rglob("*") if p.is_file()):
+    found = []
+    for p in fab.root.rglob("*"):
+        if p.is_file():
+            found.append(p)
+            if len(found) > limits.max_zip_members:
+                # a folder of fab outputs holds tens of files; this is likely the wrong folder
+                raise InputError(f"more than {limits.max_zip_members} files under this folder: point at "
+                                 f"the folder (or zip) of one board's fab outputs", path=str(fab.source))
+    for path in sorted(found):
         rel = path.relative_to(fab.root).as_posix()
         if any(part.startswith(".") or part == "__MACOSX" for part in path.relative_to(fab.root).parts):
             continue
