@@ -165,3 +165,19 @@ def test_every_format_renders_a_board_whose_measurement_stopped(tmp_path):
     assert "Measurement stopped" in render_html(r)
     assert json.loads(render_sarif(r))["runs"][0]["results"][0]["ruleId"] == "netlist-alignment"
     assert 'failures="1"' in render_junit(r)
+
+
+def test_geometry_path_keeps_holes_and_drops_specks():
+    from shapely.geometry import LineString, Point, box
+    from shapely import GeometryCollection
+
+    from loopcheck.report.svg import geometry_path
+
+    ring = box(0, 0, 10, 10).difference(box(2, 2, 8, 8))
+    speck = box(20, 20, 20.001, 20.001)
+    d = geometry_path(GeometryCollection([ring, speck, LineString([(0, 20), (5, 20)])]), 0.05)
+    assert d.count("M") == 3                       # outer ring, hole, the buffered line
+    assert "M0.00,-0.00" in d or "M0.00,0.00" in d or "0.00,-10.00" in d   # y is negated
+    assert "20.00,-20.00" not in d                # the speck is left out
+    circle = Point(0, 0).buffer(5, quad_segs=64)
+    assert geometry_path(circle, 0.1).count("L") < geometry_path(circle, 0.0).count("L")

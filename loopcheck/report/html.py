@@ -13,7 +13,7 @@ from ..findings import SEVERITIES
 from ..rules.docs import RULE_DOCS
 from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id, limits_text,
                      operating_point_assumptions, path_label, sorted_findings, value_text)
-from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, layer_colour
+from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, copper_defs, layer_colour
 
 _CSS = """
 :root { --ink:#1d232b; --muted:#5b6673; --line:#d9dee4; --paper:#fbfaf7; --panel:#ffffff;
@@ -146,13 +146,18 @@ def render_html(result: CheckResult) -> str:
 
     # --- the board ---
     h.append('<section id="board"><h2>The board</h2>')
-    for i in range(len(board.layers)):
-        h.append(f'<input type="checkbox" class="toggle" id="show-layer-{i}" checked>')
+    h.append(copper_defs(board))
+    n_layers = len(board.layers)
+    for i in range(n_layers):
+        # inner layers (mostly planes) start hidden: they would cover the routes on the outside
+        shown = " checked" if i in (0, n_layers - 1) else ""
+        h.append(f'<input type="checkbox" class="toggle" id="show-layer-{i}"{shown}>')
     h.append('<input type="checkbox" class="toggle" id="show-overlays" checked>')
     h.append('<input type="checkbox" class="toggle" id="show-markers" checked>')
     h.append('<div class="viewer"><div class="board-frame">')
-    h.append(board_svg(board, a.measurements, findings, fids, value_labels=loop_labels))
-    h.append('</div><div class="legend"><strong>Layers</strong> (click to hide)')
+    h.append(board_svg(board, a.measurements, findings, fids, value_labels=loop_labels,
+                       layer_href=True))
+    h.append('</div><div class="legend"><strong>Layers</strong> (click to show or hide)')
     for i, layer in enumerate(board.layers):
         colour = layer_colour(i, len(board.layers))
         h.append(f'<label for="show-layer-{i}"><span class="sw" style="background:{colour}">'
@@ -245,7 +250,7 @@ def render_html(result: CheckResult) -> str:
     h.append('<section id="layers"><h2>Copper layers</h2><div class="layers">')
     for i, layer in enumerate(board.layers):
         svg = board_svg(board, [], [], [], layers=[i], markers=False, overlays=False,
-                        css_id=f"layer-view-{i}")
+                        css_id=f"layer-view-{i}", layer_href=True)
         h.append(f"<figure>{svg}<figcaption>{escape(layer.name)} &middot; "
                  f"{escape(layer.file or 'no file')} &middot; copper "
                  f"{layer.copper_area_mm2:.0f} mm²</figcaption></figure>")

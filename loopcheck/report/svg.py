@@ -10,6 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from html import escape
 
+import numpy as np
+import shapely
 from shapely.geometry.base import BaseGeometry
 
 from ..board import Board
@@ -72,32 +74,41 @@ def _xy(x: float, y: float) -> str:
 
 
 def geometry_path(geom: BaseGeometry, tolerance: float) -> str:
-    """SVG path data (even-odd fill) of a polygonal geometry, simplified to ``tolerance`` mm."""
+    """SVG path data (even-odd fill) of a polygonal geometry, simplified to ``tolerance`` mm.
+
+    Each polygon is simplified on its own (a whole-layer topology-preserving simplify takes
+    seconds on a large board); polygons smaller than a tolerance square are left out. Lines and
+    points are drawn as thin outlines. Coordinates to 0.01 mm.
+    """
     if geom is None or geom.is_empty:
         return ""
-    g = geom.simplify(tolerance, preserve_topology=True) if tolerance > 0 else geom
-    parts: list[str] = []
-
-    def ring(coords) -> None:
-        pts = list(coords)
-        if len(pts) < 3:
-            return
-        parts.append("M" + " L".join(_xy(x, y) for x, y, *_ in pts[:-1]) + " Z")
-
-    def walk(obj) -> None:
-        t = obj.geom_type
-        if t == "Polygon":
-            ring(obj.exterior.coords)
-            for hole in obj.interiors:
-                ring(hole.coords)
-        elif t in ("MultiPolygon", "GeometryCollection"):
-            for sub in obj.geoms:
-                walk(sub)
-        elif t in ("LineString", "LinearRing", "MultiLineString", "Point", "MultiPoint"):
-            walk(obj.buffer(tolerance or 0.05))
-
-    walk(g)
-    return " ".join(parts)
+    parts = shapely.get_parts(shapely.get_parts(geom))       # flatten collections
+    kinds = shapely.get_type_id(parts)
+    lines = parts[(kinds != 3) & (kinds != 6)]
+    if len(lines):
+        parts = np.concatenate([parts[kinds == 3],
+                                shapely.get_parts(shapely.buffer(lines, tolerance or 0.05))])
+    else:
+        parts = parts[kinds == 3]
+    if tolerance > 0 and len(parts):
+        parts = shapely.simplify(parts, tolerance, preserve_topology=True)
+        parts = parts[~shapely.is_empty(parts) & (shapely.area(parts) > tolerance * tolerance)]
+    if not len(parts):
+        return ""
+    rings = shapely.get_rings(shapely.get_parts(parts))
+    coords, index = shapely.get_coordinates(rings, return_index=True)
+    if not len(coords):
+        return ""
+    starts = np.r_[0, np.flatnonzero(np.diff(index)) + 1]
+    ends = np.r_[starts[1:], len(index)]
+    xs = np.char.mod("%.2f", coords[:, 0])
+    ys = np.char.mod("%.2f", -coords[:, 1])
+    pairs = np.char.add(np.char.add(xs, ","), ys)
+    out = []
+    for a, b in zip(starts, ends):
+        if b - a >= 4:                          # a closed ring repeats its first point
+            out.append("M" + " L".join(pairs[a:b - 1].tolist()) + " Z")
+    return " ".join(out)
 
 
 def _points(points) -> str:
@@ -153,16 +164,36 @@ def _spread(findings: list[Finding], r: float) -> dict[int, tuple[float, float]]
     return out
 
 
+COPPER_ID = "lc-copper-"
+
+
+def default_tolerance(board: Board) -> float:
+    """Copper drawing tolerance: 1/2500 of the board's extent (0.04 mm on a 100 mm board)."""
+    fr = Frame.of(board)
+    return max(fr.width, fr.height) / 2500.0
+
+
+def copper_defs(board: Board, tolerance: float | None = None) -> str:
+    """Each copper layer's drawing once, as SVG definitions that board_svg(layer_href=True)
+    refers to: one page can show the layers in several views without repeating them."""
+    tol = tolerance if tolerance is not None else default_tolerance(board)
+    paths = "".join(f'<path id="{COPPER_ID}{layer.index}" fill-rule="evenodd" '
+                    f'd="{geometry_path(layer.geometry, tol)}"/>' for layer in board.layers)
+    return (f'<svg xmlns="http://www.w3.org/2000/svg" width="0" height="0" aria-hidden="true" '
+            f'style="position:absolute"><defs>{paths}</defs></svg>')
+
+
 def board_svg(board: Board, measurements: list[Measurement], findings: list[Finding],
               finding_ids: list[str], layers: list[int] | None = None, markers: bool = True,
               overlays: bool = True, css_id: str = "board-view", tolerance: float | None = None,
-              value_labels: dict[int, str] | None = None) -> str:
+              value_labels: dict[int, str] | None = None, layer_href: bool = False) -> str:
     """One SVG: the chosen copper layers (all by default) bottom first, the outline, overlays
     from the measurements' drawings, and one marker per finding (unlocated ones in a strip
-    below the board). ``value_labels`` maps id(measurement) to a label drawn at the loop."""
+    below the board). ``value_labels`` maps id(measurement) to a label drawn at the loop.
+    ``layer_href``: refer to the copper drawn once by ``copper_defs`` instead of repeating it."""
     fr = Frame.of(board)
     u = fr.unit
-    tol = tolerance if tolerance is not None else max(fr.width, fr.height) / 2500.0
+    tol = tolerance if tolerance is not None else default_tolerance(board)
     chosen = list(range(len(board.layers))) if layers is None else layers
     unlocated = [i for i, f in enumerate(findings) if f.x_mm is None or f.y_mm is None]
     strip = (14 * u) if (markers and unlocated) else 0.0
@@ -180,10 +211,14 @@ def board_svg(board: Board, measurements: list[Measurement], findings: list[Find
     for idx in sorted(chosen, reverse=True):           # bottom first, top drawn last
         layer = board.layers[idx]
         colour = layer_colour(idx, n)
-        d = geometry_path(layer.geometry, tol)
-        out.append(f'<g class="layer layer-{idx}" data-layer="{escape(layer.name)}">'
-                   f'<path class="copper" fill="{colour}" fill-rule="evenodd" d="{d}">'
-                   f'<title>{escape(layer.name)} copper</title></path></g>')
+        if layer_href:
+            shape = (f'<use href="#{COPPER_ID}{idx}" class="copper" fill="{colour}">'
+                     f'<title>{escape(layer.name)} copper</title></use>')
+        else:
+            d = geometry_path(layer.geometry, tol)
+            shape = (f'<path class="copper" fill="{colour}" fill-rule="evenodd" d="{d}">'
+                     f'<title>{escape(layer.name)} copper</title></path>')
+        out.append(f'<g class="layer layer-{idx}" data-layer="{escape(layer.name)}">{shape}</g>')
     if overlays:
         out.append(f'<g class="overlays" stroke-width="{1.6 * u:.3f}">')
         drawn: set[tuple] = set()
