@@ -101,3 +101,22 @@ def test_stage_with_a_missing_role_lists_not_made(tmp_path):
     assert "no input capacitor" in ms["input_cap.path_length"].not_made
     assert ms["hot_loop.area"].value is None and "hot loop" in ms["hot_loop.area"].not_made
     assert ms["switch_node.area"].value is not None          # the rest still measured
+
+
+def test_meaningless_net_names_measure_the_same(tmp_path, tidy):
+    # every net renamed N001, N002 ...: the measurements do not lean on names
+    b = synth_led_buck("mini-anon", kelvin=True)
+    names = sorted({p.net for c in b.components for p in c.pads})
+    rename = {n: f"N{i + 1:03d}" for i, n in enumerate(names)}
+    for c in b.components:
+        for p in c.pads:
+            p.net = rename[p.net]
+    for t in b.traces + b.pours + b.vias:
+        t.net = rename[t.net]
+    proj = write_synth_project(b, tmp_path)
+    an = analyse(load_board(proj), proj)
+    assert [s.name for s in an.stages] == ["stage1"]
+    a, ref = values(an), values(tidy)
+    for q in ("hot_loop.area", "hot_loop.inductance", "input_cap.path_length", "sense.kelvin_error",
+              "path.switch_node.resistance", "switch_node.area"):
+        assert a[q].value == pytest.approx(ref[q].value, rel=1e-6, abs=1e-9), q

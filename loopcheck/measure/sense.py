@@ -30,7 +30,7 @@ from .netcopper import MeasureContext
 from .routes import Route, RouteError, route
 
 FEEDBACK_NAMES = re.compile(r"(^|[^A-Z])(FB|VFB|FEEDBACK|ISNS|CS|SENSE)(\d*|[^A-Z].*)?$", re.I)
-DC_MAX_CELLS = 300_000
+DC_MAX_CELLS = 150_000      # raster cap for the DC solve of one sense net
 _PRIORITY = ("inductor", "switch", "rectifier", "input_cap", "output_cap")
 _CONNECTOR = re.compile(r"^(J|P|CN|X|TP|CON|LED|D)\d", re.I)
 
