@@ -135,11 +135,12 @@ def run_check(board: str, deck: str | None, fail_on: str, progress: Progress):
     return CheckResult(analysis=analysis, evaluation=evaluation, project=project, fail_on=fail_on)
 
 
-def emit(result, pairs: list[tuple[str, str | None]]) -> None:
+def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None = None) -> None:
     """Render every report first, then write each one whole (temp file + os.replace)."""
     from ..report.common import write_atomic
 
-    rendered = [(renderer(fmt)(result), out) for fmt, out in pairs]
+    with (progress or Progress(False)).step("writing the reports"):
+        rendered = [(renderer(fmt)(result), out) for fmt, out in pairs]
     for text, out in rendered:
         if out is None:
             click.echo(text, nl=False)
@@ -175,5 +176,5 @@ def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tup
             check_writable(out)
     progress = Progress(enabled=not quiet and sys.stderr.isatty())
     result = run_check(board, deck, fail_on, progress)
-    emit(result, pairs)
+    emit(result, pairs, progress)
     sys.exit(1 if result.failed else 0)

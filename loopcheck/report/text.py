@@ -77,6 +77,9 @@ def render_text(result: CheckResult) -> str:
             lines.append(f"  {'':<8} {'':<28} waived: {f.waiver_reason}")
     if not result.findings:
         lines.append("  none")
+    else:
+        lines.append("  `loopcheck explain RULE` says what a rule measures, why it matters and how "
+                     "to fix it.")
     lines.append("")
 
     # The board's and the analysis's assumptions and each stage's operating point; those behind
