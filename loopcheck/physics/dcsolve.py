@@ -478,7 +478,14 @@ def choose_pitch_mm(
     minx, miny = bounds[:, 0].min(), bounds[:, 1].min()
     maxx, maxy = bounds[:, 2].max(), bounds[:, 3].max()
     extent = max(maxx - minx, maxy - miny)
-    widths = []
+    area = (maxx - minx) * (maxy - miny)
+    n_layers = sum(1 for g in geoms if not g.is_empty)
+    floor_h = math.sqrt(max(area, extent * extent / max_cells) * n_layers / max_cells)
+    ceil_h = extent / min_cells_along
+    # necks only matter between the cap's pitch and the coarsest pitch allowed
+    lower_w, upper_w = floor_h * cells_across, max(ceil_h * cells_across, floor_h * cells_across)
+    h = ceil_h
+    capped = False
     for k, g in enumerate(geoms):
         if g.is_empty:
             continue
@@ -493,17 +500,16 @@ def choose_pitch_mm(
             probe = shapely.union_all(probes)
             touched = [p for p in parts if p.distance(probe) <= 1e-9]
             parts = touched or parts
-        widths.append(narrowest_width_mm(shapely.MultiPolygon(parts) if len(parts) > 1 else parts[0]))
-    h = min(widths) / cells_across if widths else extent / min_cells_along
+        w = narrowest_width_mm(shapely.MultiPolygon(parts) if len(parts) > 1 else parts[0],
+                               lower_mm=lower_w, upper_mm=upper_w)
+        h = min(h, w / cells_across)
+        capped |= w <= lower_w * (1 + 1e-9)
     for c in contacts:
         cg = polygonal(c.geometry)
         if not cg.is_empty:
-            h = min(h, narrowest_width_mm(cg) / 3.0)
-    h = min(h, extent / min_cells_along)
-    area = (maxx - minx) * (maxy - miny)
-    n_layers = sum(1 for g in geoms if not g.is_empty)
-    floor_h = math.sqrt(max(area, extent * extent / max_cells) * n_layers / max_cells)
-    capped = h < floor_h
+            w = narrowest_width_mm(cg, lower_mm=3 * floor_h, upper_mm=3 * max(ceil_h, floor_h))
+            h = min(h, w / 3.0)
+            capped |= w <= 3 * floor_h * (1 + 1e-9)
     return (max(h, floor_h), capped)
 
 
@@ -545,9 +551,19 @@ def _nearest_active(grid: RasterGrid, active: np.ndarray, x: float, y: float, re
 
 
 def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
-                  active: np.ndarray, what: str):
-    """Cells of a polygonal region on copper: (flat indices, area weights of region & copper)."""
-    if geom.intersection(copper).area <= 0:
+                  active: np.ndarray, what: str, weights: bool = True):
+    """Cells of a polygonal region on copper.
+
+    Returns (cells, tap_cells, tap_weights), flat indices within the layer: ``cells`` are those
+    at least half inside the region (failing that, the ones it overlaps most), merged when the
+    region is equipotential; ``tap_cells`` are all copper cells it touches, with the covered
+    copper fraction as weight, for the mean potential under a floating tap.
+    """
+    h = grid.pitch_mm
+    minx, miny, maxx, maxy = geom.bounds
+    # clip the copper to the region's neighbourhood first: large pours make intersections slow
+    local = shapely.clip_by_rect(copper, minx - h, miny - h, maxx + h, maxy + h)
+    if not shapely.intersects(local, geom):
         raise ValueError(f"{what} lies outside the copper")
     i0, j0, cov = cell_coverage(geom, grid, window=True)
     ny, nx = cov.shape
@@ -560,14 +576,18 @@ def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
         pick = m >= m.max() * (1 - 1e-9)
     ii, jj = np.nonzero(pick)
     cells = (ii + i0) * grid.nx + (jj + j0)
-    inter = geom.intersection(copper)
+    if not weights:
+        return cells, cells, np.ones(len(cells))
+    # a sense tap averages over every cell it touches, weighted by the copper it covers there
+    inter = polygonal(geom.intersection(local))
+    if inter.is_empty:
+        return cells, cells, np.ones(len(cells))
     wi0, wj0, wcov = cell_coverage(inter, grid, window=True)
-    weights = np.zeros(len(cells))
-    ri, rj = ii + i0 - wi0, jj + j0 - wj0
-    ok = (ri >= 0) & (ri < wcov.shape[0]) & (rj >= 0) & (rj < wcov.shape[1])
-    weights[ok] = wcov[ri[ok], rj[ok]]
-    weights = np.where(weights > 0, weights, 1e-6)
-    return cells, weights
+    wact = active[wi0:wi0 + wcov.shape[0], wj0:wj0 + wcov.shape[1]]
+    wi, wj = np.nonzero((wcov > 0) & wact)
+    if len(wi) == 0:
+        return cells, cells, np.ones(len(cells))
+    return cells, (wi + wi0) * grid.nx + (wj + wj0), wcov[wi, wj]
 
 
 def solve_dc(
@@ -631,6 +651,7 @@ def solve_dc(
         g = polygonal(layer.geometry)
         if g.is_empty:
             raise ValueError(f"layers[{k}].geometry is empty (no copper area)")
+        shapely.prepare(g)  # many point-in-copper tests follow
         geoms.append(g)
         rs.append(_positive(layer.sheet_resistance_ohm, f"layers[{k}].sheet_resistance_ohm"))
     n_layers = len(layers)
@@ -734,7 +755,7 @@ def solve_dc(
         geom = c.geometry
         point = None
         if _is_point(geom):
-            if geoms[c.layer].distance(geom) > 1e-9:
+            if not shapely.intersects(geoms[c.layer], geom):
                 raise ValueError(f"{label} at ({geom.x:g}, {geom.y:g}) mm lies outside the copper")
             cell = _nearest_active(grid, actives[c.layer], geom.x, geom.y)
             if cell < 0:
@@ -746,12 +767,15 @@ def solve_dc(
             region = polygonal(geom)
             if region.is_empty:
                 region = geom.buffer(0.5 * h)
-            cells, weights = _region_cells(region, geoms[c.layer], grid, actives[c.layer], label)
+            cells, tap_cells, weights = _region_cells(region, geoms[c.layer], grid,
+                                                      actives[c.layer], label)
             cells = cells + off
         kind = "potential" if c.potential_v is not None else "current" if c.current_a is not None else "float"
         if equi:
             contact_group[c.name] = merger.add(cells, region)
             point = None
+        elif region is not None:
+            cells = tap_cells + off
         contact_info[c.name] = _ContactResult(kind, -1, c.layer, cells, weights, point)
 
     link_ends: list[tuple[object, object, float]] = []  # (group or cell, group or cell, R)
@@ -760,12 +784,13 @@ def solve_dc(
         for xy, layer, tag in ((ln.a_xy, ln.layer_a, "a"), (ln.b_xy, ln.layer_b, "b")):
             what = f"{ln.name} end {tag} at ({xy[0]:g}, {xy[1]:g}) mm on layer {layer}"
             pt = shapely.Point(xy)
-            if geoms[layer].distance(pt) > 1e-9:
+            if not shapely.intersects(geoms[layer], pt):
                 raise ValueError(f"{what} lies outside the copper")
             if ln.radius_mm > 0:
                 disk = pt.buffer(ln.radius_mm, quad_segs=16)
                 try:
-                    cells, _ = _region_cells(disk, geoms[layer], grid, actives[layer], what)
+                    cells, _, _ = _region_cells(disk, geoms[layer], grid, actives[layer], what,
+                                                weights=False)
                 except ValueError:
                     cells = np.array([_nearest_active(grid, actives[layer], *xy)])
                     if cells[0] < 0:

@@ -277,7 +277,12 @@ def _topology(parts) -> tuple[np.ndarray, np.ndarray]:
     return n_parts, holes
 
 
-def narrowest_width_mm(geometry: BaseGeometry, iterations: int = 10) -> float:
+def narrowest_width_mm(
+    geometry: BaseGeometry,
+    lower_mm: float | None = None,
+    upper_mm: float | None = None,
+    precision: float = 1.02,
+) -> float:
     """Width of the narrowest current-carrying neck of a polygonal geometry [mm].
 
     Found by erosion: the smallest inward offset d at which any part splits, vanishes or loses
@@ -287,7 +292,9 @@ def narrowest_width_mm(geometry: BaseGeometry, iterations: int = 10) -> float:
     Parameters
     ----------
     geometry : polygonal shapely geometry [mm]
-    iterations : bisection steps [-]
+    lower_mm, upper_mm : only resolve w within these bounds [mm]; a narrower neck returns
+        ``lower_mm``, a wider one ``upper_mm`` (saves erosions of a large geometry)
+    precision : stop when the bracket's ratio hi / lo is below this [-]
 
     Returns
     -------
@@ -307,9 +314,15 @@ def narrowest_width_mm(geometry: BaseGeometry, iterations: int = 10) -> float:
         n, holes = _topology(eroded)
         return bool(np.all(n == ref_parts) and np.all(holes == ref_holes))
 
+    if upper_mm is not None and upper_mm / 2 < hi:
+        if unchanged(upper_mm / 2):
+            return float(upper_mm)
+        hi = upper_mm / 2
+    if lower_mm is not None and lower_mm / 2 > lo:
+        lo = min(lower_mm / 2, hi)
     if not unchanged(lo):
         return 2.0 * lo
-    for _ in range(iterations):
+    while hi / lo > precision:
         mid = math.sqrt(lo * hi)
         if unchanged(mid):
             lo = mid
