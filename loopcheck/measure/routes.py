@@ -41,7 +41,8 @@ from .raster import Grid, rasterise
 
 ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
 MIN_PITCH_MM = 0.05
-MAX_PITCH_MM = 0.25
+MAX_PITCH_MM = 0.5     # coarser than this, thin traces drop out of the raster (the route is then not made)
+MAX_GRID_CELLS = 3_000_000   # raster cells of the bounding box over all layers (memory: about 30 B a cell)
 MAX_CELLS = 200_000    # raster cells of one net's copper over all its layers (speed: about 0.2 s a route)
 ATTRACT_GAIN = 3.0     # loop return: extra cost per mm away from the outgoing conductor
 ATTRACT_CAP_MM = 10.0
@@ -203,14 +204,16 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
             raise RouteError(f"net {net} has no copper near the terminals")
     layers = sorted(copper)
     area = sum(g.area for g in copper.values())
-    p = pitch_mm or choose_pitch(area)
     minx = min(g.bounds[0] for g in copper.values())
     miny = min(g.bounds[1] for g in copper.values())
     maxx = max(g.bounds[2] for g in copper.values())
     maxy = max(g.bounds[3] for g in copper.values())
+    p = pitch_mm or choose_pitch(area)
+    # the grid spans the bounding box on every layer: keep it bounded too (memory)
+    p = max(p, math.sqrt((maxx - minx) * (maxy - miny) * len(layers) / MAX_GRID_CELLS))
     grid = Grid.covering((minx, miny, maxx, maxy), p)
     masks = np.stack([rasterise(copper[l], grid) for l in layers])
-    edt = np.stack([ndimage.distance_transform_edt(m) * p for m in masks])
+    edt = np.stack([(ndimage.distance_transform_edt(m) * p).astype(np.float32) for m in masks])
     index = -np.ones(masks.shape, dtype=np.int64)
     nodes = np.argwhere(masks)
     index[masks] = np.arange(len(nodes))
