@@ -100,6 +100,7 @@ def test_input_caps_ranked_by_copper_path():
     # centreline 23 mm; the route may cut each of the two corners inside the 0.5 mm trace
     assert 23 - 2 * 0.5 <= rank[1]["path_length_mm"] <= 23.1
     assert ms["input_cap.straight_distance"].value == pytest.approx(3.0)
+    assert p.detail["ground_path_mm"] == pytest.approx(5.0, abs=0.1)      # C1.2 (7, 2) to D1.2 (12, 2)
     L = ms["input_cap.inductance"]
     assert L.value is not None and 0.5 < L.value < 10
 

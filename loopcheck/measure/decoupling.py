@@ -111,6 +111,14 @@ def measure_input_cap(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
         return out
     cg = min(cap_g, key=lambda p: math.hypot(p.x_mm - gpad.x_mm, p.y_mm - gpad.y_mm))
     try:
+        rg = route(ctx, cg, gpad)
+        out[0].detail["ground_path_mm"] = rg.length_mm
+        out[0].detail["ground_terminals"] = [cg.terminal, gpad.terminal]
+        out[0].drawings.append(polyline(rg.points))
+    except RouteError as exc:
+        out[0].detail["ground_path_mm"] = None
+        out[0].detail["ground_not_routed"] = str(exc)
+    try:
         loop = build_loop(ctx, (cap_pad.terminal, end.terminal, gpad.terminal, cg.terminal))
         L, lnotes, det = loop_inductance(ctx, loop)
     except RouteError as exc:
