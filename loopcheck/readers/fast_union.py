@@ -61,6 +61,24 @@ def union_many(geoms) -> BaseGeometry:
     return _collect(out)
 
 
+def add(acc: BaseGeometry, merged: BaseGeometry) -> BaseGeometry:
+    """acc union merged, with the binary union done only on the parts of acc that merged reaches."""
+    if acc.is_empty:
+        return merged
+    if merged.is_empty:
+        return acc
+    parts = np.asarray(polygons_of(acc), dtype=object)
+    adders = np.asarray(polygons_of(merged), dtype=object)
+    tree = shapely.STRtree(parts)
+    hit = np.unique(tree.query(adders)[1])
+    keep = np.ones(len(parts), dtype=bool)
+    keep[hit] = False
+    if len(hit) == 0:
+        return _collect(parts.tolist() + adders.tolist())
+    joined = shapely.union(_collect(parts[hit].tolist()), merged)
+    return _collect(parts[keep].tolist() + polygons_of(joined))
+
+
 def cut(acc: BaseGeometry, merged: BaseGeometry) -> BaseGeometry:
     """acc minus merged, computing differences only for the parts of acc that merged reaches."""
     if acc.is_empty or merged.is_empty:
