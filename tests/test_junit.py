@@ -74,3 +74,12 @@ def test_unused_waiver_is_a_board_case(tmp_path):
     board = next(s for s in xml if s.name.endswith(".board"))
     case = next(c for c in board if c.name == "unused-waiver")
     assert isinstance(case.result[0], Failure)
+
+
+def test_board_cases_skip_without_netlist_or_when_off(tmp_path):
+    r = make_result("tidy")
+    r.analysis.connectivity_checked = False
+    xml = parse(tmp_path, r)
+    board = next(s for s in xml if s.name.endswith(".board"))
+    for case in board:
+        assert isinstance(case.result[0], Skipped) and "no netlist" in case.result[0].message

@@ -36,7 +36,9 @@ def render_junit(result: CheckResult) -> str:
         if rule.kind == "project" and not fs:
             continue
         skip = None
-        if rule.name.startswith("netlist-") and not result.analysis.connectivity_checked:
+        if not rule.enabled:
+            skip = "rule switched off in the deck"
+        elif rule.name.startswith("netlist-") and not result.analysis.connectivity_checked:
             skip = "no netlist: connectivity not checked"
         board_cases.append((rule.name, rule.name, fs, skip))
     for f in ev.findings:                    # findings of rules the deck does not list
