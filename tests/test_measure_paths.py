@@ -145,3 +145,12 @@ def test_rms_currents_of_a_boost_and_its_switch_current():
     assert cur["output"] == pytest.approx(il * math.sqrt(1 - d))     # the rectifier's RMS current
     i_sw, v_sw, _ = switch_current(st, st.operating_point)
     assert i_sw == pytest.approx(il) and v_sw == 24
+
+
+@pytest.mark.parametrize("text, value", [("0.068", 0.068), ("68m", 0.068), ("68mR", 0.068), ("0R068", 0.068),
+                                         ("10uF", 10e-6), ("4u7", 4.7e-6), ("2.2k", 2200.0), ("100nF", 100e-9),
+                                         ("1R5", 1.5), ("junk", None), (None, None)])
+def test_part_values(text, value):
+    from loopcheck.measure.common import parse_value
+    got = parse_value(text)
+    assert got == (None if value is None else pytest.approx(value))
