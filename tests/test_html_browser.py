@@ -136,3 +136,21 @@ def test_demo_report_renders_with_a_marker_per_finding(driver, tmp_path):
     first = markers[0]
     fid = first.get_attribute("data-finding")
     assert driver.find_element(By.ID, fid).tag_name == "tr"
+
+
+@pytest.mark.browser
+def test_diff_html_renders_in_chromium(driver, tmp_path):
+    from selenium.webdriver.common.by import By
+
+    from loopcheck.compare import compare
+    from loopcheck.report.diff import DiffResult, render_diff_html
+
+    a, b = make_result("tidy"), make_result("sprawl")
+    d = DiffResult(a, b, compare(a.analysis.measurements, b.analysis.measurements,
+                                 a.findings, b.findings))
+    page = tmp_path / "diff.html"
+    page.write_text(render_diff_html(d), encoding="utf-8")
+    driver.get(page.as_uri())
+    assert [x for x in driver.get_log("browser") if x.get("level") in ("SEVERE", "WARNING")] == []
+    for side in ("board-old", "board-new"):
+        assert driver.find_element(By.ID, side).find_elements(By.CSS_SELECTOR, "polygon.hot-loop")
