@@ -50,6 +50,7 @@ def parse_value(text: str | float | None) -> float | None:
         return float(text)
     s = str(text).strip().replace(" ", "").replace("Ω", "").replace("ohm", "").replace("Ohm", "")
     s = re.sub(r"(?i)(F|H|V|A)$", "", s)
+    s = re.sub(r"(?<=[fpnuµmkKM])[Rr]$", "", s)        # "68mR": the R only says ohms
     m = re.fullmatch(r"([0-9]*\.?[0-9]+(?:[eE][-+]?[0-9]+)?)([fpnuµmkKMRr]?)", s)
     if m:
         return float(m.group(1)) * _PREFIX[m.group(2)]
