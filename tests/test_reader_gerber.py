@@ -3,6 +3,7 @@ corpus of real files checked against two outside renderers (gerbv, pygerber)."""
 
 from __future__ import annotations
 
+import functools
 import math
 import os
 from pathlib import Path
@@ -433,9 +434,19 @@ def corpus_file(rel: str) -> Path:
     return p
 
 
+@functools.lru_cache(maxsize=None)
+def _read_cached(path: str):
+    return read_gerber(path)
+
+
+def read_corpus(rel: str):
+    """One read per corpus file for the whole test session (the reads are the slow part)."""
+    return _read_cached(str(corpus_file(rel)))
+
+
 @pytest.mark.parametrize("rel", CORPUS_COPPER)
 def test_corpus_copper_reads(rel):
-    layer = read_gerber(corpus_file(rel))
+    layer = read_corpus(rel)
     assert layer.geometry.is_valid and layer.geometry.area > 0
     assert layer.object_count > 0
 
@@ -446,7 +457,7 @@ def test_corpus_area_agrees_with_gerbv(rel):
     if not ref.gerbv_available():
         pytest.skip("gerbv not installed (Debian package gerbv)")
     p = corpus_file(rel)
-    layer = read_gerber(p)
+    layer = read_corpus(rel)
     x0, y0, x1, y1 = layer.geometry.bounds
     dpi = ref.choose_dpi(x1 - x0, y1 - y0, max_pixels=16e6)
     expect = ref.gerbv_area_mm2(p, dpi)
@@ -460,14 +471,14 @@ def test_corpus_area_agrees_with_pygerber(rel):
     if not ref.pygerber_available():
         pytest.skip("pygerber not installed")
     p = corpus_file(rel)
-    layer = read_gerber(p)
+    layer = read_corpus(rel)
     expect = ref.pygerber_area_mm2(p, dpmm=40)
     assert ref.relative_difference(layer.geometry.area, expect) < BAND, \
         f"{ref.PYGERBER_NAME}: {expect:.3f} mm2, loopcheck {layer.geometry.area:.3f} mm2"
 
 
 def test_corpus_x2_net_attributes():
-    layer = read_gerber(corpus_file("zero-length-lines/charliewatch-v2.panel-F_Cu.gbr"))
+    layer = read_corpus("zero-length-lines/charliewatch-v2.panel-F_Cu.gbr")
     assert layer.attributes["FileFunction"] == "Copper,L1,Top"
     assert "Board_0-GND" in layer.net_copper
     assert all(not g.is_empty for g in layer.net_copper.values())

@@ -124,7 +124,7 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
             if parser.lineno is not None and 0 < parser.lineno <= len(origin):
                 line = origin[parser.lineno - 1]
             cause = e.__cause__ or e
-            detail = str(cause).split('": ', 1)[-1]
+            detail = " ".join(str(cause).split('": ', 1)[-1].split())[:300]
             raise InputError(f"Excellon syntax error: {detail}", path=str(path), line=line) from None
     if len(parser.objects) > limits.max_objects_per_layer:
         raise InputError(f"more than {limits.max_objects_per_layer} holes in one file (limit)", path=str(path))

@@ -128,6 +128,19 @@ class _Parser(GerberParser):
         self.rotation_deg = 0.0
         self.scale = 1.0
         self.aperture_transform = None
+        self.notes: list[str] = []
+        self.more_notes = 0
+        self.missing_eof = False
+
+    # -- warnings: kept on the parser (a few, for the layer's notes), not through the warnings
+    #    module: some files raise one per coordinate statement
+    def warn(self, msg, kls=SyntaxWarning):
+        if "missing mandatory M02" in msg:
+            self.missing_eof = True
+        elif len(self.notes) < 20:
+            self.notes.append(f"line {self.lineno}: {msg}")
+        else:
+            self.more_notes += 1
 
     # -- step and repeat: record blocks, expand later (and only after the count check)
     def _close_sr(self):
@@ -263,9 +276,8 @@ def _parse(path: Path, text: str, limits: InputLimits) -> tuple[GerberFile, _Par
     target = GerberFile()
     parser = _Parser(target, limits)
     target.objects = _ObjectList(parser)
-    notes: list[str] = []
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")      # the parser's own warnings go to parser.notes
         try:
             parser.parse(text, filename=path.name)
             parser._close_sr()
@@ -275,23 +287,26 @@ def _parse(path: Path, text: str, limits: InputLimits) -> tuple[GerberFile, _Par
             cause = e.__cause__
             if isinstance(cause, _LimitExceeded):
                 raise InputError(str(cause), path=str(path), line=_line_of(e, parser)) from None
-            detail = str(cause) if cause is not None else str(e)
+            detail = _one_line(str(cause) if cause is not None else str(e))
             raise InputError(f"Gerber syntax error: {detail}", path=str(path),
                              line=_line_of(e, parser)) from None
         except RecursionError:
             raise InputError("Gerber file too deeply nested", path=str(path)) from None
         except Exception as e:  # gerbonara raises assorted types on malformed input
-            raise InputError(f"cannot parse Gerber: {type(e).__name__}: {e}", path=str(path),
-                             line=parser.lineno or None) from None
-    for w in caught:
-        msg = str(w.message)
-        if "missing mandatory M02" in msg:
-            raise InputError("Gerber file ends without M02: truncated or incomplete", path=str(path))
-        if issubclass(w.category, (SyntaxWarning, UserWarning)) and "Unknown statement" in msg:
-            notes.append(msg.split(": ", 1)[-1])
+            raise InputError(f"cannot parse Gerber: {type(e).__name__}: {_one_line(str(e))}",
+                             path=str(path), line=parser.lineno or None) from None
+    if parser.missing_eof:
+        raise InputError("Gerber file ends without M02: truncated or incomplete", path=str(path))
+    notes = list(parser.notes)
+    if parser.more_notes:
+        notes.append(f"... and {parser.more_notes} more parser warnings")
     if target.unit is None and len(target.objects) == 0 and "%FS" not in text and "%MO" not in text:
         raise InputError("not a Gerber file (no format or unit statement, no graphics)", path=str(path))
-    return target, parser, notes[:20]
+    return target, parser, notes
+
+
+def _one_line(text: str) -> str:
+    return " ".join(text.split())[:300]
 
 
 def _line_of(e: Exception, parser: _Parser) -> int | None:
