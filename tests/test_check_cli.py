@@ -308,3 +308,17 @@ def test_demo_reports_validate(tmp_path):
         if (BOARDS / name / "loopcheck.toml").exists():
             r = _demo("check", str(BOARDS / name), "--format", "json")
             jsonschema.validate(json.loads(r.output), schema)
+
+
+def test_pair_outputs_in_order():
+    assert check_cmd.pair_outputs(("sarif", "junit", "text"), ("a.sarif", "a.xml")) == \
+        [("sarif", "a.sarif"), ("junit", "a.xml"), ("text", None)]
+    assert check_cmd.pair_outputs((), ()) == [("text", None)]
+    assert check_cmd.pair_outputs(("json", "text"), ("-", "t.txt")) == \
+        [("json", None), ("text", "t.txt")]
+    import click
+
+    with pytest.raises(click.UsageError, match="only one"):
+        check_cmd.pair_outputs(("json", "text"), ("-",))
+    with pytest.raises(click.UsageError, match="given twice"):
+        check_cmd.pair_outputs(("json", "text"), ("r", "r"))

@@ -73,18 +73,19 @@ def pair_outputs(formats: tuple[str, ...], outputs: tuple[str, ...]) -> list[tup
     if len(outputs) > len(formats):
         raise click.UsageError(f"{len(outputs)} --output given for {len(formats)} --format: "
                                "give one --format per --output, in the same order")
-    pairs = [(f, outputs[i] if i < len(outputs) else None) for i, f in enumerate(formats)]
+    pairs = [(f, outputs[i] if i < len(outputs) and outputs[i] != "-" else None)
+             for i, f in enumerate(formats)]
     if sum(1 for _, o in pairs if o is None) > 1:
         raise click.UsageError("only one --format can go to standard output; give the others "
                                "an --output PATH")
     seen: set[str] = set()
     for _, o in pairs:
-        if o is not None and o != "-":
+        if o is not None:
             key = os.path.abspath(o)
             if key in seen:
                 raise click.UsageError(f"--output {o} given twice")
             seen.add(key)
-    return [(f, None if o == "-" else o) for f, o in pairs]
+    return pairs
 
 
 def check_writable(path: str) -> None:
