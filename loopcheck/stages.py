@@ -135,6 +135,42 @@ class StageSearch:
     messages: list[str] = field(default_factory=list)
 
 
+def _key_line(path: str | None, dotted: str) -> int | None:
+    """The line of ``dotted`` (``stages.led.switch``) in the project file, best effort: the key
+    under its table header, else the header itself. None when it cannot be found."""
+    if not path:
+        return None
+    try:
+        lines = Path(path).read_text(encoding="utf-8").splitlines()
+    except (OSError, UnicodeDecodeError):
+        return None
+    parts = dotted.split(".")
+    for split in range(len(parts) - 1, -1, -1):
+        table, rest = parts[:split], parts[split:]
+        header = None
+        if table:
+            pat = re.compile(r"\s*\[\s*" + r"\s*\.\s*".join(r'(?:"?' + re.escape(t) + r'"?)' for t in table)
+                             + r"\s*\]\s*(#.*)?$")
+            header = next((i for i, line in enumerate(lines) if pat.match(line)), None)
+            if header is None:
+                continue
+        start = 0 if header is None else header + 1
+        key_pat = re.compile(r"\s*" + r"\s*\.\s*".join(r'"?' + re.escape(k) + r'"?' for k in rest) + r"\s*=")
+        for i in range(start, len(lines)):
+            if i > start - 1 and lines[i].lstrip().startswith("[") and i != header:
+                break
+            if key_pat.match(lines[i]):
+                return i + 1
+        if header is not None:
+            return header + 1
+    return None
+
+
+def _project_error(path: str | None, dotted: str, message: str) -> InputError:
+    """An InputError naming the project file, the key and, where it can be found, its line."""
+    return InputError(message, path=path, line=_key_line(path, dotted))
+
+
 # --------------------------------------------------------------------------------------------
 # Operating point
 
@@ -154,7 +190,7 @@ _OP_KEYS = {
 
 def _number(value: Any, key: str, path: str | None) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-        raise InputError(f"{key}: expected a number, got {value!r}", path=path)
+        raise _project_error(path, key, f"{key}: expected a number, got {value!r}")
     return float(value)
 
 
@@ -174,27 +210,27 @@ def operating_point(project: Project, stage_name: str) -> OperatingPoint:
         for key, value in values.items():
             full = f"{section}.{key}"
             if key not in _OP_KEYS:
-                raise InputError(f"unknown key {full}", path=path)
+                raise _project_error(path, full, f"unknown key {full}")
             if key == "vin_v":
                 if isinstance(value, (list, tuple)):
                     if len(value) != 2:
-                        raise InputError(f"{full}: expected [min, max] or one number", path=path)
+                        raise _project_error(path, full, f"{full}: expected [min, max] or one number")
                     lo, hi = (_number(v, full, path) for v in value)
                     if lo > hi:
-                        raise InputError(f"{full}: minimum {lo} above maximum {hi}", path=path)
+                        raise _project_error(path, full, f"{full}: minimum {lo} above maximum {hi}")
                 else:
                     lo = hi = _number(value, full, path)
                 if lo <= 0:
-                    raise InputError(f"{full}: input voltage must be positive", path=path)
+                    raise _project_error(path, full, f"{full}: input voltage must be positive")
                 op.vin_min_v, op.vin_max_v = lo, hi
                 sources["vin_min_v"] = sources["vin_max_v"] = f"loopcheck.toml [{section}]"
                 continue
             name, scale = _OP_KEYS[key]
             number = _number(value, full, path)
             if key in ("iout_a", "fsw_hz", "edge_ns", "switch_capacitance_pf") and number <= 0:
-                raise InputError(f"{full}: must be positive, got {value!r}", path=path)
+                raise _project_error(path, full, f"{full}: must be positive, got {value!r}")
             if key == "ripple_ratio" and not 0 <= number <= 2:
-                raise InputError(f"{full}: expected 0..2, got {value!r}", path=path)
+                raise _project_error(path, full, f"{full}: expected 0..2, got {value!r}")
             setattr(op, name, number * scale)
             sources[name] = f"loopcheck.toml [{section}]"
     op.sources = sources
@@ -316,45 +352,49 @@ def _validate_spec(spec, nl: _Netlist, path: str | None) -> dict[str, Any]:
     for key, value in roles.items():
         full = f"{prefix}.{key}"
         if key not in _ROLE_KEYS:
-            raise InputError(f"unknown key {full}", path=path)
+            raise _project_error(path, full, f"unknown key {full}")
         if key == "topology":
             if value not in TOPOLOGIES:
-                raise InputError(f"{full}: expected one of {', '.join(TOPOLOGIES)}, got {value!r}", path=path)
+                raise _project_error(path, full, f"{full}: expected one of {', '.join(TOPOLOGIES)}, got {value!r}")
             continue
         if key in _NET_KEYS:
             if not isinstance(value, str):
-                raise InputError(f"{full}: expected a net name", path=path)
+                raise _project_error(path, full, f"{full}: expected a net name")
             if value not in nl.board.nets:
-                raise InputError(f"{full}: no net {value!r} on the board", path=path)
+                raise _project_error(path, full, f"{full}: no net {value!r} on the board")
             continue
         refs = value if key in _LIST_KEYS else [value]
         if key in _LIST_KEYS and not isinstance(value, list):
-            raise InputError(f"{full}: expected a list of references", path=path)
+            raise _project_error(path, full, f"{full}: expected a list of references")
         for ref in refs:
             if not isinstance(ref, str):
-                raise InputError(f"{full}: expected a reference designator, got {ref!r}", path=path)
+                raise _project_error(path, full, f"{full}: expected a reference designator, got {ref!r}")
             if ref not in nl.parts:
-                raise InputError(f"{full}: no component {ref!r} on the board", path=path)
+                raise _project_error(path, full, f"{full}: no component {ref!r} on the board")
             if ref in seen and not (key in shareable and seen[ref] in shareable and nl.parts[ref].kind == "ic"):
-                raise InputError(f"{full}: {ref} is already named as {prefix}.{seen[ref]}", path=path)
+                raise _project_error(path, full, f"{full}: {ref} is already named as {prefix}.{seen[ref]}")
             seen.setdefault(ref, key)
     if "inductor" in roles and len(nl.parts[roles["inductor"]].nets) != 2:
-        raise InputError(f"{prefix}.inductor: {roles['inductor']} has {len(nl.parts[roles['inductor']].nets)} "
-                         "connected nets; an inductor has two", path=path)
+        raise _project_error(path, f"{prefix}.inductor",
+                             f"{prefix}.inductor: {roles['inductor']} has {len(nl.parts[roles['inductor']].nets)} "
+                             "connected nets; an inductor has two")
     sw = roles.get("switch_node")
     if sw is not None and "inductor" in roles:
         if sw not in nl.parts[roles["inductor"]].nets:
-            raise InputError(f"{prefix}.switch_node: net {sw!r} does not touch the inductor "
-                             f"{roles['inductor']} (its nets: {', '.join(sorted(nl.parts[roles['inductor']].nets))})",
-                             path=path)
+            raise _project_error(path, f"{prefix}.switch_node",
+                                 f"{prefix}.switch_node: net {sw!r} does not touch the inductor "
+                                 f"{roles['inductor']} (its nets: "
+                                 f"{', '.join(sorted(nl.parts[roles['inductor']].nets))})")
     if sw is not None:
         for key in ("switch", "rectifier"):
             if key in roles and sw not in nl.parts[roles[key]].nets:
-                raise InputError(f"{prefix}.{key}: {roles[key]} has no pin on the switch node {sw!r}", path=path)
+                raise _project_error(path, f"{prefix}.{key}",
+                                     f"{prefix}.{key}: {roles[key]} has no pin on the switch node {sw!r}")
     if sw is not None:
         for key in ("input_net", "output_net", "ground_net"):
             if roles.get(key) == sw:
-                raise InputError(f"{prefix}.{key}: {sw!r} is already named as {prefix}.switch_node", path=path)
+                raise _project_error(path, f"{prefix}.{key}",
+                                     f"{prefix}.{key}: {sw!r} is already named as {prefix}.switch_node")
     return roles
 
 
@@ -1265,8 +1305,9 @@ class _Detector:
             if ind_part is None and sw is not None:
                 inds = nl.on(sw, "inductor")
                 if not inds:
-                    raise InputError(f"stages.{spec.name}.switch_node: net {sw!r} joins no inductor "
-                                     "(name the inductor too)", path=self.path)
+                    raise _project_error(self.path, f"stages.{spec.name}.switch_node",
+                                         f"stages.{spec.name}.switch_node: net {sw!r} joins no inductor "
+                                         "(name the inductor too)")
                 ind_part = inds[0]
             if sw is None or ind_part is None:
                 self.messages.append(
@@ -1274,8 +1315,9 @@ class _Detector:
                     "switch_node and inductor to define it")
                 continue
             if sw not in ind_part.nets:
-                raise InputError(f"stages.{spec.name}.switch_node: net {sw!r} does not touch the inductor "
-                                 f"{ind_part.ref}", path=self.path)
+                raise _project_error(self.path, f"stages.{spec.name}.switch_node",
+                                     f"stages.{spec.name}.switch_node: net {sw!r} does not touch the inductor "
+                                     f"{ind_part.ref}")
             stages.append(self.build(spec.name, sw, ind_part, "", ["named in loopcheck.toml"], f))
         return stages
 

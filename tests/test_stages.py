@@ -313,6 +313,20 @@ def test_contradictory_roles(roles_, key):
     assert key in str(err.value)
 
 
+def test_key_lines_in_the_project_file(tmp_path):
+    from loopcheck.stages import _key_line
+
+    f = tmp_path / "loopcheck.toml"
+    f.write_text('[board]\nname = "x"\n\n[operating_point]\niout_a = 1\n\n[stages.led]\nswitch = "Q1"\n'
+                 '[stages.led.operating_point]\nfsw_hz = 1\n[stages."odd name"]\ninductor = "L1"\n')
+    assert _key_line(str(f), "operating_point.iout_a") == 5
+    assert _key_line(str(f), "stages.led.switch") == 8
+    assert _key_line(str(f), "stages.led.operating_point.fsw_hz") == 10
+    assert _key_line(str(f), "stages.odd name.inductor") == 12
+    assert _key_line(str(f), "stages.led.rectifier") == 7         # not there: its table's header
+    assert _key_line(None, "stages.led.switch") is None
+
+
 def test_operating_point_defaults_and_errors():
     op = operating_point(project(), "stage1")
     assert all(v == "default" for v in op.sources.values())
@@ -425,6 +439,7 @@ def test_cli_bad_inputs(tmp_path):
     r = run_cli("stages", proj)
     assert r.exit_code == 2
     assert "stages.s.input_caps" in r.output and "Traceback" not in r.output
+    assert "loopcheck.toml:5:" in r.output                 # the line of the contradicting key
     assert len(r.output.strip().splitlines()) == 1
 
 
