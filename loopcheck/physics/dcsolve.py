@@ -510,7 +510,7 @@ def choose_pitch_mm(
             w = narrowest_width_mm(cg, lower_mm=3 * floor_h, upper_mm=3 * max(ceil_h, floor_h))
             h = min(h, w / 3.0)
             capped |= w <= 3 * floor_h * (1 + 1e-9)
-    return (max(h, floor_h), capped)
+    return float(max(h, floor_h)), bool(capped)
 
 
 # ---------------------------------------------------------------------------------------
@@ -560,11 +560,13 @@ def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
     copper fraction as weight, for the mean potential under a floating tap.
     """
     h = grid.pitch_mm
-    minx, miny, maxx, maxy = geom.bounds
-    # clip the copper to the region's neighbourhood first: large pours make intersections slow
-    local = shapely.clip_by_rect(copper, minx - h, miny - h, maxx + h, maxy + h)
-    if not shapely.intersects(local, geom):
-        raise ValueError(f"{what} lies outside the copper")
+    if weights:
+        minx, miny, maxx, maxy = geom.bounds
+        # clip the copper to the region's neighbourhood first: intersections with large pours
+        # are slow
+        local = shapely.clip_by_rect(copper, minx - h, miny - h, maxx + h, maxy + h)
+        if not shapely.intersects(local, geom):
+            raise ValueError(f"{what} lies outside the copper")
     i0, j0, cov = cell_coverage(geom, grid, window=True)
     ny, nx = cov.shape
     act = active[i0:i0 + ny, j0:j0 + nx]
@@ -847,6 +849,8 @@ def solve_dc(
 
     # ---- assemble ----------------------------------------------------------------------
     rows_l, cols_l, g_l = [], [], []
+    group_geom = np.empty(len(merger.group_geom), dtype=object)
+    group_geom[:] = merger.group_geom
     idx = np.arange(n_cells).reshape(ny, nx)
     xc, yc = grid.x_centres_mm, grid.y_centres_mm
     for k in range(n_layers):
@@ -867,9 +871,8 @@ def solve_dc(
                 q_xy = np.column_stack([xc[eq % nx], yc[eq // nx]])
                 segs = shapely.linestrings(np.stack([p_xy, q_xy], axis=1))
                 for side in (gp[edge], gq[edge]):
-                    for gi in np.unique(side[side >= 0]):
-                        s = side == gi
-                        inside[s] += shapely.length(shapely.intersection(segs[s], merger.group_geom[gi]))
+                    s = side >= 0
+                    inside[s] += shapely.length(shapely.intersection(segs[s], group_geom[side[s]]))
                 d = np.clip(h - inside, 0.05 * h, h)
                 gg[edge] *= h / d
             rows_l.append(npn)

@@ -281,7 +281,7 @@ def narrowest_width_mm(
     geometry: BaseGeometry,
     lower_mm: float | None = None,
     upper_mm: float | None = None,
-    precision: float = 1.02,
+    precision: float = 1.05,
 ) -> float:
     """Width of the narrowest current-carrying neck of a polygonal geometry [mm].
 
@@ -315,13 +315,21 @@ def narrowest_width_mm(
         return bool(np.all(n == ref_parts) and np.all(holes == ref_holes))
 
     if upper_mm is not None and upper_mm / 2 < hi:
-        if unchanged(upper_mm / 2):
-            return float(upper_mm)
         hi = upper_mm / 2
     if lower_mm is not None and lower_mm / 2 > lo:
         lo = min(lower_mm / 2, hi)
     if not unchanged(lo):
         return 2.0 * lo
+    # climb from the small offsets up (large erosions of big pours are slow), then bisect
+    while True:
+        step = min(lo * 4.0, hi)
+        if unchanged(step):
+            lo = step
+            if step >= hi:
+                return 2.0 * hi
+        else:
+            hi = step
+            break
     while hi / lo > precision:
         mid = math.sqrt(lo * hi)
         if unchanged(mid):
