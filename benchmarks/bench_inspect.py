@@ -64,7 +64,9 @@ def measure_one(target: str) -> dict:
         "copper_mb_per_s": copper_bytes / 1e6 / max(t2 - t1, 1e-9),
         "findings": len(result.findings),
         "checked": result.checked,
-        "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0,
+        # copper layers may be read in worker processes: the peak is the larger of ours and theirs
+        "peak_mb": max(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
+                       resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss) / 1024.0,
     }
 
 

@@ -12,6 +12,11 @@ Pad layers from IPC-D-356 access codes: 0 (and any point with a drilled hole) ->
 from __future__ import annotations
 
 import dataclasses
+import multiprocessing
+import os
+import pickle
+from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 
 import numpy as np
 import shapely
@@ -41,6 +46,48 @@ def load_board(project: Project, limits: InputLimits = DEFAULT_LIMITS) -> Board:
         return _load(project, fab, limits)
 
 
+# Copper layers are read in parallel processes (one per core) when there is enough to read: the
+# Gerber parse is pure Python and a 14-layer board spends a minute in it on one core.
+PARALLEL_MIN_BYTES = 300_000
+
+
+def _read_one(args) -> tuple:
+    """Worker: read one copper layer; an InputError comes back as data (it keeps path and line)."""
+    from .readers.gerber import read_gerber
+
+    path, limits = args
+    try:
+        return ("ok", read_gerber(path, limits))
+    except InputError as exc:
+        return ("error", exc.detail, exc.path, exc.line)
+
+
+def _read_copper_layers(fab: FabSet, limits: InputLimits) -> list:
+    paths = [path for path, _ in fab.copper]
+    sizes = [os.path.getsize(p) for p in paths]
+    workers = min(len(paths), os.cpu_count() or 1)
+    results = None
+    if workers > 1 and sum(sizes) >= PARALLEL_MIN_BYTES and "fork" in multiprocessing.get_all_start_methods():
+        order = sorted(range(len(paths)), key=lambda k: -sizes[k])      # largest first
+        try:
+            with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
+                done = list(pool.map(_read_one, [(str(paths[k]), limits) for k in order]))
+            results = [None] * len(paths)
+            for k, res in zip(order, done):
+                results[k] = res
+        except (BrokenProcessPool, OSError, pickle.PicklingError):
+            results = None       # no pool here (sandbox, memory): read them one by one
+    if results is None:
+        results = [_read_one((str(p), limits)) for p in paths]
+    out = []
+    for path, res in zip(paths, results):
+        if res[0] == "error":
+            _, detail, epath, line = res
+            raise InputError(detail, path=fab.error_name(epath or path), line=line)
+        out.append(res[1])
+    return out
+
+
 def _reraise(fab: FabSet, exc: InputError) -> InputError:
     """The same error, naming the file as the user knows it (not the temporary copy of a zip)."""
     if exc.path is None:
@@ -49,7 +96,7 @@ def _reraise(fab: FabSet, exc: InputError) -> InputError:
 
 
 def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
-    from .readers.gerber import read_gerber, read_profile
+    from .readers.gerber import read_profile
 
     assumptions: list[str] = []
     inputs: dict[str, str] = {}
@@ -58,11 +105,7 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
 
     # copper
     raw_layers = []
-    for path, index in fab.copper:
-        try:
-            gl = read_gerber(path, limits)
-        except InputError as exc:
-            raise _reraise(fab, exc) from None
+    for (path, index), gl in zip(fab.copper, _read_copper_layers(fab, limits)):
         raw_layers.append((path, index, gl))
         inputs[fab.relname(path)] = f"copper layer {index + 1} ({names[index]}): {fab.how.get(path, '')}"
 

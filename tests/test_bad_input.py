@@ -174,3 +174,17 @@ def test_syntax_error_file_from_the_corpus(tmp_path):
     folder.mkdir()
     (folder / "x.gtl").write_text(src.read_text())
     inspect_fails(folder, folder, "x.gtl")
+
+
+def test_errors_from_parallel_layer_reads_keep_file_and_line(board, monkeypatch):
+    import loopcheck.load as load
+
+    folder, paths = board
+    monkeypatch.setattr(load, "PARALLEL_MIN_BYTES", 0)      # read the layers in worker processes
+    b = load_board(load_project(folder))
+    assert [layer.name for layer in b.layers] == ["top", "bottom"] and b.layers[1].copper_area_mm2 > 0
+    text = paths["L2"].read_text()
+    paths["L2"].write_text(text[: len(text) // 2])
+    with pytest.raises(InputError) as info:
+        load_board(load_project(folder))
+    assert info.value.path == str(paths["L2"])
