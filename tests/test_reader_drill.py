@@ -111,6 +111,14 @@ def test_g85_slot(tmp_path):
     assert slot.diameter_mm == 1.0 and hole.end is None and (hole.x_mm, hole.y_mm) == (7.0, 7.0)
 
 
+def test_routed_arc_becomes_a_chord_slot(tmp_path):
+    text = "M48\nMETRIC\nT1C1.0\n%\nT1\nG00X0.0Y0.0\nM15\nG02X5.0Y5.0I5.0J0.0\nM16\nG05\nM30\n"
+    d = read_excellon(drill(tmp_path, text))
+    (slot,) = d.holes
+    assert (slot.x_mm, slot.y_mm, slot.end) == (0.0, 0.0, (5.0, 5.0))
+    assert d.notes and "chord" in d.notes[0]
+
+
 def test_bad_statement_gives_line(tmp_path):
     text = "M48\nMETRIC\nT1C1.0\n%\nT1\nX1.0Y1.0G85X5.0Y1.0\nT7\nM30\n"
     p = drill(tmp_path, text)

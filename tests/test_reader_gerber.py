@@ -208,6 +208,14 @@ def test_negative_image(tmp_path):
     assert framed.geometry.area == pytest.approx(200.0 - 8.0, rel=1e-12)
 
 
+def test_negative_copper_by_x2_file_polarity(tmp_path):
+    # a plane layer drawn as its clearances: %TF.FilePolarity,Negative% on a copper layer
+    header = "%FSLAX46Y46*%\n%MOMM*%\n%TF.FileFunction,Copper,L2,Inr*%\n%TF.FilePolarity,Negative*%\n"
+    body = f"%ADD10C,1*%\nD10*\nX0Y0D03*"
+    layer = read_gerber(gerber(tmp_path, body, header=header), negative_extent=shapely.box(-5, -5, 5, 5))
+    assert layer.negative and layer.geometry.area == pytest.approx(100 - math.pi * 0.25, rel=1e-9)
+
+
 def test_inch_file_is_converted_to_mm(tmp_path):
     header = "%FSLAX25Y25*%\n%MOIN*%\n"
     layer = read_gerber(gerber(tmp_path, "%ADD10R,0.1X0.2*%\nD10*\nX100000Y0D03*", header=header))

@@ -3,7 +3,8 @@
 gerbonara's ``ExcellonParser`` does the parsing (number formats, units, tool tables, routed slots
 G00 / M15 / G01 / M16). This module adds what it lacks:
   * G85 canned slots (``X..Y..G85X..Y..``), rewritten before parsing into the routed form
-    gerbonara understands (line numbers in errors still point at the original file);
+    gerbonara understands (line numbers in errors still point at the original file); routed
+    arcs (G02/G03, which gerbonara 1.5.0 fails on) become straight slots along their chords;
   * plating from X2-style comments (``; #@! TF.FileFunction,Plated,...`` / ``NonPlated``, tool
     attributes ``; #@! TA.AperFunction,Plated,...``), from gerbonara's own flag (Altium
     ``;TYPE=PLATED`` / ``;TYPE=NON_PLATED``, Allegro tool tables), then from the file name
@@ -46,12 +47,14 @@ class DrillFile:
     attributes: dict[str, str] = field(default_factory=dict)   # X2 file attributes in comments
     units: str = "mm"
     slot_count: int = 0
+    notes: list[str] = field(default_factory=list)
 
 
 _NPTH_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nonplated|[-_.]np[-_.]", re.I)
 _PTH_NAME = re.compile(r"(?<![a-z])pth|plated", re.I)
 _X2_COMMENT = re.compile(r"^;\s*(?:#@!\s*)?(?P<kind>TF|TA)\.?(?P<name>[A-Za-z][\w.]*),(?P<value>.*?)\*?%?\s*$")
 _TOOL_DEF = re.compile(r"^T0*(?P<num>\d+)(?=[A-Z])(?:[A-BD-Z][\d.+-]*)*C")
+_ROUTED_ARC = re.compile(r"^G0[23](?P<xy>(?:[XY][+-]?[\d.]*)+)(?:[AIJ][+-]?[\d.]*)+\s*$")
 _G85 = re.compile(r"^(?P<a>(?:[XY][+-]?[\d.]*)+)G85(?P<b>(?:[XY][+-]?[\d.]*)+)\s*$")
 
 
@@ -80,6 +83,7 @@ def _prescan(lines: list[str]):
     pending: bool | None = None
     out: list[str] = []
     origin: list[int] = []      # original line number of each rewritten line
+    arcs = 0
     for n, raw in enumerate(lines, start=1):
         line = raw.strip()
         m = _X2_COMMENT.match(line)
@@ -97,9 +101,16 @@ def _prescan(lines: list[str]):
                 out.append(stmt)
                 origin.append(n)
             continue
+        a = _ROUTED_ARC.match(line)
+        if a:
+            # gerbonara 1.5.0 fails on routed arcs; a slot is kept straight, so take the chord
+            out.append(f"G01{a['xy']}")
+            origin.append(n)
+            arcs += 1
+            continue
         out.append(raw)
         origin.append(n)
-    return attributes, tool_plating, out, origin
+    return attributes, tool_plating, out, origin, arcs
 
 
 def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
@@ -113,7 +124,7 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
     text = _read_text(path, limits, "drill")
     if not sniff_excellon_text(text) and sniff_gerber(path):
         return _read_gerber_drill(path, limits)
-    attributes, tool_plating, lines, origin = _prescan(text.splitlines())
+    attributes, tool_plating, lines, origin, arcs = _prescan(text.splitlines())
     parser = ExcellonParser()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -158,9 +169,10 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
         t.plated is not None for t in parser.tools.values()) or bool(tool_plating)
     file_plated = plated_set.pop() if len(plated_set) == 1 and decided else None
     unit = parser.settings.unit
+    notes = [f"{arcs} routed arcs (G02/G03) taken as straight slots along their chords"] if arcs else []
     return DrillFile(str(path), holes, file_plated, attributes,
                      units="inch" if unit is not None and unit_factor(unit) != 1.0 else "mm",
-                     slot_count=slots)
+                     slot_count=slots, notes=notes)
 
 
 def _read_gerber_drill(path: Path, limits: InputLimits) -> DrillFile:

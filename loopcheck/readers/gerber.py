@@ -813,6 +813,15 @@ def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: flo
         for dx, dy in offsets_of[k]:
             lines.append(shapely.LineString(pts + np.array((dx * f_sr, dy * f_sr))))
 
+    try:
+        return _profile_polygon(lines, regions, join_tol_mm)
+    except shapely.errors.GEOSException as e:
+        raise InputError(f"geometry error while joining the outline: {e}", path=str(path)) from None
+    except ValueError as best_empty:
+        raise InputError(str(best_empty), path=str(path)) from None
+
+
+def _profile_polygon(lines: list, regions: list, join_tol_mm: float) -> Polygon:
     best: BaseGeometry = EMPTY
     for grid in (join_tol_mm, 0.1):
         # a coarser snap can close gaps some writers leave (0.025 mm seen in real files); keep
@@ -833,8 +842,7 @@ def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: flo
         if reg_best.area > best.area:
             best = reg_best
     if best.is_empty:
-        raise InputError("no closed board outline in this layer (its lines do not join into a closed path)",
-                         path=str(path))
+        raise ValueError("no closed board outline in this layer (its lines do not join into a closed path)")
     return best
 
 
