@@ -356,3 +356,35 @@ def test_rectangle_with_two_electrodes_on_one_edge(gap_fraction):
     r = two_terminal_resistance([SheetLayer(copper, 1.0)], Contact("a", 0, tab_a),
                                 Contact("b", 0, tab_b))
     assert rel(r, expected) < 0.005
+
+
+def test_annulus_current_density_is_i_over_2_pi_r():
+    # exact: radial current, J_s(r) = I / (2 pi r) [A/m]
+    r1, r2, current = 1.0, 4.0, 3.0
+    disc = shapely.Point(0, 0).buffer(r2 + 0.5, quad_segs=128)
+    inner = shapely.Point(0, 0).buffer(r1, quad_segs=128)
+    outer = disc.difference(shapely.Point(0, 0).buffer(r2, quad_segs=128))
+    sol = solve_dc([SheetLayer(disc, 1e-3)], [Contact("i", 0, inner, current_a=current),
+                                              Contact("o", 0, outer, potential_v=0.0)], pitch_mm=0.1)
+    mag = sol.current_density(0)
+    xs, ys = np.meshgrid(sol.grid.x_centres_mm, sol.grid.y_centres_mm)
+    ring = np.abs(np.hypot(xs, ys) - 2.5) < 0.05
+    assert np.median(mag[ring]) == pytest.approx(current / (2 * math.pi * 2.5e-3), rel=0.02)
+    peak, _, x, y = sol.peak_current_density
+    assert peak == pytest.approx(current / (2 * math.pi * r1 * 1e-3), rel=0.1)
+    assert math.hypot(x, y) < r1 + 0.2
+
+
+def test_zero_ohm_links_put_two_layers_in_parallel():
+    # exact: two sheets joined at both ends conduct in parallel, 1/R = (W/L)(1/Rs0 + 1/Rs1)
+    length, width, rs0, rs1 = 10.0, 2.0, 1e-3, 3e-3
+    strip = shapely.box(0, 0, length, width)
+    contacts = [Contact("a", 0, shapely.box(0, 0, 1, width), potential_v=1.0),
+                Contact("b", 0, shapely.box(length - 1, 0, length, width), potential_v=0.0),
+                Contact("a1", 1, shapely.box(0, 0, 1, width), equipotential=True),
+                Contact("b1", 1, shapely.box(length - 1, 0, length, width), equipotential=True)]
+    links = [ViaLink(0.5, 1.0, 0, 1, 0.0), ViaLink(length - 0.5, 1.0, 0, 1, 0.0)]
+    sol = solve_dc([SheetLayer(strip, rs0), SheetLayer(strip, rs1)], contacts, links)
+    expected = 1.0 / ((width / (length - 2)) * (1 / rs0 + 1 / rs1))
+    assert rel(sol.resistance("a", "b"), expected) < 1e-6
+    assert sol.contact_potential("a1") == pytest.approx(1.0)
