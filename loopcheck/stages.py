@@ -8,6 +8,8 @@ to. Which rail is the input and which the output follows from the topology:
     buck:                 switch  SW-input,  rectifier SW-ground,  inductor SW-output
     boost:                switch  SW-ground, rectifier SW-output,  inductor SW-input
     inverting buck-boost: switch  SW-input,  rectifier SW-output,  inductor SW-ground
+    low-side (floating) buck, common in LED drivers: switch SW-ground, diode SW-input, inductor
+                          SW-load, the load and its capacitor between the input and the inductor
 
 Net names (SW, LX, GND, VIN ...) and part values raise confidence but are never required. Roles
 named in the project file (``[stages.NAME]``) win over what is found; contradictions there are an
@@ -18,7 +20,9 @@ Assumptions, stated in the evidence where they are used:
   L inductor, C capacitor, R/RS resistor, U/IC IC, J/P/CN connector), else from pin counts;
 - a diode with numbered pins has pin 1 = cathode (the banded end on common two-terminal
   packages) unless the topology decides, which it does whenever the diode sits on the switch node;
-- a three-terminal transistor with numbered pins and no net evidence has pin 1 = gate.
+- a three-terminal transistor with numbered pins and no net evidence has pin 1 = gate;
+- ground is never a rectifier diode's cathode side (pin names, else pin 1 = cathode) unless
+  a usual ground name says so.
 """
 
 from __future__ import annotations
@@ -424,6 +428,8 @@ class _Detector:
         self.nl = _Netlist(board, values)
         self.path = str(project.path) if project.path else None
         self.messages: list[str] = []
+        self._floating = False           # the stage being built is a low-side (floating) buck
+        self._across: str | None = None  # ... and its load capacitor's input-side net
 
     # -- switch-node candidates -------------------------------------------------------------
     def _sw_score(self, net: str) -> tuple[float, str, list[str]]:
@@ -592,8 +598,39 @@ class _Detector:
                 el.evidence.append(f"{part.ref} reaches {el.rail} through {el.rail_via.ref}")
         return el
 
-    def _ground_of(self, nets: list[str], named: str | None) -> tuple[str | None, float, list[str]]:
-        """Ground among candidate rails: the one most capacitors between them return to."""
+    def _diode_cathode(self, part: Part) -> tuple[str | None, str]:
+        """The net of a two-net diode's cathode from its pin names (K/A), else the pin 1 = cathode
+        convention; and which of the two told."""
+        names = {"K": "K", "C": "K", "CATHODE": "K", "KA": "K", "CA": "K", "A": "A", "AN": "A", "ANODE": "A"}
+        for p in part.pads:
+            if names.get(p.pin.upper()) == "K":
+                return p.net, "pin names"
+        for p in part.pads:
+            if names.get(p.pin.upper()) == "A":
+                others = [q.net for q in part.pads if q.net != p.net]
+                return (others[0] if others else None), "pin names"
+        pin1 = next((p for p in part.pads if p.pin == "1"), None)
+        return (pin1.net if pin1 is not None else None), "the pin 1 = cathode convention"
+
+    def _load_across(self, x_rail: str, diode_rail: str | None, ground: str | None) -> str | None:
+        """In a low-side (floating) buck the inductor's far end carries capacitors to the input
+        (directly or past a series sense resistor), none to ground. The net they go to, or None."""
+        if diode_rail is None:
+            return None
+        caps = self.nl.on(x_rail, "capacitor")
+        if not caps or any(c.nets == {x_rail, ground} for c in caps):
+            return None
+        near = {diode_rail} | {n for r in self.nl.on(diode_rail, "resistor") if len(r.nets) == 2
+                               for n in r.nets - {diode_rail}}
+        for c in caps:
+            if len(c.nets) == 2 and next(iter(c.nets - {x_rail})) in near:
+                return next(iter(c.nets - {x_rail}))
+        return None
+
+    def _ground_of(self, nets: list[str], named: str | None,
+                   avoid: set[str] = frozenset()) -> tuple[str | None, float, list[str]]:
+        """Ground among candidate rails: a usual ground name (with capacitor returns), else not a
+        rectifier diode's cathode side, then the rail most capacitors return to."""
         nl = self.nl
         if named:
             return named, 1.0, ["named in loopcheck.toml"]
@@ -605,13 +642,17 @@ class _Detector:
             returns = sum(1 for c in nl.on(n, "capacitor") if len(c.nets) == 2
                           and next(iter(c.nets - {n})) in nets)
             all_caps = len(nl.on(n, "capacitor"))
-            scores[n] = (returns, bool(GROUND_NAMES.match(n)), all_caps, nl.pad_count(n), n)
+            # a usual ground name decides among rails with capacitor returns; else the count does
+            scores[n] = (returns > 0 and bool(GROUND_NAMES.match(n)), n not in avoid, all_caps, returns,
+                         nl.pad_count(n), n)
         best = max(nets, key=lambda n: scores[n])
-        ev = [f"{scores[best][0]} capacitor returns among the stage's rails"]
+        ev = [f"{scores[best][2]} capacitors return to it"]
         conf = 0.7
-        ranked = sorted(scores.values(), reverse=True)
-        if len(ranked) > 1 and ranked[0][0] > ranked[1][0]:
+        ranked = sorted((v[2] for v in scores.values()), reverse=True)
+        if len(ranked) > 1 and scores[best][2] == ranked[0] and ranked[0] > ranked[1]:
             conf = 0.85
+        if avoid & set(nets) and not scores[best][0]:
+            ev.append(f"not {', '.join(sorted(avoid & set(nets)))}: a rectifier's cathode side")
         if GROUND_NAMES.match(best):
             conf = min(1.0, conf + 0.1)
             ev.append(f"net name {best!r} is a usual ground name")
@@ -653,7 +694,12 @@ class _Detector:
             ic = ics[0].part
             ic_rails = sorted(n for n in ic.nets - {sw} if nl.is_railish(n))
         rails = [x_rail] + [e.rail for e in transistors + diodes if e.rail] + ic_rails
-        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"))
+        cathode_sides = set()
+        for e in diodes:
+            k, _ = self._diode_cathode(e.part)
+            if k is not None and k != sw:
+                cathode_sides.add(k)
+        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"), cathode_sides)
 
         topology = fixed.get("topology")
         topo_ev = "named in loopcheck.toml" if topology else ""
@@ -667,6 +713,14 @@ class _Detector:
 
         on_ground = [e for e in transistors + diodes if e.rail == ground]
         off_ground = [e for e in transistors + diodes if e.rail != ground]
+        # a low-side (floating) buck, common in LED drivers: switch from the switch node to ground,
+        # diode up to the input, the load (and its capacitor) between the input and the inductor
+        low_t = next((e for e in on_ground if e.kind == "transistor"), None)
+        up_d = next((e for e in off_ground if e.kind == "diode"), None)
+        across = (self._load_across(x_rail, up_d.rail, ground) if low_t is not None and up_d is not None
+                  and ground != x_rail and topology in (None, "buck") else None)
+        floating = across is not None
+        self._floating, self._across = floating, across
         if switching in ("discrete", "synchronous"):
             if topology is None:
                 if ground == x_rail:
@@ -674,6 +728,10 @@ class _Detector:
                 elif any(e.kind == "diode" for e in on_ground) and any(e.kind == "transistor" for e in off_ground):
                     d = next(e for e in on_ground if e.kind == "diode")
                     topology, topo_ev = "buck", f"diode {d.part.ref} from the switch node to ground"
+                elif floating:
+                    topology, topo_ev = "buck", (
+                        f"low-side (floating) buck: transistor {low_t.part.ref} to ground, diode {up_d.part.ref} "
+                        f"up to {up_d.rail}, the load capacitor between {across} and {x_rail}")
                 elif any(e.kind == "transistor" for e in on_ground) and any(e.kind == "diode" for e in off_ground):
                     t = next(e for e in on_ground if e.kind == "transistor")
                     d = next(e for e in off_ground if e.kind == "diode")
@@ -681,7 +739,12 @@ class _Detector:
                                                   f"{d.part.ref} to the output")
                 else:
                     topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw)
-            if topology == "buck":
+            if topology == "buck" and floating:
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else low_t
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else up_d
+                input_net = rect_el.rail if rect_el else None
+                output_net = x_rail
+            elif topology == "buck":
                 switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
                     next((e for e in off_ground if e.kind == "transistor"), None))
                 rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
@@ -794,17 +857,19 @@ class _Detector:
             missing.append(f"input capacitor: no capacitor between {input_net} and {ground}")
         out_ref_pads = (rect_el.part.pads_on(rect_el.rail) if (topology != "buck" and rect_el is not None
                         and rect_el.rail) else inductor.pads_on(x_net))
-        out_caps = self._caps("output_caps", output_net, ground, out_ref_pads, fixed,
+        # a floating buck's load capacitor sits across the load, from the output to the input side
+        out_return = self._across if self._floating else ground
+        out_caps = self._caps("output_caps", output_net, out_return, out_ref_pads, fixed,
                               exclude=named | {c.ref for c, _, _ in in_caps},
                               what="the rectifier" if topology != "buck" else "the inductor")
         for cap, conf, ev in out_caps:
-            roles.append(Role("output_cap", cap.ref, cap.terminals_on(output_net) + cap.terminals_on(ground),
+            roles.append(Role("output_cap", cap.ref, cap.terminals_on(output_net) + cap.terminals_on(out_return),
                               conf, ev))
-        if not out_caps and output_net and ground:
-            missing.append(f"output capacitor: no capacitor between {output_net} and {ground}")
+        if not out_caps and output_net and out_return:
+            missing.append(f"output capacitor: no capacitor between {output_net} and {out_return}")
 
         # sense resistor
-        power_nets = {n for n in [x_net, x_rail, input_net, output_net, ground] if n}
+        power_nets = {n for n in [x_net, x_rail, input_net, output_net, ground, self._across] if n}
         for e in transistors + diodes:
             power_nets |= {n for n in (e.rail, e.rail_pin_net) if n}
         series = [v for v in [x_via] + [e.rail_via for e in transistors + diodes] if v is not None]
@@ -915,7 +980,7 @@ class _Detector:
         net = stage.input_net if stage.topology != "boost" else stage.output_net
         if switch_el.kind == "ic":
             return switch_el.part.pads_on(net) if net else []
-        if stage.topology == "boost":
+        if stage.topology == "boost" or self._floating:
             return switch_el.sw_pads
         return switch_el.part.pads_on(switch_el.rail_pin_net) if switch_el.rail_pin_net else []
 
@@ -960,7 +1025,7 @@ class _Detector:
         elif el.kind == "diode":
             conf = 0.9
             other = el.rail_pin_net
-            cathode_on_sw = stage.topology in ("buck", "buck-boost")
+            cathode_on_sw = stage.topology in ("buck", "buck-boost") and not self._floating
             k_net, a_net = (sw, other) if cathode_on_sw else (other, sw)
             pins = {"cathode": part.terminals_on(k_net), "anode": part.terminals_on(a_net)}
             diode_names = {"K": "K", "C": "K", "CATHODE": "K", "KA": "K", "CA": "K",
@@ -993,7 +1058,7 @@ class _Detector:
             other = el.rail_pin_net
             # high side: the buck's and inverting buck-boost's switch (from the input), the boost's
             # rectifier (up to the output); an inverting rectifier sits below the switch node
-            high_side = (name == "switch" and stage.topology != "boost") or (
+            high_side = (name == "switch" and stage.topology != "boost" and not self._floating) or (
                 name == "rectifier" and stage.topology == "boost")
             channel, ch_ev = self._channel(part, sw, stage, high_side, controller)
             ev.append(ch_ev)
@@ -1221,7 +1286,13 @@ class _Detector:
             o_t = _nearest(other_pads, cap_rail + cap_gnd).terminal
             return [s_t, o_t] if from_sw else [o_t, s_t]
 
-        if stage.topology == "buck":
+        if stage.topology == "buck" and self._floating:
+            # input cap + -> diode (input side, switch-node side) -> low-side switch -> ground -> cap -
+            loop += series_terms(rect_el, cap_rail)[::-1]
+            loop += el_terms(rect_role, rect_el, from_sw=False)
+            loop += el_terms(sw_role, switch_el, from_sw=True)
+            loop += series_terms(switch_el, cap_gnd)
+        elif stage.topology == "buck":
             loop += series_terms(switch_el, cap_rail)[::-1]
             loop += el_terms(sw_role, switch_el, from_sw=False)
             loop += el_terms(rect_role, rect_el, from_sw=True)

@@ -720,3 +720,41 @@ def test_buck_with_low_side_sense_resistor():
     assert st.role("rectifier").ref == "D1" and st.role("sense_resistor").ref == "RS1"
     assert st.role("sense_resistor").terminals == ("RS1.1", "RS1.2")      # ground last
     assert st.hot_loop == ("C1.1", "Q1.2", "Q1.3", "D1.1", "D1.2", "RS1.1", "RS1.2", "C1.2")
+
+
+# the mains-style LED driver: low-side switch, diode up to the input, LEDs between input and inductor
+FLOATING_BUCK = {
+    "J1": [(1, "VBUS", 0, 10), (2, "GND", 0, 5)],
+    "C1": [(1, "VBUS", 4, 12), (2, "GND", 4, 8)],
+    "D1": [(1, "VBUS", 8, 14), (2, "SW", 8, 10)],          # pin 1 cathode on the input
+    "Q1": [(1, "DRV", 10, 6), (2, "CS", 12, 6), (3, "SW", 12, 9)],
+    "RS1": [(1, "CS", 14, 4), (2, "GND", 16, 4)],
+    "L1": [(1, "SW", 14, 10), (2, "LED-", 20, 10)],
+    "C2": [(1, "VBUS", 22, 14), (2, "LED-", 22, 10)],       # across the LED string
+    "J2": [(1, "VBUS", 26, 14), (2, "LED-", 26, 10)],
+    "U1": [(1, "VBUS", 5, 30), (2, "DRV", 6, 30), (3, "CS", 7, 30), (4, "GND", 8, 30), (5, "VDD", 9, 30)],
+    "C3": [(1, "VDD", 10, 32), (2, "GND", 10, 34)],
+}
+
+
+@pytest.mark.parametrize("meaningless", [False, True])
+def test_floating_buck(meaningless):
+    rename = {}
+    if meaningless:
+        nets = sorted({n for pins in FLOATING_BUCK.values() for _, n, _, _ in pins})
+        rename = {n: f"N{i + 1:03d}" for i, n in enumerate(nets)}
+    search = find_stages(board_from(FLOATING_BUCK, rename, values={"RS1": "1.0"}), project())
+    st = search.stages[0]
+    r = lambda n: rename.get(n, n)                                      # noqa: E731
+    assert (st.topology, st.switching) == ("buck", "discrete")
+    assert (st.switch_node, st.input_net, st.output_net, st.ground_net) == (r("SW"), r("VBUS"), r("LED-"), r("GND"))
+    assert st.role("switch").ref == "Q1" and st.role("rectifier").ref == "D1"
+    assert st.role("switch").pins == {"source": ("Q1.2",), "drain": ("Q1.3",), "gate": ("Q1.1",)}
+    assert st.role("rectifier").pins == {"cathode": ("D1.1",), "anode": ("D1.2",)}
+    assert [x.ref for x in st.roles_named("input_cap")] == ["C1"]
+    assert [x.ref for x in st.roles_named("output_cap")] == ["C2"]
+    assert st.role("output_cap").terminals == ("C2.2", "C2.1")
+    assert st.role("sense_resistor").ref == "RS1"
+    # input cap + -> diode -> switch node -> low-side switch -> sense resistor -> ground -> cap -
+    assert st.hot_loop == ("C1.1", "D1.1", "D1.2", "Q1.3", "Q1.2", "RS1.1", "RS1.2", "C1.2")
+    assert any("low-side (floating) buck" in m for m in search.messages)
