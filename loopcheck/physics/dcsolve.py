@@ -95,6 +95,7 @@ __all__ = [
     "LumpedLink",
     "ViaLink",
     "DCSolution",
+    "SolverInfo",
     "solve_dc",
     "two_terminal_resistance",
     "four_terminal_resistance",
