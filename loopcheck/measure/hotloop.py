@@ -270,6 +270,10 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
     starts = pts
     ends = np.roll(pts, -1, axis=0)
     gmd = np.zeros(n)
+    # strip sections (NaN marks a round via barrel) let near-parallel strips use the GMD of
+    # their rectangular sections rather than a softened filament distance (Grover's method)
+    widths = np.full(n, np.nan)
+    thick = np.full(n, np.nan)
     for i in range(n):
         a = loop.points[i]
         L = float(np.linalg.norm(ends[i] - starts[i])) * 1e3
@@ -278,14 +282,17 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
             gmd[i] = 0.5 * w * 1e-3          # a round barrel: its radius
             continue
         w = min(w, MAX_STRIP_WIDTH_MM, max(L, 0.1))
-        gmd[i] = float(inductance.strip_equivalent_radius(w * 1e-3, layer_thickness_m(board, a[2])))
+        widths[i] = w * 1e-3
+        thick[i] = layer_thickness_m(board, a[2])
+        gmd[i] = float(inductance.strip_equivalent_radius(widths[i], thick[i]))
     seg_len = np.linalg.norm(ends - starts, axis=1)
     keep = seg_len > 1e-9
     notes = []
     plane_segs = [i for i in range(n) if loop.kinds[i] == "plane" and keep[i]]
     if plane_segs:
-        return _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z)
-    mat = inductance.partial_inductance_matrix(starts[keep], ends[keep], gmd[keep])
+        return _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, widths, thick)
+    mat = inductance.partial_inductance_matrix(starts[keep], ends[keep], gmd[keep],
+                                               widths_m=widths[keep], thicknesses_m=thick[keep])
     L_free = float(mat.sum())
     images = [(j, zp, m) for j, zp, m in _plane_images(ctx, loop, z) if keep[j]]
     L_img = 0.0
@@ -316,7 +323,7 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
     return L, notes, detail
 
 
-def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z):
+def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, widths, thick):
     """A loop whose return runs in its own plane under the outgoing conductor: the plane is a
     perfect-conductor image (the return current is the image current), so the in-plane
     segments are dropped and L = Lp(path) - M(path, mirrored path) over the rest of the loop
@@ -330,7 +337,8 @@ def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z):
     zp = z[m] * 1e-3
     path = [i for i in range(len(loop.points)) if keep[i] and loop.kinds[i] != "plane"]
     a, b, g = starts[path], ends[path], gmd[path]
-    Lp = float(inductance.partial_inductance_matrix(a, b, g).sum())
+    w, t = widths[path], thick[path]
+    Lp = float(inductance.partial_inductance_matrix(a, b, g, widths_m=w, thicknesses_m=t).sum())
     ma, mb = a.copy(), b.copy()
     ma[:, 2] = 2 * zp - ma[:, 2]
     mb[:, 2] = 2 * zp - mb[:, 2]
