@@ -52,40 +52,47 @@ PARALLEL_MIN_BYTES = 300_000
 
 
 def _read_one(args) -> tuple:
-    """Worker: read one copper layer; an InputError comes back as data (it keeps path and line)."""
-    from .readers.gerber import read_gerber
+    """Worker: read one copper layer or the profile; an InputError comes back as data (so that
+    it keeps its path and line across the process boundary)."""
+    from .readers.gerber import read_gerber, read_profile
 
-    path, limits = args
+    kind, path, limits = args
     try:
-        return ("ok", read_gerber(path, limits))
+        return ("ok", read_gerber(path, limits) if kind == "copper" else read_profile(path, limits))
     except InputError as exc:
         return ("error", exc.detail, exc.path, exc.line)
 
 
-def _read_copper_layers(fab: FabSet, limits: InputLimits) -> list:
-    paths = [path for path, _ in fab.copper]
-    sizes = [os.path.getsize(p) for p in paths]
-    workers = min(len(paths), os.cpu_count() or 1)
+def _read_gerbers(fab: FabSet, limits: InputLimits) -> tuple[list, tuple | None]:
+    """Every copper layer (GerberLayer each; the first bad one raises) and the profile's raw result."""
+    jobs = [("copper", path) for path, _ in fab.copper]
+    if fab.outline is not None:
+        jobs.append(("profile", fab.outline))
+    sizes = [os.path.getsize(p) for _, p in jobs]
+    workers = min(len(jobs), os.cpu_count() or 1)
     results = None
     if workers > 1 and sum(sizes) >= PARALLEL_MIN_BYTES and "fork" in multiprocessing.get_all_start_methods():
-        order = sorted(range(len(paths)), key=lambda k: -sizes[k])      # largest first
+        order = sorted(range(len(jobs)), key=lambda k: -sizes[k])      # largest first
         try:
             with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
-                done = list(pool.map(_read_one, [(str(paths[k]), limits) for k in order]))
-            results = [None] * len(paths)
+                done = list(pool.map(_read_one, [(jobs[k][0], str(jobs[k][1]), limits) for k in order]))
+            results = [None] * len(jobs)
             for k, res in zip(order, done):
                 results[k] = res
         except (BrokenProcessPool, OSError, pickle.PicklingError):
             results = None       # no pool here (sandbox, memory): read them one by one
     if results is None:
-        results = [_read_one((str(p), limits)) for p in paths]
-    out = []
-    for path, res in zip(paths, results):
+        results = [_read_one((kind, str(p), limits)) for kind, p in jobs]
+    copper = []
+    for (kind, path), res in zip(jobs, results):
+        if kind != "copper":
+            continue
         if res[0] == "error":
             _, detail, epath, line = res
             raise InputError(detail, path=fab.error_name(epath or path), line=line)
-        out.append(res[1])
-    return out
+        copper.append(res[1])
+    profile = results[-1] if fab.outline is not None else None
+    return copper, profile
 
 
 def _reraise(fab: FabSet, exc: InputError) -> InputError:
@@ -96,8 +103,6 @@ def _reraise(fab: FabSet, exc: InputError) -> InputError:
 
 
 def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
-    from .readers.gerber import read_profile
-
     assumptions: list[str] = []
     inputs: dict[str, str] = {}
     n = fab.layer_count
@@ -105,7 +110,8 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
 
     # copper
     raw_layers = []
-    for (path, index), gl in zip(fab.copper, _read_copper_layers(fab, limits)):
+    copper_read, profile_read = _read_gerbers(fab, limits)
+    for (path, index), gl in zip(fab.copper, copper_read):
         raw_layers.append((path, index, gl))
         inputs[fab.relname(path)] = f"copper layer {index + 1} ({names[index]}): {fab.how.get(path, '')}"
 
@@ -155,14 +161,17 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
 
     # outline
     outline = None
-    if fab.outline is not None:
-        try:
-            geom = read_profile(fab.outline, limits)
-            outline = Outline(geometry=geom, source=f"profile layer {fab.relname(fab.outline)}")
+    if profile_read is not None:
+        if profile_read[0] == "ok":
+            outline = Outline(geometry=profile_read[1], source=f"profile layer {fab.relname(fab.outline)}")
             inputs[fab.relname(fab.outline)] = f"outline: {fab.how.get(fab.outline, '')}"
-        except InputError as exc:
+        elif "no closed" not in profile_read[1]:
+            # a broken file is bad input; only an outline that does not close falls back
+            _, detail, epath, line = profile_read
+            raise InputError(detail, path=fab.error_name(epath or fab.outline), line=line)
+        else:
             assumptions.append(f"the outline layer {fab.relname(fab.outline)} gave no closed outline "
-                               f"({exc.detail}); the board extent is used instead")
+                               f"({profile_read[1]}); the board extent is used instead")
             inputs[fab.relname(fab.outline)] = "outline: not usable (no closed outline)"
     if outline is None and netlist is not None and netlist.board_edge:
         geom = _outline_from_paths(netlist.board_edge)

@@ -188,3 +188,16 @@ def test_errors_from_parallel_layer_reads_keep_file_and_line(board, monkeypatch)
     with pytest.raises(InputError) as info:
         load_board(load_project(folder))
     assert info.value.path == str(paths["L2"])
+
+
+def test_broken_outline_is_bad_input_but_an_open_one_falls_back(board):
+    folder, paths = board
+    good = paths["profile"].read_text()
+    paths["profile"].write_text(good[: len(good) // 2])
+    inspect_fails(folder, folder, paths["profile"].name)
+    # an outline drawn as one open line: the extent stands in, and the report says so
+    paths["profile"].write_text("%FSLAX46Y46*%\n%MOMM*%\n%TF.FileFunction,Profile,NP*%\n%ADD10C,0.1*%\n"
+                                "D10*\nX0Y0D02*\nX60000000Y0D01*\nM02*\n")
+    b = load_board(load_project(folder))
+    assert any("gave no closed outline" in a for a in b.assumptions)
+    assert not b.outline.from_extent or "extent" in b.outline.source
