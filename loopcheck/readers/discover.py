@@ -381,10 +381,8 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
             if f.kind == "gerber" and role[0] == "copper":
                 copper_claims.append(_Claim(f, role[1], how))
             elif f.kind == "gerber" and role[0] == "outline":
-                pref = 2
-                if f.path.suffix.lower() == ".gko" or re.search(r"edge|outline|profile", f.path.name, re.I):
-                    pref = 2
-                elif (m := re.match(r".*\.gm(\d+)$", f.path.name, re.I)):
+                pref = 2.0      # .gko, edge cuts, outline, profile ...
+                if (m := re.match(r".*\.gm(\d+)$", f.path.name, re.I)):
                     pref = 3 + int(m.group(1)) / 1000.0   # lowest-numbered mechanical layer first
                 outline_cands.append((pref, f, how))
             elif f.kind in ("excellon", "gerber") and role[0] == "drill":
@@ -533,6 +531,8 @@ def _gerbonara_roles(files: list[_File]) -> dict[str, list[_File]]:
                 warnings.simplefilter("ignore")
                 certain, cand = glayers.apply_rules(paths, rules)
         except (OSError, UnicodeDecodeError, ValueError):
+            # a header rule could not read a file as text: judge by the names alone
+            rules = dict(layer_rules.MATCH_RULES[generator])
             rules.pop("header regex", None)
             certain, cand = glayers.apply_rules(paths, rules)
         count = sum(len(v) for k, v in cand.items() if k is not None)
