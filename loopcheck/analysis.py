@@ -136,8 +136,9 @@ def analyse(board: Board, project: Any) -> Analysis:
             + ")")
     if not conn.checked:
         analysis.messages.append(conn.not_checked_reason or "no netlist: connectivity not checked")
-    misaligned = (not conn.aligned) or any(f.rule == "netlist-alignment" for f in conn.findings)
-    if misaligned:
+    # a few stray pads off copper are findings of their own; only a netlist that does not
+    # line up with the copper as a whole (offset, scale, mirror) stops the measurements
+    if not conn.aligned:
         hint = f" ({conn.alignment_hint})" if conn.alignment_hint else ""
         analysis.measurement_stopped = f"netlist misaligned: measurement stopped{hint}"
 
