@@ -256,12 +256,10 @@ _OP_LABELS = {
 
 
 def operating_point_assumptions(op: OperatingPoint) -> list[str]:
-    """The operating-point values not given in the project file, in words, for the reports'
-    assumptions: defaults, and values derived from part values (the sense voltage)."""
+    """Every operating-point value in words with where it came from (the project file, a
+    default, or a part value), for the reports' assumptions."""
     out = []
     for name, source in op.sources.items():
-        if source.startswith("loopcheck.toml"):
-            continue
         label, unit, scale = _OP_LABELS.get(name, (name, "", 1.0))
         value = getattr(op, name)
         shown = "unknown" if value is None else f"{value * scale:g}{' ' + unit if unit else ''}"

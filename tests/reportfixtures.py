@@ -121,7 +121,8 @@ def make_analysis(variant: str = "sprawl", integrity: list[Finding] | None = Non
     return Analysis(board=make_board(f"led-{variant}"), integrity=list(integrity or []),
                     stages=[make_stage()], measurements=make_measurements(variant),
                     assumptions=["copper 35 um on both layers (default)",
-                                 "edge time 20 ns (default)"])
+                                 "edge time 20 ns (default)",
+                                 "stage1: operating point: output current 1.5 A (loopcheck.toml)"])
 
 
 def make_project(tmp: Path | None = None, waivers=(), thresholds=None, stage_thresholds=None,

@@ -117,7 +117,7 @@ def test_operating_point_assumptions_in_words():
     words = operating_point_assumptions(st.operating_point)
     assert "operating point: sense voltage 150 mV (RS1 value 0R1 x iout_a)" in words
     assert "operating point: switching frequency 500 kHz (default)" in words
-    assert not any("input voltage" in w or "output current" in w for w in words)
+    assert "operating point: output current 1.5 A (loopcheck.toml [operating_point])" in words
 
 
 SYNC_BUCK = {

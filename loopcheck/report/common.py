@@ -167,25 +167,10 @@ def stage_summary(analysis: Analysis, stage: Stage) -> dict[str, Any]:
     }
 
 
-def operating_point_assumptions(stage: Stage) -> list[str]:
-    """The operating point a stage was measured at, each value with where it came from."""
-    op = stage.operating_point
-    src = op.sources or {}
-    rows = [
-        ("vin_min_v", f"input voltage min {op.vin_min_v:g} V"),
-        ("vin_max_v", f"input voltage max {op.vin_max_v:g} V"),
-        ("vout_v", f"output voltage {op.vout_v:g} V" if op.vout_v is not None else None),
-        ("iout_a", f"output current {op.iout_a:g} A"),
-        ("fsw_hz", f"switching frequency {op.fsw_hz / 1e3:g} kHz"),
-        ("edge_s", f"switching edge {op.edge_s * 1e9:g} ns"),
-        ("ambient_c", f"ambient {op.ambient_c:g} °C"),
-    ]
-    out = []
-    for key, text in rows:
-        if text is None:
-            continue
-        out.append(f"{stage.name}: {text} ({src.get(key, 'default')})")
-    return out
+def report_assumptions(analysis: Analysis) -> list[str]:
+    """The board's and the analysis's assumptions (stackup, part values, each stage's operating
+    point with its source, the methods), each once."""
+    return list(dict.fromkeys(list(analysis.board.assumptions) + list(analysis.assumptions)))
 
 
 def write_atomic(path: str | Path, data: str | bytes) -> None:

@@ -12,7 +12,7 @@ from html import escape
 from ..findings import SEVERITIES
 from ..rules.docs import RULE_DOCS
 from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id, limits_text,
-                     operating_point_assumptions, path_label, sorted_findings, value_text)
+                     report_assumptions, path_label, sorted_findings, value_text)
 from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, copper_defs, layer_colour
 
 _CSS = """
@@ -257,9 +257,7 @@ def render_html(result: CheckResult) -> str:
     h.append("</div></section>")
 
     # --- assumptions ---
-    assumptions = list(board.assumptions) + list(a.assumptions)
-    for s in a.stages:
-        assumptions += operating_point_assumptions(s)
+    assumptions = report_assumptions(a)
     for m in a.measurements:
         assumptions += list(m.assumptions)
     assumptions = list(dict.fromkeys(assumptions))

@@ -8,7 +8,7 @@ import math
 from typing import Any
 
 from .boardkeys import inspect_keys
-from .common import CheckResult, finding_id, operating_point_assumptions, stage_summary
+from .common import CheckResult, finding_id, report_assumptions, stage_summary
 
 SCHEMA_VERSION = "loopcheck-check-report/1"
 
@@ -48,9 +48,7 @@ def report_dict(result: CheckResult) -> dict[str, Any]:
                "limits": {k: float(v) for k, v in c.limits.items()},
                "direction": c.direction, "limit_source": c.limit_origin,
                "reason": c.reason} for c in ev.checks]
-    assumptions = list(board.assumptions) + list(a.assumptions)
-    for s in a.stages:
-        assumptions += operating_point_assumptions(s)
+    assumptions = report_assumptions(a)
     out: dict[str, Any] = {
         "schema": SCHEMA_VERSION,
         "tool": {"name": "loopcheck", "version": result.tool_version},

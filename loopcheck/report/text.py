@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from ..findings import SEVERITIES
 from .common import (CAUTION_LINE, CheckResult, checks_by_measurement, limits_text,
-                     operating_point_assumptions, path_label, sorted_findings, value_text)
+                     report_assumptions, path_label, sorted_findings, value_text)
 
 _STATUS_WORD = {"pass": "ok", "note": "NOTE", "warning": "WARNING", "error": "ERROR",
                 "not made": "not measured", "off": "off", "": ""}
@@ -84,10 +84,7 @@ def render_text(result: CheckResult) -> str:
 
     # The board's and the analysis's assumptions and each stage's operating point; those behind
     # single measurements are many and stay in the JSON and HTML reports.
-    assumptions = list(board.assumptions) + list(a.assumptions)
-    for stage in a.stages:
-        assumptions += operating_point_assumptions(stage)
-    assumptions = list(dict.fromkeys(assumptions))
+    assumptions = report_assumptions(a)
     per_measurement = {x for m in a.measurements for x in m.assumptions} - set(assumptions)
     if assumptions or per_measurement:
         lines.append("Assumptions")
