@@ -136,12 +136,17 @@ def run_check(board: str, deck: str | None, fail_on: str, progress: Progress):
     return CheckResult(analysis=analysis, evaluation=evaluation, project=project, fail_on=fail_on)
 
 
-def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None = None) -> None:
-    """Render every report first, then write each one whole (temp file + os.replace)."""
+def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None = None,
+         render=None) -> None:
+    """Render every report first, then write each one whole (temp file + os.replace).
+
+    ``render(fmt)`` gives the function that turns ``result`` into text (default: the check
+    reports; ``loopcheck diff`` passes its own)."""
     from ..report.common import write_atomic
 
+    render = render or renderer
     with (progress or Progress(False)).step("writing the reports"):
-        rendered = [(renderer(fmt)(result), out) for fmt, out in pairs]
+        rendered = [(render(fmt)(result), out) for fmt, out in pairs]
     for text, out in rendered:
         if out is None:
             click.echo(text, nl=False)

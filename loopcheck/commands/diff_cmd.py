@@ -36,9 +36,7 @@ def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
     """Compare two revisions OLD and NEW of one board: each measurement before, after and the
     change; the findings that appear and those that are resolved."""
     from ..compare import compare
-    from ..report.common import write_atomic
     from ..report.diff import DiffResult
-    from ..errors import InputError
     from ..rules.evaluate import at_or_above
 
     pairs = check_cmd.pair_outputs(formats, outputs)
@@ -50,16 +48,7 @@ def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
     b = check_cmd.run_check(new, deck, "never", progress)
     cmp = compare(a.analysis.measurements, b.analysis.measurements, a.findings, b.findings)
     result = DiffResult(a, b, cmp)
-    rendered = [(renderer(fmt)(result), out) for fmt, out in pairs]
-    for text, out in rendered:
-        if out is None:
-            click.echo(text, nl=False)
-        else:
-            try:
-                write_atomic(out, text)
-            except OSError as exc:
-                raise InputError(f"cannot write the report: {exc.strerror or exc}",
-                                 path=out) from None
+    check_cmd.emit(result, pairs, progress, render=renderer)
     worse = [fc for fc in cmp.findings_with("new")
              if not fc.new.waived and at_or_above(fc.new.severity, fail_on)]
     sys.exit(1 if worse else 0)
