@@ -387,8 +387,9 @@ def test_profile_tolerates_small_gaps_and_rejects_open_outline(tmp_path):
            f"Y{mm(0.004)}D01*")
     assert read_profile(gerber(tmp_path, gap)).area == pytest.approx(100, rel=1e-3)
     open_ = f"%ADD10C,0.1*%\nD10*\nX0Y0D02*\nG01*\nX{mm(10)}Y0D01*\nY{mm(10)}D01*\nX0D01*"
-    with pytest.raises(InputError, match="outline"):
+    with pytest.raises(InputError, match="outline") as err:
         read_profile(gerber(tmp_path, open_, name="open.gbr"))
+    assert "open end at x=0.000 y=0.000" in str(err.value) or "open end at x=0.000 y=10.000" in str(err.value)
 
 
 def test_profile_from_region(tmp_path):
@@ -505,6 +506,12 @@ def test_corpus_x2_net_attributes():
 def test_corpus_profiles(rel):
     outline = read_profile(corpus_file(rel))
     assert outline.is_valid and outline.area > 100
+
+
+def test_corpus_open_outline_is_refused():
+    # a fabrication drawing whose outline is not closed: the small closed loops in it are not a board
+    with pytest.raises(InputError, match="not closed"):
+        read_profile(corpus_file("spec-examples/open_outline_altium.gbr"))
 
 
 def test_corpus_sniff():

@@ -841,9 +841,33 @@ def _profile_polygon(lines: list, regions: list, join_tol_mm: float) -> Polygon:
         reg_best = max(getattr(reg, "geoms", [reg]), key=lambda p: p.area) if not reg.is_empty else EMPTY
         if reg_best.area > best.area:
             best = reg_best
+    drawn = shapely.union_all(np.array(lines + regions, dtype=object)) if (lines or regions) else EMPTY
     if best.is_empty:
-        raise ValueError("no closed board outline in this layer (its lines do not join into a closed path)")
+        raise ValueError("no closed board outline in this layer (its lines do not join into a closed path"
+                         f"{_gap_hint(lines, join_tol_mm)})")
+    # the board spans the drawing; a small closed loop inside an open outline is not the board
+    if not drawn.is_empty and box(*best.bounds).area < 0.25 * box(*drawn.bounds).area:
+        raise ValueError("the outline drawn in this layer is not closed: the largest closed path spans "
+                         f"{box(*best.bounds).area:.1f} of {box(*drawn.bounds).area:.1f} mm2 of the drawing"
+                         f"{_gap_hint(lines, join_tol_mm)}")
     return best
+
+
+def _gap_hint(lines: list, grid: float) -> str:
+    """Where the drawn path stops: the first line end that no other line meets."""
+    if not lines:
+        return ""
+    ends: dict = {}
+    for ln in lines:
+        c = np.asarray(ln.coords)
+        for x, y in (c[0], c[-1]):
+            key = (round(x / grid), round(y / grid))
+            ends[key] = ends.get(key, 0) + 1
+    odd = [k for k, n in ends.items() if n % 2]
+    if not odd:
+        return ""
+    x, y = odd[0][0] * grid, odd[0][1] * grid
+    return f"; an open end at x={x:.3f} y={y:.3f} mm"
 
 
 def _outer_with_cutouts(faces: list) -> Polygon:
