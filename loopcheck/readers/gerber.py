@@ -847,7 +847,7 @@ def _profile_polygon(lines: list, regions: list, join_tol_mm: float) -> Polygon:
                          f"{_gap_hint(lines, join_tol_mm)})")
     # the board spans the drawing; a small closed loop inside an open outline is not the board
     if not drawn.is_empty and box(*best.bounds).area < 0.25 * box(*drawn.bounds).area:
-        raise ValueError("the outline drawn in this layer is not closed: the largest closed path spans "
+        raise ValueError("no closed board outline in this layer (the drawn outline is open): the largest closed path spans "
                          f"{box(*best.bounds).area:.1f} of {box(*drawn.bounds).area:.1f} mm2 of the drawing"
                          f"{_gap_hint(lines, join_tol_mm)}")
     return best
