@@ -181,3 +181,29 @@ def test_geometry_path_keeps_holes_and_drops_specks():
     assert "20.00,-20.00" not in d                # the speck is left out
     circle = Point(0, 0).buffer(5, quad_segs=64)
     assert geometry_path(circle, 0.1).count("L") < geometry_path(circle, 0.0).count("L")
+
+
+def test_a_pass_that_left_parts_unchecked_says_incomplete():
+    # partial results are never presented as complete: no stage, no netlist -> incomplete
+    from loopcheck.report.html import render_html
+
+    r = make_result("tidy")
+    r.analysis.stages = []
+    r.analysis.measurements = []
+    r.analysis.connectivity_checked = False
+    assert not r.failed
+    t = render_text(r)
+    assert "INCOMPLETE" in t and "no power stage found" in t and "connectivity not checked" in t
+    d = json.loads(render_json(r))
+    assert d["result"]["complete"] is False and len(d["result"]["gaps"]) == 2
+    jsonschema.validate(d, load_schema())
+    assert 'id="gaps"' in render_html(r) and "incomplete" in render_html(r)
+
+
+def test_a_measurement_not_made_is_a_gap_with_its_reason():
+    r = make_result("sprawl", fail_on="never")
+    missing = [m for m in r.analysis.measurements if m.value is None]
+    assert missing, "the fixture has a measurement that was not made"
+    d = json.loads(render_json(r))
+    assert d["result"]["complete"] is False
+    assert any(missing[0].not_made in g for g in d["result"]["gaps"])

@@ -56,6 +56,28 @@ class CheckResult:
         return bool(self.failing)
 
     @property
+    def gaps(self) -> list[str]:
+        """What this check did not cover, in words; empty when it covered the whole board.
+        A pass with gaps is reported as incomplete, never as a plain pass."""
+        a = self.analysis
+        out = []
+        if not a.connectivity_checked:
+            out.append("connectivity not checked (no netlist or pad data)")
+        if a.measurement_stopped:
+            out.append(a.measurement_stopped)
+        elif not a.stages:
+            out.append("no power stage found: nothing was measured")
+        if not a.measurement_stopped:
+            by_reason: dict[str, list[str]] = {}
+            for m in a.measurements:
+                if m.value is None:
+                    where = f"{m.stage}: " if m.stage else ""
+                    by_reason.setdefault(f"{where}{m.not_made or 'no reason given'}", []).append(m.label)
+            for reason, labels in by_reason.items():
+                out.append(f"not made ({reason}): " + ", ".join(dict.fromkeys(labels)))
+        return out
+
+    @property
     def board_name(self) -> str:
         return self.analysis.board.name
 

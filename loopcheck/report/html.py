@@ -121,6 +121,8 @@ def render_html(result: CheckResult) -> str:
         verdict, vcls = f"fails at --fail-on {result.fail_on}", "fail"
     else:
         verdict, vcls = f"passes at --fail-on {result.fail_on}", "pass"
+    if result.gaps and vcls == "pass":
+        verdict, vcls = f"incomplete: passes at --fail-on {result.fail_on} what was checked", "open"
     h.append("<header>")
     h.append(f"<h1>Power-stage layout check: {escape(board.name)}</h1>")
     h.append(f'<div class="sub">loopcheck {escape(result.tool_version)} &middot; rule deck '
@@ -137,6 +139,9 @@ def render_html(result: CheckResult) -> str:
     for c in CAUTIONS:
         h.append(f"<p>{escape(c)}</p>")
     h.append("</section>")
+    if result.gaps:
+        h.append('<section class="caution" id="gaps"><strong>Not covered by this check.</strong>')
+        h.append("<ul>" + "".join(f"<li>{escape(g)}</li>" for g in result.gaps) + "</ul></section>")
     if a.measurement_stopped:
         h.append(f'<section class="caution"><strong>Measurement stopped:</strong> '
                  f'{escape(a.measurement_stopped)}</section>')

@@ -55,7 +55,7 @@ def report_dict(result: CheckResult) -> dict[str, Any]:
         "deck": {"name": result.deck.name, "path": result.deck.path},
         "fail_on": result.fail_on,
         "result": {"failed": result.failed, "failing": len(result.failing),
-                   "counts": counts},
+                   "counts": counts, "complete": not result.gaps, "gaps": result.gaps},
         "measurement_stopped": a.measurement_stopped,
         "messages": list(a.messages),
     }

@@ -102,6 +102,8 @@ def render_text(result: CheckResult) -> str:
                    f"{'s' if len(failing) != 1 else ''} at or above {result.fail_on}")
     else:
         verdict = f"Result: pass (no unwaived finding at or above {result.fail_on})"
+    if result.gaps:
+        verdict += "; INCOMPLETE: " + "; ".join(result.gaps)
     lines.append(verdict)
     lines.append(CAUTION_LINE)
     return "\n".join(lines) + "\n"
