@@ -37,28 +37,60 @@ def _collect(polys: list) -> BaseGeometry:
 
 def clusters(arr: np.ndarray) -> list[np.ndarray]:
     """Index groups of shapes whose bounding boxes are connected (touching counts)."""
-    n = len(arr)
-    tree = shapely.STRtree(arr)
-    i, j = tree.query(arr)
-    graph = coo_matrix((np.ones(len(i), dtype=np.int8), (i, j)), shape=(n, n))
-    _, labels = connected_components(graph, directed=False)
-    order = np.argsort(labels, kind="stable")
-    cuts = np.flatnonzero(np.diff(labels[order])) + 1
-    return np.split(order, cuts)
+    i, j = shapely.STRtree(arr).query(arr)
+    return _groups(len(arr), i, j)
 
 
 def union_many(geoms) -> BaseGeometry:
-    """Union of polygons [any units], cluster by cluster."""
+    """Union of polygons [any units], cluster by cluster.
+
+    A few shapes that reach very many others (a ground pour under a whole board) would join every
+    cluster into one; they are kept out of the clustering and added last, each with one binary union
+    of the parts it reaches (measured 2x faster than one cascaded union over everything).
+    """
     arr = np.asarray([g for g in geoms if g is not None and not g.is_empty], dtype=object)
     if len(arr) == 0:
         return Polygon()
     if len(arr) < SMALL:
         return shapely.union_all(arr)
+    tree = shapely.STRtree(arr)
+    i, j = tree.query(arr)
+    big = np.bincount(i, minlength=len(arr)) > max(GIANT_DEGREE, len(arr) // 20)
+    if big.any() and not big.all():
+        small = np.flatnonzero(~big)
+        acc = _union_clusters(arr[small], *_sub_pairs(i, j, small, len(arr)))
+        for g in arr[big]:
+            acc = add(acc, g)
+        return acc
+    return _union_clusters(arr, i, j)
+
+
+GIANT_DEGREE = 200   # a shape whose box meets more than this many others (and 5 % of all) is a giant
+
+
+def _sub_pairs(i: np.ndarray, j: np.ndarray, keep: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """The (i, j) pairs among the kept indices, renumbered 0 .. len(keep) - 1."""
+    new = np.full(n, -1, dtype=np.int64)
+    new[keep] = np.arange(len(keep))
+    a, b = new[i], new[j]
+    ok = (a >= 0) & (b >= 0)
+    return a[ok], b[ok]
+
+
+def _union_clusters(arr: np.ndarray, i: np.ndarray, j: np.ndarray) -> BaseGeometry:
     out: list = []
-    for group in clusters(arr):
+    for group in _groups(len(arr), i, j):
         g = arr[group[0]] if len(group) == 1 else shapely.union_all(arr[group])
         out.extend(polygons_of(g))
     return _collect(out)
+
+
+def _groups(n: int, i: np.ndarray, j: np.ndarray) -> list[np.ndarray]:
+    graph = coo_matrix((np.ones(len(i), dtype=np.int8), (i, j)), shape=(n, n))
+    _, labels = connected_components(graph, directed=False)
+    order = np.argsort(labels, kind="stable")
+    cuts = np.flatnonzero(np.diff(labels[order])) + 1
+    return np.split(order, cuts)
 
 
 def add(acc: BaseGeometry, merged: BaseGeometry) -> BaseGeometry:
@@ -109,3 +141,69 @@ def clip(geom: BaseGeometry, to: BaseGeometry, to_parts: np.ndarray | None = Non
     if len(near) == 0:
         return Polygon()
     return shapely.intersection(geom, _collect(to_parts[near].tolist()))
+
+
+class _GrowingIndex:
+    """Bounding-box index over a list that grows: an STRtree over most of it, rebuilt when the
+    unindexed tail gets as long as the indexed part (amortised n log n builds)."""
+
+    def __init__(self):
+        self.items: list = []
+        self._tree = None
+        self._built = 0
+
+    def extend(self, geoms: list) -> None:
+        self.items.extend(geoms)
+        if len(self.items) - self._built > max(64, self._built):
+            self._built = len(self.items)
+            self._tree = shapely.STRtree(np.asarray(self.items, dtype=object))
+
+    def query(self, geoms: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(index into geoms, index into items) of every pair whose boxes meet."""
+        gi = [np.empty(0, dtype=np.int64)]
+        ii = [np.empty(0, dtype=np.int64)]
+        if self._tree is not None:
+            a, b = self._tree.query(geoms)
+            gi.append(a)
+            ii.append(b)
+        if len(self.items) > self._built:
+            tail = np.asarray(self.items[self._built:], dtype=object)
+            b, a = shapely.STRtree(geoms).query(tail)
+            gi.append(a)
+            ii.append(b + self._built)
+        return np.concatenate(gi), np.concatenate(ii)
+
+
+def compose(runs) -> BaseGeometry:
+    """The image of runs of one polarity in file order: dark adds, clear removes what came before.
+
+    Parameters
+    ----------
+    runs : sequence of (dark, geoms), in file order; ``geoms`` a list of polygons
+
+    The image is the union over dark runs D_k of D_k minus every clear run that follows it. Walking
+    the runs backwards, each dark shape is cut only by the later clear shapes its box meets, and the
+    whole image is unioned once at the end: a board-wide pour is then cut once and merged once,
+    not once per polarity change.
+    """
+    later_clear = _GrowingIndex()
+    pieces: list = []
+    for dark, geoms in reversed(list(runs)):
+        geoms = [g for g in geoms if g is not None and not g.is_empty]
+        if not geoms:
+            continue
+        if not dark:
+            later_clear.extend(geoms)
+            continue
+        if not later_clear.items:
+            pieces.extend(geoms)
+            continue
+        arr = np.asarray(geoms, dtype=object)
+        gi, ci = later_clear.query(arr)
+        hit = np.zeros(len(arr), dtype=bool)
+        hit[gi] = True
+        pieces.extend(arr[~hit].tolist())
+        if hit.any():
+            cutters = [later_clear.items[k] for k in np.unique(ci)]
+            pieces.extend(polygons_of(cut(union_many(arr[hit].tolist()), union_many(cutters))))
+    return union_many(pieces)

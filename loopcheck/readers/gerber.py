@@ -15,8 +15,9 @@ Geometry is built here: each aperture's shape once (``aperture_shapes``), flashe
 vectorised, strokes with round apertures buffered (round caps), strokes with other apertures swept
 as the convex hull of the aperture at both ends, arcs and region arcs approximated by chords with a
 sagitta below ``tol_mm`` (default 5 um; circles are area-equivalent polygons), regions repaired
-with ``make_valid`` (cut-ins). Polarity is applied in file order: runs of one polarity are unioned
-with ``shapely.union_all`` and then added (dark) to or cut (clear) from the image.
+with ``make_valid`` (cut-ins). Polarity follows file order exactly: the image is the union over
+dark runs of each run minus every clear run after it (``fast_union.compose``: each dark shape cut
+only by the later clear shapes it meets, then one clustered union of everything).
 
 References
 ----------
@@ -585,13 +586,15 @@ def _runs(objs: list, shapes: _Shapes) -> list[_Run]:
 
 
 class _Image:
-    """The layer image being built: dark adds, clear cuts, in file order; per-net copper kept."""
+    """The layer image: runs of one polarity in file order (dark adds, clear cuts what came
+    before), composed once at the end; per-net copper kept."""
 
     def __init__(self):
-        self.acc: BaseGeometry = EMPTY
+        self.runs: list[tuple[bool, list]] = []
         self.net_parts: dict[str, list] = {}
         self.bounds = [math.inf, math.inf, -math.inf, -math.inf]
         self.cleared = False          # a clear run came after some dark copper
+        self._has_dark = False
 
     def apply(self, run: _Run, offset=(0.0, 0.0)):
         geoms = run.geoms
@@ -600,20 +603,22 @@ class _Image:
         if offset != (0.0, 0.0):
             arr = np.array(geoms, dtype=object)
             geoms = shapely.transform(arr, lambda c: c + np.asarray(offset)).tolist()
-        merged = fu.union_many(geoms)
-        if merged.is_empty:
+        b = shapely.total_bounds(np.asarray(geoms, dtype=object))
+        if not np.isfinite(b[0]):
             return
-        b = merged.bounds
         self.bounds = [min(self.bounds[0], b[0]), min(self.bounds[1], b[1]),
                        max(self.bounds[2], b[2]), max(self.bounds[3], b[3])]
+        self.runs.append((run.dark, geoms))
         if run.dark:
-            self.acc = fu.add(self.acc, merged)
+            self._has_dark = True
             for g, net in zip(geoms, run.nets):
                 if net is not None:
                     self.net_parts.setdefault(net, []).append(g)
-        elif not self.acc.is_empty:
-            self.acc = fu.cut(self.acc, merged)
+        elif self._has_dark:
             self.cleared = True
+
+    def geometry(self) -> BaseGeometry:
+        return fu.compose(self.runs)
 
 
 def _build_image(objects: list, sr_blocks: list[_SRBlock], f_sr: float, shapes: _Shapes) -> _Image:
@@ -624,7 +629,7 @@ def _build_image(objects: list, sr_blocks: list[_SRBlock], f_sr: float, shapes: 
             image.apply(run)
         block_runs = _runs(objects[block.start:block.end], shapes)
         if all(r.dark for r in block_runs):
-            # all dark: one union per block, copies translated (order cannot matter)
+            # all dark: one run per block, copies translated (order cannot matter)
             geoms = [g for r in block_runs for g in r.geoms]
             nets = [n for r in block_runs for n in r.nets]
             copies = _Run(True, [], [])
@@ -714,6 +719,7 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
     f_sr = unit_factor(target.unit)
     try:
         image = _build_image(objects, parser.sr_blocks, f_sr, shapes)
+        geometry = image.geometry()
         pins, values = _pin_flashes_and_values(objects, parser.sr_blocks, f_sr)
     except (ValueError, TypeError, IndexError, KeyError, ZeroDivisionError) as e:
         raise InputError(f"cannot build Gerber geometry: {type(e).__name__}: {e}", path=str(path)) from None
@@ -727,7 +733,6 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
     if parser.image_negative:
         attributes.setdefault("ImagePolarity", "Negative")
 
-    geometry = image.acc
     function = attributes.get("FileFunction", "")
     negative = parser.image_negative or (
         function.lower().startswith(("copper", "plane")) and attributes.get("FilePolarity", "").lower() == "negative")
