@@ -40,7 +40,7 @@ from shapely.geometry import Polygon, box
 from shapely.geometry.base import BaseGeometry
 
 from gerbonara import graphic_objects as go
-from gerbonara.rs274x import GerberFile, GerberParser
+from gerbonara.rs274x import GerberFile, GerberParser, InterpMode
 from gerbonara.utils import Inch
 
 from ..errors import InputError
@@ -50,6 +50,7 @@ from . import fast_union as fu
 from .aperture_shapes import DEFAULT_TOL_MM, aperture_info, unit_factor
 
 EMPTY = Polygon()
+_LINEAR = InterpMode.LINEAR
 
 
 @dataclass(frozen=True)
@@ -132,6 +133,56 @@ class _Parser(GerberParser):
         self.notes: list[str] = []
         self.more_notes = 0
         self.missing_eof = False
+        self._zero_width: dict[int, bool] = {}
+
+    # -- the common case fast: a linear D01 (a trace segment, or a region contour point) is handled
+    #    here with what gerbonara would do for it, minus its per-statement checks that cannot fire
+    #    (those cases go to gerbonara: arcs, first point, zero-width apertures, image transforms kept)
+    def _parse_coord(self, match):
+        interp, x_s, x, y_s, y, i_s, i, j_s, j, op = match.groups()
+        gs = self.graphics_state
+        if (op != "1" or i or j or gs.point is None or gs.unit is None or self.step_repeat_objects
+                or (interp is None and gs.interpolation_mode is not _LINEAR)
+                or (interp is not None and interp != "G01")):
+            return super()._parse_coord(match)
+        region = self.current_region
+        if region is None:
+            ap = gs.aperture
+            if ap is None:
+                return super()._parse_coord(match)
+            zero = self._zero_width.get(id(ap))
+            if zero is None:
+                zero = self._zero_width[id(ap)] = math.isclose(ap.equivalent_width(), 0)
+            if zero:
+                return super()._parse_coord(match)
+        elif region.unit is not gs.unit:
+            return super()._parse_coord(match)
+        fs = self.file_settings
+        x = fs.parse_gerber_value(x) if x else None
+        if x_s and x is not None:
+            x = -x
+        y = fs.parse_gerber_value(y) if y else None
+        if y_s and y is not None:
+            y = -y
+        self.last_operation = "1"
+        if interp is not None:
+            gs.interpolation_mode = _LINEAR
+        old = gs.point
+        new = gs.point = (old[0] if x is None else x, old[1] if y is None else y)
+        if gs._mat is None:
+            gs._update_xform()
+        a, b, c, d = gs._mat
+        ox, oy = gs.image_offset
+        old = (a * old[0] + b * old[1] + ox, c * old[0] + d * old[1] + oy)   # as map_coord does
+        new = (a * new[0] + b * new[1] + ox, c * new[0] + d * new[1] + oy)
+        if region is None:
+            self.target.objects.append(go.Line(old[0], old[1], new[0], new[1], ap, polarity_dark=gs._polarity_dark,
+                                               unit=gs.unit, attrs=dict(gs.object_attrs)))
+        else:
+            if not region.outline:
+                region.outline.append(old)
+            region.outline.append(new)
+            region.arc_centers.append(None)
 
     # -- warnings: kept on the parser (a few, for the layer's notes), not through the warnings
     #    module: some files raise one per coordinate statement
@@ -798,12 +849,19 @@ def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: flo
         for k in range(block.start, block.end):
             offsets_of[k] = tuple(block.offsets)
     lines, regions = [], []
+    seg_xy, seg_off, seg_at = [], [], []   # straight lines, built in one vectorised call
     for k, obj in enumerate(objects):
         f = unit_factor(obj.unit)
         if isinstance(obj, go.Line):
-            pts = np.array([(obj.x1 * f, obj.y1 * f), (obj.x2 * f, obj.y2 * f)])
-            if np.allclose(pts[0], pts[1]):
-                continue
+            x1, y1, x2, y2 = obj.x1 * f, obj.y1 * f, obj.x2 * f, obj.y2 * f
+            if abs(x1 - x2) <= 1e-8 + 1e-5 * abs(x2) and abs(y1 - y2) <= 1e-8 + 1e-5 * abs(y2):
+                continue      # zero length (the tolerance numpy's allclose used)
+            for dx, dy in offsets_of[k]:
+                seg_xy.append((x1, y1, x2, y2))
+                seg_off.append((dx * f_sr, dy * f_sr))
+                seg_at.append(len(lines))
+                lines.append(None)      # filled below, file order kept
+            continue
         elif isinstance(obj, go.Arc):
             x1, y1 = obj.x1 * f, obj.y1 * f
             pts = arc_points(x1, y1, obj.x2 * f, obj.y2 * f, x1 + obj.cx * f, y1 + obj.cy * f,
@@ -817,6 +875,10 @@ def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: flo
             continue
         for dx, dy in offsets_of[k]:
             lines.append(shapely.LineString(pts + np.array((dx * f_sr, dy * f_sr))))
+    if seg_xy:
+        a = np.asarray(seg_xy, dtype=float) + np.tile(np.asarray(seg_off, dtype=float), 2)
+        for at, ln in zip(seg_at, shapely.linestrings(a.reshape(-1, 2, 2)).tolist()):
+            lines[at] = ln
 
     try:
         return _profile_polygon(lines, regions, join_tol_mm)
@@ -846,14 +908,15 @@ def _profile_polygon(lines: list, regions: list, join_tol_mm: float) -> Polygon:
         reg_best = max(getattr(reg, "geoms", [reg]), key=lambda p: p.area) if not reg.is_empty else EMPTY
         if reg_best.area > best.area:
             best = reg_best
-    drawn = shapely.union_all(np.array(lines + regions, dtype=object)) if (lines or regions) else EMPTY
+    drawn_bounds = shapely.total_bounds(np.array(lines + regions, dtype=object)) if (lines or regions) else None
     if best.is_empty:
         raise ValueError("no closed board outline in this layer (its lines do not join into a closed path"
                          f"{_gap_hint(lines, join_tol_mm)})")
     # the board spans the drawing; a small closed loop inside an open outline is not the board
-    if not drawn.is_empty and box(*best.bounds).area < 0.25 * box(*drawn.bounds).area:
+    drawn_box = box(*drawn_bounds) if drawn_bounds is not None and np.isfinite(drawn_bounds[0]) else EMPTY
+    if not drawn_box.is_empty and box(*best.bounds).area < 0.25 * drawn_box.area:
         raise ValueError("no closed board outline in this layer (the drawn outline is open): the largest closed path spans "
-                         f"{box(*best.bounds).area:.1f} of {box(*drawn.bounds).area:.1f} mm2 of the drawing"
+                         f"{box(*best.bounds).area:.1f} of {drawn_box.area:.1f} mm2 of the drawing"
                          f"{_gap_hint(lines, join_tol_mm)}")
     return best
 
@@ -862,13 +925,15 @@ def _gap_hint(lines: list, grid: float) -> str:
     """Where the drawn path stops: the first line end that no other line meets."""
     if not lines:
         return ""
-    ends: dict = {}
-    for ln in lines:
-        c = np.asarray(ln.coords)
-        for x, y in (c[0], c[-1]):
-            key = (round(x / grid), round(y / grid))
-            ends[key] = ends.get(key, 0) + 1
-    odd = [k for k, n in ends.items() if n % 2]
+    arr = np.asarray(lines, dtype=object)
+    first = shapely.get_coordinates(shapely.get_point(arr, 0))
+    last = shapely.get_coordinates(shapely.get_point(arr, -1))
+    keys = np.rint(np.column_stack((first, last)).reshape(-1, 2) / grid).astype(np.int64)
+    # file order of first appearance, as the dictionary it replaces kept
+    uniq, first_at, counts = np.unique(keys, axis=0, return_index=True, return_counts=True)
+    odd_rows = np.flatnonzero(counts % 2)
+    odd = [tuple(uniq[r]) for r in odd_rows[np.argsort(first_at[odd_rows], kind="stable")]]
+    odd = [(int(a), int(b)) for a, b in odd]
     if not odd:
         return ""
     x, y = odd[0][0] * grid, odd[0][1] * grid
