@@ -72,7 +72,10 @@ def _read_gerbers(fab: FabSet, limits: InputLimits) -> tuple[list, tuple | None]
     workers = min(len(jobs), os.cpu_count() or 1)
     results = None
     if workers > 1 and sum(sizes) >= PARALLEL_MIN_BYTES and "fork" in multiprocessing.get_all_start_methods():
-        order = sorted(range(len(jobs)), key=lambda k: -sizes[k])      # largest first
+        # largest first, so that no long job starts last; the profile is joined and polygonised
+        # along every drawn line and costs about three copper bytes per byte (measured)
+        cost = [s * (3 if kind == "profile" else 1) for (kind, _), s in zip(jobs, sizes)]
+        order = sorted(range(len(jobs)), key=lambda k: -cost[k])
         try:
             with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
                 done = list(pool.map(_read_one, [(jobs[k][0], str(jobs[k][1]), limits) for k in order]))

@@ -45,8 +45,9 @@ def union_many(geoms) -> BaseGeometry:
     """Union of polygons [any units], cluster by cluster.
 
     A few shapes that reach very many others (a ground pour under a whole board) would join every
-    cluster into one; they are kept out of the clustering and added last, each with one binary union
-    of the parts it reaches (measured 2x faster than one cascaded union over everything).
+    cluster into one; they are kept out of the clustering, unioned among themselves and added last
+    with one binary union of the parts they reach (measured 2x faster than one cascaded union over
+    everything).
     """
     arr = np.asarray([g for g in geoms if g is not None and not g.is_empty], dtype=object)
     if len(arr) == 0:
@@ -59,9 +60,8 @@ def union_many(geoms) -> BaseGeometry:
     if big.any() and not big.all():
         small = np.flatnonzero(~big)
         acc = _union_clusters(arr[small], *_sub_pairs(i, j, small, len(arr)))
-        for g in arr[big]:
-            acc = add(acc, g)
-        return acc
+        giants = arr[big]
+        return add(acc, giants[0] if len(giants) == 1 else shapely.union_all(giants))
     return _union_clusters(arr, i, j)
 
 
