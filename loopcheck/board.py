@@ -91,7 +91,7 @@ class Stackup:
 @dataclass
 class Outline:
     geometry: BaseGeometry                   # a Polygon in mm
-    source: str                              # e.g. "profile layer board-Edge_Cuts.gbr"
+    source: str                              # e.g. "profile layer board-outline.gbr"
     from_extent: bool = False                # True when no outline layer was found
 
 

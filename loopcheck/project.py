@@ -7,8 +7,8 @@ Schema (every section optional; unknown keys and wrong types are an InputError n
     fab = "."                         # folder or .zip of fab outputs, relative to this file
 
     [files]                           # explicit mapping, file name (relative to fab) -> role
-    "board-In1_Cu.gbr" = "copper:2"   # copper:N, N = 1 (top) .. layer count (bottom)
-    "board-Edge_Cuts.gbr" = "outline" # also "drill", "netlist", "bom", "ignore"
+    "board-inner1.gbr" = "copper:2"   # copper:N, N = 1 (top) .. layer count (bottom)
+    "board-outline.gbr" = "outline"   # also "drill", "netlist", "bom", "ignore"
 
     [stackup]
     copper_um = [35, 35]              # per copper layer, top to bottom

@@ -422,8 +422,7 @@ def ipc2152_temperature_rise(current_a, width_m, thickness_m, board_thickness_m=
     ----------
     .. [1] IPC-2152, "Standard for Determining Current-Carrying Capacity in Printed Board
        Design", IPC, 2009.
-    .. [2] D. Brooks, J. Adam, "Trace Currents and Temperatures Revisited", UltraCAD Design /
-       PCD&F, 2015 (fit of the IPC-2152 chart; coefficients here from memory).
+    .. [2] D. Brooks, J. Adam, "Trace Currents and Temperatures Revisited", PCD&F, 2015 (fit of the IPC-2152 chart; coefficients here from memory).
     """
     i = np.abs(as_finite("current_a", current_a))
     factor = _ipc2152_factor(width_m, thickness_m, board_thickness_m, plane_distance_m)

@@ -6,8 +6,8 @@ G00 / M15 / G01 / M16). This module adds what it lacks:
     gerbonara understands (line numbers in errors still point at the original file); routed
     arcs (G02/G03, which gerbonara 1.5.0 fails on) become straight slots along their chords;
   * plating from X2-style comments (``; #@! TF.FileFunction,Plated,...`` / ``NonPlated``, tool
-    attributes ``; #@! TA.AperFunction,Plated,...``), from gerbonara's own flag (Altium
-    ``;TYPE=PLATED`` / ``;TYPE=NON_PLATED``, Allegro tool tables), then from the file name
+    attributes ``; #@! TA.AperFunction,Plated,...``), from gerbonara's own flag (the
+    ``;TYPE=PLATED`` / ``;TYPE=NON_PLATED`` comments some exports write, tool-table notes), then from the file name
     (NPTH, unplated, non-plated -> not plated; PTH, plated -> plated);
   * drill data written as Gerber (flashes of round apertures), which some programs export.
 
