@@ -24,8 +24,8 @@ name = "demo"
 fab = "fab"
 
 [files]
-"board-In1_Cu.gbr" = "copper:2"
-"board-Edge_Cuts.gbr" = "outline"
+"board-inner1.gbr" = "copper:2"
+"board-outline.gbr" = "outline"
 
 [stackup]
 copper_um = [35, 17.5, 17.5, 35]
@@ -70,7 +70,7 @@ def test_full_project_file(tmp_path):
     p = load_project(_write(tmp_path, FULL))
     assert p.name == "demo"
     assert p.fab == tmp_path / "fab"
-    assert p.files == {"board-In1_Cu.gbr": "copper:2", "board-Edge_Cuts.gbr": "outline"}
+    assert p.files == {"board-inner1.gbr": "copper:2", "board-outline.gbr": "outline"}
     assert p.stackup.copper_um == [35, 17.5, 17.5, 35]
     assert p.stackup.dielectric_er == [4.2]
     assert p.components == {"RS1": "0.068", "C1": "1e-05"}
