@@ -155,10 +155,6 @@ class ConnectivityResult:
         return {lay: shapely.union_all(polys) if len(polys) > 1 else polys[0]
                 for lay, polys in sorted(per_layer.items())}
 
-    @property
-    def errors(self) -> list[Finding]:
-        return [f for f in self.findings if f.severity == "error"]
-
 
 def net_copper(board: Board, result: ConnectivityResult, net: str) -> dict[int, BaseGeometry]:
     """The copper of a net, per layer index: every island of every group its pads land on.

@@ -156,11 +156,7 @@ def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
     total_loss = 0.0
     loss_missing: list[str] = []
     whats = ("resistance", "temperature_rise", "temperature_rise_ipc2152", "loss")
-    try:
-        from ..physics.dcsolve import two_terminal_resistance
-    except ImportError as exc:
-        two_terminal_resistance = None
-        solver_missing = f"DC solver not available: {exc}"
+    from ..physics.dcsolve import two_terminal_resistance
     for name in ("input", "switch_node", "output", "ground"):
         e = ends[name]
         if isinstance(e, str):
@@ -203,11 +199,6 @@ def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
                                detail={"width_mm": w_mm, "current_a": i_rms,
                                        "plane_distance_mm": pd * 1e3 if pd else None}, **base, **loc))
         temp = op.ambient_c + min(rise, MAX_RISE_FOR_RESISTANCE_K)
-        if two_terminal_resistance is None:
-            out.append(not_made(path_quantity(name, "resistance"), stage, solver_missing, **base))
-            out.append(not_made(path_quantity(name, "loss"), stage, solver_missing, **base))
-            loss_missing.append(name)
-            continue
         try:
             layers, vias, ix = sheets_and_vias(ctx, net, temp)
             ca = pad_contact(ctx, "a", frm, ix, potential_v=1.0)

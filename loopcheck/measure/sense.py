@@ -131,10 +131,7 @@ def _kelvin(ctx, stage, role, pa, pb, tap_a, tap_b, base) -> Measurement:
                             "or give vsense_v", **base)
     else:
         notes.append(f"{role.ref} = {r_val * 1e3:g} mohm")
-    try:
-        from ..physics.dcsolve import solve_dc
-    except ImportError as exc:
-        return not_made(q, stage, f"DC solver not available: {exc}", **base)
+    from ..physics.dcsolve import solve_dc
     current = op.iout_a if op.iout_a > 0 else 1.0
     temp = op.ambient_c
     excl = {role.ref} | {r.ref for r in stage.roles_named("controller")}

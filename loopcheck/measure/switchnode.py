@@ -42,11 +42,7 @@ def measure_switch_node(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
     out = [measurement("switch_node.area", total, stage, drawings=draws,
                        assumptions=["net copper minus the outlines of the net's pads (netlist sizes)"],
                        detail={"per_layer_mm2": per_layer}, **base)]
-    try:
-        from ..physics.capacitance import parallel_plate_capacitance
-    except ImportError as exc:
-        out.append(not_made("switch_node.capacitance", stage, f"capacitance engine not available: {exc}", **base))
-        return out
+    from ..physics.capacitance import parallel_plate_capacitance
     total_c = 0.0
     parts = []
     for k, g in cu.items():
