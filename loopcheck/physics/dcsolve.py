@@ -16,6 +16,15 @@ aperture f rather than "cell in / cell out" makes a uniform current along a stra
 angle exact (the discrete fluxes equal the face integrals of a linear potential), so boundaries
 converge instead of staircasing. Faces open less than 0.1 % are closed.
 
+Units: geometry is in board millimetres, everything else SI
+----------------------------------------------------------
+The copper (per layer a shapely polygon), contact and via pad shapes and the grid pitch are in
+board millimetres [mm], as they come from the board; sheet resistance [ohm/sq], resistances
+[ohm], potentials [V] and currents [A] are SI. This is the one exception to "physics takes SI
+units", made on purpose: the geometry goes straight from the board to the raster, and scaling
+every polygon (and then ~2 million cell centres back) to metres would buy nothing. Sheet
+resistance and the square-cell conductance G_PQ = f_PQ / Rs do not depend on the length unit.
+
 Contacts and via pads are ideal equipotential regions: their cells are merged into one node.
 Where a face leaves such a region the distance from the region's true edge to the outside cell
 centre replaces d_PQ (d = h - l, l = length of the centre-to-centre segment inside the region,

@@ -12,6 +12,11 @@ the grid columns. Face apertures of horizontal faces are exact (one scanline on 
 vertical faces use the same routine on the polygon with x and y swapped, so they are exact too.
 Cell coverage uses ``subrows`` scanlines per cell row (exact in x, sampled in y).
 
+Units: geometry (the shapely polygons, grid origin and pitch, widths) is in board millimetres
+[mm], not SI, on purpose: the polygons come straight from the board, and converting them (and
+some 2 million cells) to metres and back would buy nothing. Coverage and apertures are
+fractions [-], independent of the length unit.
+
 A face that lies exactly on a polygon edge would be "in" or "out" by the half-open rule; the
 face scanline is therefore taken as the mean of two lines a hair (1e-7 h) either side, so such a
 face counts as half open.
