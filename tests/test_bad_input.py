@@ -201,3 +201,35 @@ def test_broken_outline_is_bad_input_but_an_open_one_falls_back(board):
     b = load_board(load_project(folder))
     assert any("gave no closed outline" in a for a in b.assumptions)
     assert not b.outline.from_extent or "extent" in b.outline.source
+
+
+def test_garbage_gerber_beside_a_good_board_is_bad_input(board):
+    # a corrupt bottom layer must not turn the board into a 1-layer board without a word
+    folder, paths = board
+    bad = folder / "board-B_Cu.gbr"
+    bad.write_bytes(os.urandom(20000))
+    inspect_fails(folder, folder, "board-B_Cu.gbr", "looks like a Gerber file by its name but is not readable as one")
+    # mapped as "ignore", it is left out (and the board reads)
+    (folder / "loopcheck.toml").write_text('[files]\n"board-B_Cu.gbr" = "ignore"\n')
+    from loopcheck.readers.discover import discover
+    with discover(folder, mapping={"board-B_Cu.gbr": "ignore"}) as fab:
+        assert fab.layer_count == 2
+        assert any(p.name == "board-B_Cu.gbr" for p, _ in fab.ignored)
+
+
+def test_garbage_drill_file_is_bad_input(board):
+    folder, paths = board
+    paths["drill"].write_bytes(os.urandom(5000))
+    inspect_fails(folder, folder, paths["drill"].name, "looks like an Excellon drill file by its name")
+
+
+def test_garbage_txt_and_job_files_are_still_ignored_quietly(board):
+    from loopcheck.readers.discover import discover
+    folder, paths = board
+    (folder / "notes.txt").write_bytes(os.urandom(300))
+    (folder / "board.gbrjob").write_text('{"Header": {}}\n')
+    (folder / "README").write_text("fab notes\n")
+    with discover(folder) as fab:
+        assert fab.layer_count == 2
+        ignored = {p.name for p, _ in fab.ignored}
+        assert {"notes.txt", "board.gbrjob", "README"} <= ignored

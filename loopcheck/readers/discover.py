@@ -13,7 +13,10 @@ Each file's role is decided from, in this order of trust (the first that speaks 
 
 Content decides the format: a Gerber role needs a Gerber file, a drill an Excellon file, a netlist
 an IPC-D-356 file (sniffed, whatever its name: ``.ipc``, ``.d356``, ``.net`` ...). A BOM or
-placement list is a ``.csv`` file; its path is only recorded.
+placement list is a ``.csv`` file; its path is only recorded. A file whose extension only a Gerber
+(``.gbr``, ``.gtl``, ``.g1`` ...), Excellon (``.drl``, ``.xln`` ...) or IPC-D-356 file carries but
+whose content is not one is an error (a corrupt layer is never silently left out), unless the
+``[files]`` mapping says "ignore"; other files (job files, notes, READMEs) are ignored quietly.
 
 A zip is checked against :class:`loopcheck.limits.InputLimits` (member count, total uncompressed
 size, compression ratio, member paths that leave the folder, links) and extracted to a temporary
@@ -127,7 +130,8 @@ def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
     Raises
     ------
     InputError : a refused or broken zip; no copper layer; two files claiming one copper layer;
-        a mapping that names a file not in the fab outputs.
+        a mapping that names a file not in the fab outputs; a file named like a Gerber, Excellon
+        or IPC-D-356 file whose content is not one (unless mapped as "ignore").
     """
     fab_path = Path(fab_path)
     mapping = dict(mapping or {})
@@ -228,6 +232,11 @@ _EXCELLON_RE = re.compile(r"^\s*M48\b|^\s*;\s*#@!\s*TF\.|^T\d+C\d*\.?\d+", re.M)
 _IPC356_RE = re.compile(r"^P\s+(JOB|UNITS|DIM|NNAME|CODE|TITLE|VER|IMAGE)|^C\s+IPC-D-356", re.M)
 _IPC356_RECORD_RE = re.compile(r"^(317|327|367)\S", re.M)
 _FUNCTION_RE = re.compile(r"TF\.FileFunction,([^*%\n\r]*)")
+# extensions that only Gerber or Excellon files carry: such a file whose content is neither is
+# corrupt, not "some other file" (``.txt`` is left out: it is as often a note as a drill file)
+_GERBER_NAME_RE = re.compile(r"\.(gbr|ger|gerber|pho|art|gtl|gbl|gto|gbo|gts|gbs|gtp|gbp|gko|gml|gpt|gpb"
+                             r"|g\d{1,2}|gm\d{1,2}|gp\d{1,2})$", re.I)
+_EXCELLON_NAME_RE = re.compile(r"\.(drl|xln|exc|drd)$", re.I)
 
 
 def sniff(path: Path) -> tuple[str, str | None]:
@@ -419,6 +428,11 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
         if f.path.suffix.lower() in (".ipc", ".d356") and f.kind != "ipc356":
             raise InputError("named like an IPC-D-356 netlist but its content is not one (binary or "
                              "unknown text); replace it, or map it as \"ignore\" in the project file's [files]",
+                             path=fab.error_name(f.path))
+        if f.kind == "other" and (_GERBER_NAME_RE.search(f.path.name) or _EXCELLON_NAME_RE.search(f.path.name)):
+            what = "a Gerber" if _GERBER_NAME_RE.search(f.path.name) else "an Excellon drill"
+            raise InputError(f"looks like {what} file by its name but is not readable as one (empty, binary "
+                             "or unknown text); replace it, or map it as \"ignore\" in the project file's [files]",
                              path=fab.error_name(f.path))
         if f.kind == "excellon":
             drills[f.rel] = (f, None, "Excellon content")
