@@ -37,6 +37,7 @@ from .board import Board, Pad
 from .errors import InputError
 from .powerstage import OperatingPoint, Role, Stage
 from .project import Project
+from .values import parse_value
 
 # --------------------------------------------------------------------------------------------
 # Component kinds and values
@@ -50,9 +51,6 @@ _PREFIX_KINDS = {
     "U": "ic", "IC": "ic",
     "J": "connector", "P": "connector", "CN": "connector",
 }
-
-_SI_PREFIX = {"p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3,
-              "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "R": 1.0, "r": 1.0}
 
 NO_CONNECT = re.compile(r"^(|N/?C|NO_?CONNECT|UNCONNECTED.*)$", re.I)
 GROUND_NAMES = re.compile(r"^(P|A|D|S)?(GND|GROUND|VSS|0V|COM|AGND|PGND)(\d*|_.*)?$", re.I)
@@ -72,32 +70,6 @@ def component_kind(ref: str, pad_count: int) -> str:
     if pad_count >= 5:
         return "ic"
     return "other"
-
-
-def parse_value(text: str | None) -> float | None:
-    """A part value as a number in SI units: "0.1", "100m", "0R1", "4u7", "10uF", "1k5" -> float.
-
-    Returns None when the text holds no number (a part number, "DNP").
-    """
-    if text is None:
-        return None
-    t = str(text).strip().replace(" ", "")
-    t = re.sub(r"(?i)(ohms?|Ω|farads?|henrys?|F|H|V|A|W)$", "", t)
-    m = re.fullmatch(r"(\d+(?:\.\d*)?|\.\d+)(?:([pnuµμmkKMGRr])(\d*))?(?:[eE]([+-]?\d+))?", t)
-    if not m:
-        return None
-    number, prefix, tail, exponent = m.groups()
-    if prefix:
-        if tail:
-            if "." in number:
-                return None
-            number = f"{number}.{tail}"
-        value = float(number) * _SI_PREFIX[prefix]
-    else:
-        value = float(number)
-    if exponent:
-        value *= 10.0 ** int(exponent)
-    return value
 
 
 @dataclass

@@ -151,6 +151,6 @@ def test_rms_currents_of_a_boost_and_its_switch_current():
                                          ("10uF", 10e-6), ("4u7", 4.7e-6), ("2.2k", 2200.0), ("100nF", 100e-9),
                                          ("1R5", 1.5), ("junk", None), (None, None)])
 def test_part_values(text, value):
-    from loopcheck.measure.common import parse_value
+    from loopcheck.values import parse_value
     got = parse_value(text)
     assert got == (None if value is None else pytest.approx(value))

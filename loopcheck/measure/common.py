@@ -1,12 +1,12 @@
-"""Small helpers shared by the measurement modules: building Measurements, reading part values."""
+"""Small helpers shared by the measurement modules: building Measurements, duty cycle, switch current."""
 
 from __future__ import annotations
 
-import re
 from typing import Any
 
 from ..findings import Drawing, Measurement
 from ..powerstage import OperatingPoint, Stage
+from ..values import parse_value  # noqa: F401  (re-exported for the measurement modules)
 from . import QUANTITIES, base_quantity
 
 
@@ -36,28 +36,6 @@ def polygon(points, layer: str | None = None) -> Drawing:
 
 def point(x: float, y: float, layer: str | None = None) -> Drawing:
     return Drawing("point", [(float(x), float(y))], layer)
-
-
-_PREFIX = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "m": 1e-3, "k": 1e3, "K": 1e3,
-           "M": 1e6, "R": 1.0, "r": 1.0, "": 1.0}
-
-
-def parse_value(text: str | float | None) -> float | None:
-    """A part value in SI units: "0.068", "68m", "68mR", "0R068", "10uF", "4u7", "2.2k" -> float; None if unreadable."""
-    if text is None:
-        return None
-    if isinstance(text, (int, float)):
-        return float(text)
-    s = str(text).strip().replace(" ", "").replace("Ω", "").replace("ohm", "").replace("Ohm", "")
-    s = re.sub(r"(?i)(F|H|V|A)$", "", s)
-    s = re.sub(r"(?<=[fpnuµmkKM])[Rr]$", "", s)        # "68mR": the R only says ohms
-    m = re.fullmatch(r"([0-9]*\.?[0-9]+(?:[eE][-+]?[0-9]+)?)([fpnuµmkKMRr]?)", s)
-    if m:
-        return float(m.group(1)) * _PREFIX[m.group(2)]
-    m = re.fullmatch(r"([0-9]*)([fpnuµmkKMRr])([0-9]+)", s)     # 4u7, 0R068, 2k2
-    if m:
-        return float(f"{m.group(1) or 0}.{m.group(3)}") * _PREFIX[m.group(2)]
-    return None
 
 
 def duty_cycle(stage: Stage, op: OperatingPoint, vin_v: float) -> tuple[float, str | None]:

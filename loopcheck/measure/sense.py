@@ -23,7 +23,8 @@ from shapely.ops import unary_union
 from ..board import Pad
 from ..findings import Measurement
 from ..powerstage import Stage
-from .common import measurement, not_made, op_assumptions, parse_value, point, polygon, polyline
+from ..values import parse_value
+from .common import measurement, not_made, op_assumptions, point, polygon, polyline
 from .dcnet import pad_contact, sheets_and_vias
 from .hotloop import enclosed_area
 from .netcopper import MeasureContext
