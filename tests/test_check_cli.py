@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import json
 import os
+import time
 from pathlib import Path
 
 import pytest
@@ -168,10 +169,36 @@ def test_led_driver_deck_is_stricter(fake_pipeline):
     assert json.loads(r.output)["deck"]["name"] == "led-driver"
 
 
-def test_progress_is_silent_when_not_a_terminal(fake_pipeline):
-    r = CliRunner(mix_stderr=False).invoke(main, ["check", "board"]) if "mix_stderr" in \
-        CliRunner.__init__.__code__.co_varnames else CliRunner().invoke(main, ["check", "board"])
-    assert "loopcheck: measuring" not in (getattr(r, "stderr", "") or "")
+@pytest.fixture
+def slow_pipeline(fake_pipeline, monkeypatch):
+    """The fake pipeline with a measuring step that outlasts the progress delay (1 s)."""
+    fast = check_cmd._analyse
+
+    def slow(board, project):
+        time.sleep(1.2)
+        return fast(board, project)
+
+    monkeypatch.setattr(check_cmd, "_analyse", slow)
+
+
+def test_progress_is_silent_when_not_a_terminal(slow_pipeline):
+    r = CliRunner().invoke(main, ["check", "board"])     # CliRunner's stderr is no terminal
+    assert r.exit_code == 1
+    assert "Result: FAIL" in r.stdout
+    assert r.stderr == ""
+
+
+def test_progress_shows_the_slow_step_of_the_pipeline(slow_pipeline):
+    # the counterpart of the test above: the same slow pipeline with progress on does print
+    import io
+
+    buf = io.StringIO()
+    result = check_cmd.run_check("board", None, "error", check_cmd.Progress(enabled=True, stream=buf))
+    assert result.failed
+    lines = buf.getvalue().splitlines()
+    assert lines[0] == "loopcheck: measuring the power stages ..."
+    assert lines[1].startswith("loopcheck: measuring the power stages: 1.")
+    assert len(lines) == 2          # the quick steps say nothing
 
 
 def test_progress_names_slow_steps_on_a_terminal():
@@ -191,6 +218,24 @@ def test_progress_names_slow_steps_on_a_terminal():
     with check_cmd.Progress(enabled=False, stream=quiet).step("slow step"):
         time.sleep(1.1)
     assert quiet.getvalue() == ""
+
+
+def test_fail_on_incomplete(fake_pipeline, monkeypatch):
+    fake_pipeline("tidy")
+    r = run("check", "board", "--format", "json")
+    data = json.loads(r.output)
+    assert r.exit_code == 0 and data["result"]["gaps"]          # passes, but with gaps
+    r = run("check", "board", "--fail-on-incomplete")
+    assert r.exit_code == 1 and "INCOMPLETE" in r.output
+    # without gaps the flag changes nothing
+    from reportfixtures import make_analysis as fresh
+
+    a = fresh("tidy")
+    a.measurements = [m for m in a.measurements if m.value is not None]
+    monkeypatch.setattr(check_cmd, "_analyse", lambda board, project: a)
+    r = run("check", "board", "--fail-on-incomplete", "--format", "json")
+    assert r.exit_code == 0 and json.loads(r.output)["result"]["gaps"] == []
+    assert "--fail-on-incomplete" in run("check", "--help").output
 
 
 def test_explain_and_rules_commands():

@@ -39,7 +39,8 @@ def test_a_case_per_rule_per_stage(tmp_path):
     r = make_result("sprawl")
     xml = parse(tmp_path, r)
     suites = {s.name: s for s in xml}
-    assert set(suites) == {"led-sprawl.board", "led-sprawl.stage1"}
+    # the coverage suite holds what the check did not cover (here: the decoupling measurement)
+    assert set(suites) == {"led-sprawl.board", "led-sprawl.stage1", "led-sprawl.coverage"}
     names = [c.name for c in suites["led-sprawl.stage1"]]
     for rule in ("hot-loop-area", "input-cap-distance", "sense-kelvin", "copper-loss"):
         assert names.count(rule) == 1
@@ -60,7 +61,10 @@ def test_waived_and_not_made_are_skipped(tmp_path):
     dec = by_name["controller-decoupling"]
     assert isinstance(dec.result[0], Skipped) and "not measured" in dec.result[0].message
     assert by_name["switch-overshoot"].is_passed
-    assert sum(s.skipped for s in xml) == 2
+    # waived + not made in the stage suite, and the same not-made measurement as a coverage gap
+    assert sum(s.skipped for s in xml) == 3
+    assert {s.name: s.skipped for s in xml} == {"led-sprawl.board": 0, "led-sprawl.stage1": 2,
+                                                "led-sprawl.coverage": 1}
 
 
 def test_tidy_board_has_no_failures(tmp_path):
@@ -83,3 +87,27 @@ def test_board_cases_skip_without_netlist_or_when_off(tmp_path):
     board = next(s for s in xml if s.name.endswith(".board"))
     for case in board:
         assert isinstance(case.result[0], Skipped) and "no netlist" in case.result[0].message
+
+
+def test_each_gap_is_a_skipped_coverage_case(tmp_path):
+    r = make_result("tidy")
+    r.analysis.connectivity_checked = False
+    gaps = r.gaps
+    assert len(gaps) == 2 and "connectivity not checked" in gaps[0]
+    xml = parse(tmp_path, r)
+    cov = next(s for s in xml if s.name.endswith(".coverage"))
+    got = list(cov)
+    assert [c.name for c in got] == gaps
+    assert all(c.classname == cov.name for c in got)
+    assert all(isinstance(c.result[0], Skipped) and c.result[0].message == f"not covered: {g}"
+               for c, g in zip(got, gaps))
+    assert cov.tests == cov.skipped == 2 and cov.failures == 0
+    assert xml.skipped == sum(s.skipped for s in xml)
+
+
+def test_a_complete_check_has_no_coverage_suite(tmp_path):
+    r = make_result("tidy")
+    r.analysis.measurements = [m for m in r.analysis.measurements if m.value is not None]
+    assert r.gaps == []
+    xml = parse(tmp_path, r)
+    assert not [s for s in xml if s.name.endswith(".coverage")]

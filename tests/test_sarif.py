@@ -117,3 +117,33 @@ def test_zipped_board_names_the_member(tmp_path):
     art = area["locations"][0]["physicalLocation"]["artifactLocation"]
     assert art == {"uri": "rev-b.zip", "uriBaseId": "BOARDROOT",
                    "properties": {"member": "board-F_Cu.gbr"}}
+
+
+def test_gaps_are_tool_execution_notifications(sprawl):
+    gaps = sprawl.gaps
+    assert gaps
+    doc = json.loads(render_sarif(sprawl))
+    validate(doc)
+    inv = doc["runs"][0]["invocations"]
+    assert len(inv) == 1 and inv[0]["executionSuccessful"] is True
+    notes = inv[0]["toolExecutionNotifications"]
+    assert [n["message"]["text"] for n in notes] == gaps
+    assert all(n["level"] == "warning" for n in notes)
+    assert inv[0]["properties"]["complete"] is False
+
+
+def test_a_check_without_gaps_has_no_notifications():
+    r = make_result("tidy")
+    r.analysis.measurements = [m for m in r.analysis.measurements if m.value is not None]
+    assert r.gaps == []
+    doc = json.loads(render_sarif(r))
+    validate(doc)
+    inv = doc["runs"][0]["invocations"][0]
+    assert inv["toolExecutionNotifications"] == [] and inv["properties"]["complete"] is True
+
+
+def test_schema_catches_a_notification_without_a_message(sprawl):
+    doc = json.loads(render_sarif(sprawl))
+    doc["runs"][0]["invocations"][0]["toolExecutionNotifications"][0].pop("message")
+    with pytest.raises(jsonschema.ValidationError):
+        validate(doc)

@@ -169,12 +169,16 @@ def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None 
               help="Where the report of the matching --format goes ('-' or none: stdout).")
 @click.option("--fail-on", type=click.Choice(FAIL_ON), default="error", show_default=True,
               help="Exit 1 when an unwaived finding is at or above this severity.")
+@click.option("--fail-on-incomplete", is_flag=True,
+              help="Also exit 1 when the check did not cover everything (no netlist, no power "
+                   "stage found, measurements not made); the reports list what was not covered.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress messages on stderr.")
 def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tuple[str, ...],
-            fail_on: str, quiet: bool) -> None:
+            fail_on: str, fail_on_incomplete: bool, quiet: bool) -> None:
     """Check the power stages of BOARD (a fab-output folder, .zip or loopcheck.toml).
 
-    Exit code 0: no unwaived finding at or above --fail-on; 1: there are some; 2: bad input.
+    Exit code 0: no unwaived finding at or above --fail-on (and, with --fail-on-incomplete,
+    nothing left uncovered); 1: there are some; 2: bad input.
     """
     pairs = pair_outputs(formats, outputs)
     for _, out in pairs:
@@ -183,4 +187,4 @@ def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tup
     progress = Progress(enabled=not quiet and sys.stderr.isatty())
     result = run_check(board, deck, fail_on, progress)
     emit(result, pairs, progress)
-    sys.exit(1 if result.failed else 0)
+    sys.exit(1 if result.failed or (fail_on_incomplete and result.gaps) else 0)

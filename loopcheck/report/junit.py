@@ -2,7 +2,8 @@
 (per path for the path rules), a failure per unwaived finding at or above ``--fail-on``.
 
 Waived findings and measurements that could not be made are skipped test cases; findings below
-the threshold pass, with the finding in the case's output. Formatting only.
+the threshold pass, with the finding in the case's output. What the check did not cover
+(``CheckResult.gaps``) is a skipped case each in a ``<board>.coverage`` suite. Formatting only.
 """
 
 from __future__ import annotations
@@ -55,6 +56,12 @@ def render_junit(result: CheckResult) -> str:
             skip = "rule switched off in the deck"
         suites.setdefault(suite_of(c.stage), []).append(
             (_case_name(c.rule, c.quantity), c.rule, fs, skip))
+
+    # What the check did not cover: a skipped case each, so a CI's test view shows the run
+    # as incomplete rather than as a plain pass.
+    gaps = list(dict.fromkeys(result.gaps))
+    if gaps:
+        suites[f"{board}.coverage"] = [(gap, "coverage", [], f"not covered: {gap}") for gap in gaps]
 
     root = ET.Element("testsuites", name=f"loopcheck {board}")
     totals = {"tests": 0, "failures": 0, "skipped": 0}

@@ -1,6 +1,7 @@
 """SARIF 2.1.0: one result per finding, rule metadata from the rule docs, the copper layer's
 Gerber file as the physical location, stage / terminals / nets as logical locations, waived
-findings as suppressions. Formatting only."""
+findings as suppressions, what the check did not cover as tool execution notifications of the
+run's invocation. Formatting only."""
 
 from __future__ import annotations
 
@@ -178,6 +179,14 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
         "properties": {"board": board.name, "deck": result.deck.name,
                        "fail_on": result.fail_on, "failed": result.failed},
     }
+    # The run itself succeeded; what it did not cover (no netlist, no stage, measurements not
+    # made) is a warning notification each, so a SARIF viewer shows the check as incomplete.
+    run["invocations"] = [{
+        "executionSuccessful": True,
+        "toolExecutionNotifications": [{"level": "warning", "message": {"text": gap}}
+                                       for gap in dict.fromkeys(result.gaps)],
+        "properties": {"complete": not result.gaps},
+    }]
     if root is not None:
         run["originalUriBaseIds"] = {BASE_ID: {"uri": root.resolve().as_uri() + "/"}}
     return {"$schema": SARIF_SCHEMA_URI, "version": "2.1.0", "runs": [run]}
