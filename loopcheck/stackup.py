@@ -28,6 +28,9 @@ DEFAULT_EPS_R = 4.5
 OUTER_COPPER_UM = 35.0
 INNER_COPPER_UM = 17.5
 FOUR_LAYER_DIELECTRIC_UM = (200.0, 1065.0, 200.0)   # prepreg, core, prepreg
+# a finished thickness that far from the copper + dielectric is a mistake, not plating or
+# solder mask (which add some tens of um to the stack)
+FINISHED_TOLERANCE = 0.10
 
 
 def build_stackup(layer_count: int, spec: StackupSpec | None = None,
@@ -44,7 +47,8 @@ def build_stackup(layer_count: int, spec: StackupSpec | None = None,
 
     Raises
     ------
-    InputError : a ``[stackup]`` list whose length does not fit the layer count.
+    InputError : a ``[stackup]`` list whose length does not fit the layer count; a given
+        ``finished_mm`` more than 10 % away from the given dielectric plus the copper.
     """
     if layer_count < 1:
         raise InputError("no copper layers", path=str(project_path) if project_path else None)
@@ -103,6 +107,16 @@ def build_stackup(layer_count: int, spec: StackupSpec | None = None,
         er = [er_given[0]] * len(diel_um)
     else:
         er = list(er_given)
+
+    # Both given: they must agree, since via lengths and loop heights use the copper + dielectric
+    # while the IPC-2152 board-thickness modifier uses the finished thickness.
+    if spec.dielectric_um is not None and spec.finished_mm is not None and n > 1:
+        stack_mm = (sum(copper_um) + sum(diel_um)) * 1e-3
+        if abs(stack_mm - spec.finished_mm) > FINISHED_TOLERANCE * spec.finished_mm:
+            raise fail("finished_mm", f"{spec.finished_mm:g} mm, but the copper and dielectric "
+                                      f"add up to {stack_mm:.4g} mm (more than "
+                                      f"{FINISHED_TOLERANCE:.0%} apart); correct one of them, or "
+                                      f"leave finished_mm out to use the sum")
 
     # finished thickness
     if spec.finished_mm is not None:

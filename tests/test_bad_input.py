@@ -233,3 +233,31 @@ def test_garbage_txt_and_job_files_are_still_ignored_quietly(board):
         assert fab.layer_count == 2
         ignored = {p.name for p, _ in fab.ignored}
         assert {"notes.txt", "board.gbrjob", "README"} <= ignored
+
+
+def test_stackup_finished_thickness_far_from_the_layers():
+    from loopcheck.project import StackupSpec
+    from loopcheck.stackup import build_stackup
+
+    spec = StackupSpec(dielectric_um=[300], finished_mm=1.6)     # 0.37 mm of layers, 1.6 finished
+    lines = {"stackup.finished_mm": 9}
+    with pytest.raises(InputError) as info:
+        build_stackup(2, spec, project_path="b/loopcheck.toml", line_of=lines.get)
+    msg = str(info.value)
+    assert msg.startswith("b/loopcheck.toml:9: stackup.finished_mm: 1.6 mm")
+    assert "add up to 0.37 mm" in msg
+    # within 10 %: accepted (1.54 mm of layers against 1.6 mm finished)
+    s, _ = build_stackup(4, StackupSpec(copper_um=[35] * 4, dielectric_um=[200, 1000, 200],
+                                        finished_mm=1.6))
+    assert s.finished_thickness_m == pytest.approx(1.6e-3)
+    # just past 10 % on the thick side too: 1.6 mm of layers against 1.45 mm finished
+    with pytest.raises(InputError, match="stackup.finished_mm: 1.45 mm"):
+        build_stackup(2, StackupSpec(copper_um=[35, 35], dielectric_um=[1530], finished_mm=1.45))
+
+
+def test_inconsistent_stackup_in_the_project_file_is_bad_input(board):
+    folder, paths = board
+    (folder / "loopcheck.toml").write_text('[board]\nname = "x"\n\n[stackup]\ndielectric_um = [300]\n'
+                                          'finished_mm = 1.6\n')
+    msg = inspect_fails(folder, folder, "loopcheck.toml:6:", "stackup.finished_mm", "1.6 mm", "0.37 mm")
+    assert "Traceback" not in msg
