@@ -75,6 +75,7 @@ Values: numbers may be integers or floats; ``[components]`` values may be string
 """
 from __future__ import annotations
 
+import math
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -85,11 +86,23 @@ from .errors import InputError
 
 PROJECT_FILE_NAME = "loopcheck.toml"
 
-# Keys of [operating_point] and [stages.NAME.operating_point]; vin_v may also be [min, max].
-OPERATING_POINT_KEYS = (
-    "vin_v", "vout_v", "iout_a", "fsw_hz", "edge_ns", "vsense_v", "ambient_c",
-    "switch_capacitance_pf", "ripple_ratio",
-)
+# Keys of [operating_point] and [stages.NAME.operating_point] -> (OperatingPoint field, scale to
+# SI). vin_v, one number or [min, max], sets vin_min_v and vin_max_v.
+OPERATING_POINT_FIELDS: dict[str, tuple[str, float] | None] = {
+    "vin_v": None,
+    "vout_v": ("vout_v", 1.0),
+    "iout_a": ("iout_a", 1.0),
+    "fsw_hz": ("fsw_hz", 1.0),
+    "edge_ns": ("edge_s", 1e-9),
+    "vsense_v": ("vsense_v", 1.0),
+    "ambient_c": ("ambient_c", 1.0),
+    "switch_capacitance_pf": ("switch_capacitance_f", 1e-12),
+    "ripple_ratio": ("ripple_ratio", 1.0),
+}
+OPERATING_POINT_KEYS = tuple(OPERATING_POINT_FIELDS)
+# operating-point values that must be positive; ripple_ratio must lie in RIPPLE_RATIO_RANGE
+OPERATING_POINT_POSITIVE = ("vin_v", "iout_a", "fsw_hz", "edge_ns", "switch_capacitance_pf")
+RIPPLE_RATIO_RANGE = (0.0, 2.0)
 # [stages.NAME] keys: components named by reference, lists of references, nets, the topology.
 STAGE_REF_KEYS = ("switch", "rectifier", "inductor", "sense_resistor", "controller",
                   "controller_decoupling")
@@ -257,16 +270,21 @@ class _Checker:
             raise self.fail(keys, "expected a string")
         return value
 
-    def number(self, value: Any, keys: tuple[str, ...], positive: bool = False) -> float:
+    def number(self, value: Any, keys: tuple[str, ...], positive: bool = False, finite: bool = False) -> float:
         if not _is_number(value):
             raise self.fail(keys, "expected a number")
+        if finite and not math.isfinite(value):
+            raise self.fail(keys, f"expected a finite number, got {value}")
         if positive and not value > 0:
             raise self.fail(keys, f"expected a positive number, got {value}")
         return float(value)
 
-    def numbers(self, value: Any, keys: tuple[str, ...], positive: bool = False) -> list[float]:
+    def numbers(self, value: Any, keys: tuple[str, ...], positive: bool = False,
+                finite: bool = False) -> list[float]:
         if not isinstance(value, list) or not value or not all(_is_number(v) for v in value):
             raise self.fail(keys, "expected a list of numbers")
+        if finite and not all(math.isfinite(v) for v in value):
+            raise self.fail(keys, "expected a list of finite numbers")
         if positive and not all(v > 0 for v in value):
             raise self.fail(keys, "expected positive numbers")
         return [float(v) for v in value]
@@ -279,17 +297,27 @@ class _Checker:
         return list(value)
 
     def operating_point(self, value: Any, keys: tuple[str, ...]) -> dict[str, Any]:
+        """An [operating_point] table, checked: finite numbers, positive where they must be,
+        ripple_ratio in 0..2, vin_v one number or [min, max] with min <= max."""
         table = self.table(value, keys)
         self.known(table, keys, OPERATING_POINT_KEYS)
         out: dict[str, Any] = {}
         for k, v in table.items():
+            where = keys + (k,)
+            positive = k in OPERATING_POINT_POSITIVE
             if k == "vin_v" and isinstance(v, list):
-                vals = self.numbers(v, keys + (k,))
+                vals = self.numbers(v, where, finite=True)
                 if len(vals) != 2 or vals[0] > vals[1]:
-                    raise self.fail(keys + (k,), "expected one number or a range [min, max]")
+                    raise self.fail(where, "expected one number or a range [min, max]")
+                if not vals[0] > 0:
+                    raise self.fail(where, f"expected a positive input voltage, got {v}")
                 out[k] = vals
-            else:
-                out[k] = self.number(v, keys + (k,))
+                continue
+            number = self.number(v, where, positive, finite=True)
+            lo, hi = RIPPLE_RATIO_RANGE
+            if k == "ripple_ratio" and not lo <= number <= hi:
+                raise self.fail(where, f"expected {lo:g}..{hi:g}, got {v}")
+            out[k] = number
         return out
 
 

@@ -36,7 +36,7 @@ from typing import Any, Iterable
 from .board import Board, Pad
 from .errors import InputError
 from .powerstage import OperatingPoint, Role, Stage
-from .project import Project
+from .project import OPERATING_POINT_FIELDS, Project
 from .values import parse_value
 
 # --------------------------------------------------------------------------------------------
@@ -150,33 +150,15 @@ def _project_error(path: str | None, dotted: str, message: str) -> InputError:
 # --------------------------------------------------------------------------------------------
 # Operating point
 
-# project key -> (OperatingPoint field, scale to SI)
-_OP_KEYS = {
-    "vin_v": None,                       # special: a range or one number
-    "vout_v": ("vout_v", 1.0),
-    "iout_a": ("iout_a", 1.0),
-    "fsw_hz": ("fsw_hz", 1.0),
-    "edge_ns": ("edge_s", 1e-9),
-    "vsense_v": ("vsense_v", 1.0),
-    "ambient_c": ("ambient_c", 1.0),
-    "switch_capacitance_pf": ("switch_capacitance_f", 1e-12),
-    "ripple_ratio": ("ripple_ratio", 1.0),
-}
-
-
-def _number(value: Any, key: str, path: str | None) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-        raise _project_error(path, key, f"{key}: expected a number, got {value!r}")
-    return float(value)
-
-
 def operating_point(project: Project, stage_name: str) -> OperatingPoint:
     """The operating point of one stage: defaults, then ``[operating_point]``, then
     ``[stages.NAME.operating_point]``. ``sources`` maps each field to where its value came from
     ("default", "loopcheck.toml [operating_point]" or "loopcheck.toml [stages.NAME.operating_point]").
+
+    The values were checked when the project file was read (loopcheck.project); here they are
+    only merged. Whether they suit the stage's topology is :func:`check_operating_point`'s job.
     """
     op = OperatingPoint()
-    path = str(project.path) if project.path else None
     sources = {f.name: "default" for f in fields(OperatingPoint) if f.name != "sources"}
     layers: list[tuple[str, dict[str, Any]]] = [("operating_point", project.operating_point or {})]
     for spec in project.stages:
@@ -184,33 +166,44 @@ def operating_point(project: Project, stage_name: str) -> OperatingPoint:
             layers.append((f"stages.{stage_name}.operating_point", spec.operating_point or {}))
     for section, values in layers:
         for key, value in values.items():
-            full = f"{section}.{key}"
-            if key not in _OP_KEYS:
-                raise _project_error(path, full, f"unknown key {full}")
             if key == "vin_v":
-                if isinstance(value, (list, tuple)):
-                    if len(value) != 2:
-                        raise _project_error(path, full, f"{full}: expected [min, max] or one number")
-                    lo, hi = (_number(v, full, path) for v in value)
-                    if lo > hi:
-                        raise _project_error(path, full, f"{full}: minimum {lo} above maximum {hi}")
-                else:
-                    lo = hi = _number(value, full, path)
-                if lo <= 0:
-                    raise _project_error(path, full, f"{full}: input voltage must be positive")
-                op.vin_min_v, op.vin_max_v = lo, hi
+                lo, hi = value if isinstance(value, (list, tuple)) else (value, value)
+                op.vin_min_v, op.vin_max_v = float(lo), float(hi)
                 sources["vin_min_v"] = sources["vin_max_v"] = f"loopcheck.toml [{section}]"
                 continue
-            name, scale = _OP_KEYS[key]
-            number = _number(value, full, path)
-            if key in ("iout_a", "fsw_hz", "edge_ns", "switch_capacitance_pf") and number <= 0:
-                raise _project_error(path, full, f"{full}: must be positive, got {value!r}")
-            if key == "ripple_ratio" and not 0 <= number <= 2:
-                raise _project_error(path, full, f"{full}: expected 0..2, got {value!r}")
-            setattr(op, name, number * scale)
+            name, scale = OPERATING_POINT_FIELDS[key]
+            setattr(op, name, float(value) * scale)
             sources[name] = f"loopcheck.toml [{section}]"
     op.sources = sources
     return op
+
+
+def check_operating_point(project: Project, stage: Stage) -> None:
+    """Raise InputError, naming the project file and the key, when the stage's topology cannot
+    produce its output voltage from its input: a buck needs 0 < vout < vin_min, a boost
+    vout > vin_max, an inverting buck-boost any vout other than 0 (either sign is read as |vout|).
+    """
+    op = stage.operating_point
+    vout = op.vout_v
+    if vout is None:
+        return
+    key = "operating_point.vout_v"
+    if any(s.name == stage.name and "vout_v" in (s.operating_point or {}) for s in project.stages):
+        key = f"stages.{stage.name}.operating_point.vout_v"
+    vin_src = op.sources.get("vin_min_v", "default")
+    vin_src = "default" if vin_src == "default" else vin_src.replace("loopcheck.toml ", "")
+    problem = None
+    if stage.topology == "buck" and not 0 < vout < op.vin_min_v:
+        problem = (f"a buck cannot make {vout:g} V from a minimum input of {op.vin_min_v:g} V ({vin_src}): "
+                   "vout must lie between 0 and vin_min")
+    elif stage.topology == "boost" and not vout > op.vin_max_v:
+        problem = (f"a boost cannot make {vout:g} V from a maximum input of {op.vin_max_v:g} V ({vin_src}): "
+                   "vout must exceed vin_max")
+    elif stage.topology == "buck-boost" and vout == 0:
+        problem = "a buck-boost needs a non-zero output voltage"
+    if problem:
+        path = str(project.path) if project.path else None
+        raise InputError(f"{key}: stage {stage.name}: {problem}", path=path, line=project.line_of(key))
 
 
 _OP_LABELS = {
@@ -1411,6 +1404,7 @@ def find_stages(board: Board, project: Project) -> StageSearch:
         messages.insert(0, "no netlist file: pads and nets taken from the Gerber X2 pad attributes")
     for stage in stages:
         stage.operating_point = operating_point(project, stage.name)
+        check_operating_point(project, stage)
         op = stage.operating_point
         sense = stage.role("sense_resistor")
         if sense is not None and op.vsense_v is None:

@@ -332,9 +332,77 @@ def test_operating_point_defaults_and_errors():
     assert all(v == "default" for v in op.sources.values())
     op = operating_point(project(operating_point={"edge_ns": 10, "switch_capacitance_pf": 300}), "x")
     assert op.edge_s == pytest.approx(10e-9) and op.switch_capacitance_f == pytest.approx(300e-12)
-    for bad in ({"iout_a": "lots"}, {"vin_v": [40, 20]}, {"fsw_hz": -1}, {"speed": 3}):
-        with pytest.raises(InputError):
-            operating_point(project(operating_point=bad), "x")
+    # the values themselves are checked when the file is read (tests/test_project.py); here they merge
+    op = operating_point(project(operating_point={"vin_v": [20.0, 40.0], "vout_v": 12.0},
+                                 stages=[StageSpec("x", operating_point={"vin_v": 30.0})]), "x")
+    assert (op.vin_min_v, op.vin_max_v, op.vout_v) == (30.0, 30.0, 12.0)
+    assert op.sources["vin_min_v"] == "loopcheck.toml [stages.x.operating_point]"
+    assert op.sources["vout_v"] == "loopcheck.toml [operating_point]"
+
+
+
+@pytest.mark.parametrize("parts, op, ok", [
+    (LED_BUCK, {"vin_v": [20.0, 40.0], "vout_v": 12.0}, True),
+    (LED_BUCK, {"vin_v": [20.0, 40.0], "vout_v": 20.0}, False),     # vout = vin_min: no headroom at all
+    (LED_BUCK, {"vin_v": [20.0, 40.0], "vout_v": 30.0}, False),     # above vin_min
+    (LED_BUCK, {"vin_v": 12.0, "vout_v": -5.0}, False),
+    (LED_BUCK, {"vout_v": 15.0}, False),                            # the default input 12..24 V
+    (BOOST, {"vin_v": [5.0, 12.0], "vout_v": 24.0}, True),
+    (BOOST, {"vin_v": [5.0, 12.0], "vout_v": 12.0}, False),         # vout = vin_max
+    (BOOST, {"vin_v": [5.0, 12.0], "vout_v": 9.0}, False),
+])
+def test_impossible_operating_point_is_an_input_error(tmp_path, parts, op, ok):
+    f = tmp_path / "loopcheck.toml"
+    f.write_text("[operating_point]\n" + "".join(f"{k} = {v}\n" for k, v in op.items()))
+    from loopcheck.project import load_project
+    proj = load_project(f)
+    board = board_from(parts)
+    topology = "boost" if parts is BOOST else "buck"
+    assert find_stages(board, project()).stages[0].topology == topology     # the check is per topology
+    if ok:
+        st = find_stages(board, proj).stages
+        assert st and st[0].operating_point.vout_v == op["vout_v"]
+        return
+    with pytest.raises(InputError) as info:
+        find_stages(board, proj)
+    msg = str(info.value)
+    line = 1 + list(op).index("vout_v") + 1
+    assert msg.startswith(f"{f}:{line}: operating_point.vout_v: stage stage1: ")
+    assert "cannot make" in msg and "\n" not in msg
+
+
+def test_impossible_operating_point_names_the_stage_key(tmp_path):
+    f = tmp_path / "loopcheck.toml"
+    f.write_text('[operating_point]\nvin_v = [20, 40]\n\n[stages.led.operating_point]\nvout_v = 45\n')
+    from loopcheck.project import load_project
+    with pytest.raises(InputError) as info:
+        find_stages(board_from(LED_BUCK), load_project(f))
+    assert str(info.value).startswith(f"{f}:5: stages.led.operating_point.vout_v: stage led: a buck cannot make 45 V")
+
+
+def test_impossible_operating_point_cli_exit_2(tmp_path):
+    """The whole program: one line naming the file, the line and the key; exit 2; no traceback."""
+    import shutil
+
+    from click.testing import CliRunner
+
+    from loopcheck.cli import main
+    # a discrete buck (Schottky rectifier: the topology is fixed by the parts, not by the voltages)
+    src = Path(__file__).parents[1] / "boards" / "led-driver-tidy"
+    board = tmp_path / "board"
+    shutil.copytree(src, board)
+    toml = board / "loopcheck.toml"
+    text = toml.read_text()
+    assert "vout_v = 12.0" in text and "vin_v = [20, 40]" in text
+    toml.write_text(text.replace("vout_v = 12.0", "vout_v = 30.0"))
+    line = 1 + toml.read_text().splitlines().index("vout_v = 30.0")
+    r = CliRunner().invoke(main, ["check", str(board)])
+    assert r.exit_code == 2
+    out = (r.stderr if r.stderr_bytes is not None else r.output).strip()
+    assert "Traceback" not in r.output and "Traceback" not in out
+    assert len(out.splitlines()) == 1
+    assert out.endswith(f"{toml}:{line}: operating_point.vout_v: stage stage1: a buck cannot make 30 V from a "
+                        "minimum input of 20 V ([operating_point]): vout must lie between 0 and vin_min")
 
 
 def test_values_from_bom_file(tmp_path):

@@ -38,18 +38,36 @@ def point(x: float, y: float, layer: str | None = None) -> Drawing:
     return Drawing("point", [(float(x), float(y))], layer)
 
 
+# The largest duty cycle used: controllers keep a minimum off-time, and 1 - D divides currents.
+MAX_DUTY_CYCLE = 0.98
+
+
 def duty_cycle(stage: Stage, op: OperatingPoint, vin_v: float) -> tuple[float, str | None]:
-    """The stage's duty cycle at ``vin_v``, and an assumption when vout is not known."""
+    """The stage's duty cycle at ``vin_v``, and an assumption when vout is not known or D is limited.
+
+    Impossible operating points (a buck with vout >= vin, a boost with vout <= vin) are rejected
+    with the project key when the stages are found (stages.check_operating_point); reaching one
+    here is a bug, so it raises ValueError instead of being clamped.
+    """
     vout = op.vout_v
-    if vout is None or vin_v <= 0:
+    if vout is None:
         return 0.5, "output voltage not known: duty cycle taken as 0.5"
+    if vin_v <= 0:
+        raise ValueError(f"input voltage {vin_v} V: must be positive")
     if stage.topology == "boost":
-        d = 1.0 - vin_v / vout if vout > vin_v else 0.0
+        if not vout > vin_v:
+            raise ValueError(f"a boost cannot make {vout} V from {vin_v} V")
+        d = 1.0 - vin_v / vout
     elif stage.topology == "buck-boost":
         d = abs(vout) / (abs(vout) + vin_v)
     else:
-        d = min(vout / vin_v, 1.0)
-    return float(min(max(d, 0.0), 0.98)), None
+        if not 0 < vout < vin_v:
+            raise ValueError(f"a buck cannot make {vout} V from {vin_v} V")
+        d = vout / vin_v
+    if d > MAX_DUTY_CYCLE:
+        return MAX_DUTY_CYCLE, (f"duty cycle {d:.3f} at vin = {vin_v:g} V limited to {MAX_DUTY_CYCLE} "
+                                "(the estimates divide by 1 - D)")
+    return float(d), None
 
 
 def switch_current(stage: Stage, op: OperatingPoint) -> tuple[float, float, list[str]]:
