@@ -134,13 +134,41 @@ class _Parser(GerberParser):
         self.more_notes = 0
         self.missing_eof = False
         self._zero_width: dict[int, bool] = {}
+        self._value_key = None
+        self._value_scale = None
 
     # -- the common case fast: a linear D01 (a trace segment, or a region contour point) is handled
     #    here with what gerbonara would do for it, minus its per-statement checks that cannot fire
     #    (those cases go to gerbonara: arcs, first point, zero-width apertures, image transforms kept)
+    def _value(self, s):
+        """A coordinate's digits as gerbonara's parse_gerber_value reads them: the same decimal
+        string, its float taken as an exact integer ratio (Python's int division rounds correctly,
+        as float() of the decimal string does), without building the string."""
+        fs = self.file_settings
+        key = self._value_key
+        if key is None or fs.zeros is not key[0] or fs.number_format is not key[1]:
+            self._value_key = (fs.zeros, fs.number_format)
+            self._value_scale = None
+            digits = fs.number_format or (2, 5)
+            if None not in digits:
+                if fs.zeros == "leading":
+                    self._value_scale = ("leading", digits[1]) if digits[1] else None
+                else:
+                    self._value_scale = ("trailing", digits[0])
+        mode = self._value_scale
+        if mode is None or not s.isdigit() or s == "00":
+            return fs.parse_gerber_value(s)
+        if mode[0] == "leading":
+            return int(s) / 10 ** mode[1]
+        return int(s + "0" * mode[1]) / 10 ** len(s)      # digits after the point: len(s)
+
     def _parse_coord(self, match):
         interp, x_s, x, y_s, y, i_s, i, j_s, j, op = match.groups()
         gs = self.graphics_state
+        if (op == "3" and interp is None and not i and not j and self.current_region is None
+                and gs.point is not None and gs.unit is not None and gs.aperture is not None
+                and not self.step_repeat_objects):
+            return self._flash(x_s, x, y_s, y)
         if (op != "1" or i or j or gs.point is None or gs.unit is None or self.step_repeat_objects
                 or (interp is None and gs.interpolation_mode is not _LINEAR)
                 or (interp is not None and interp != "G01")):
@@ -157,11 +185,10 @@ class _Parser(GerberParser):
                 return super()._parse_coord(match)
         elif region.unit is not gs.unit:
             return super()._parse_coord(match)
-        fs = self.file_settings
-        x = fs.parse_gerber_value(x) if x else None
+        x = self._value(x) if x else None
         if x_s and x is not None:
             x = -x
-        y = fs.parse_gerber_value(y) if y else None
+        y = self._value(y) if y else None
         if y_s and y is not None:
             y = -y
         self.last_operation = "1"
@@ -183,6 +210,26 @@ class _Parser(GerberParser):
                 region.outline.append(old)
             region.outline.append(new)
             region.arc_centers.append(None)
+
+    def _flash(self, x_s, x, y_s, y):
+        """D03 outside a region, as gerbonara's GraphicsState.flash builds it."""
+        gs = self.graphics_state
+        x = self._value(x) if x else None
+        if x_s and x is not None:
+            x = -x
+        y = self._value(y) if y else None
+        if y_s and y is not None:
+            y = -y
+        self.last_operation = "3"
+        old = gs.point
+        px, py = gs.point = (old[0] if x is None else x, old[1] if y is None else y)
+        if gs._mat is None:
+            gs._update_xform()
+        a, b, c, d = gs._mat
+        ox, oy = gs.image_offset
+        self.target.objects.append(go.Flash(a * px + b * py + ox, c * px + d * py + oy, gs.aperture,
+                                            polarity_dark=gs._polarity_dark, unit=gs.unit,
+                                            attrs=dict(gs.object_attrs)))
 
     # -- warnings: kept on the parser (a few, for the layer's notes), not through the warnings
     #    module: some files raise one per coordinate statement
