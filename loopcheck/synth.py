@@ -26,10 +26,10 @@ draws later (traces, pads, vias) is dark on top of it.
 
 from __future__ import annotations
 
-import os
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
+
+from .fileio import write_atomic
 
 Point = tuple[float, float]
 
@@ -583,19 +583,8 @@ def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool,
 
 
 def _write_whole(path: Path, text: str) -> None:
-    """Write to a temporary file in the same folder, then rename: the file appears whole."""
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    try:
-        umask = os.umask(0)
-        os.umask(umask)
-        os.fchmod(fd, 0o666 & ~umask)
-        with os.fdopen(fd, "w", encoding="ascii", newline="\n") as f:
-            f.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    """Write the file whole or not at all; fab outputs are ASCII with LF line ends."""
+    write_atomic(path, text.encode("ascii"))
 
 
 def _check(board: SynthBoard) -> None:

@@ -13,7 +13,6 @@ from __future__ import annotations
 import json
 import os
 import re
-import tempfile
 from dataclasses import fields
 from pathlib import Path
 from typing import Any
@@ -21,6 +20,7 @@ from typing import Any
 import click
 
 from ..errors import InputError
+from ..fileio import write_atomic
 from ..load import load_board
 from ..powerstage import OperatingPoint, Stage
 from ..project import load_project
@@ -209,16 +209,7 @@ def _write_whole(path: Path, text: str) -> None:
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
         raise InputError("folder does not exist", path=str(folder))
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as f:
-            f.write(text)
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    write_atomic(path, text)
 
 
 @click.command("stages")

@@ -6,14 +6,13 @@ stage summary below only picks measurements by name: every number in it is a Mea
 
 from __future__ import annotations
 
-import os
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from .. import __version__
 from ..analysis import Analysis
+from ..fileio import write_atomic  # noqa: F401  (re-exported: reports are written with it)
 from ..findings import SEVERITIES, Finding, Measurement
 from ..powerstage import Stage
 from ..rules.evaluate import Check, Evaluation, at_or_above, fmt
@@ -193,21 +192,3 @@ def report_assumptions(analysis: Analysis) -> list[str]:
     """The board's and the analysis's assumptions (stackup, part values, each stage's operating
     point with its source, the methods), each once."""
     return list(dict.fromkeys(list(analysis.board.assumptions) + list(analysis.assumptions)))
-
-
-def write_atomic(path: str | Path, data: str | bytes) -> None:
-    """Write a whole file or nothing: a temp file in the same folder, then os.replace."""
-    path = Path(path)
-    mode = "wb" if isinstance(data, bytes) else "w"
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent or ".")
-    try:
-        with os.fdopen(fd, mode, **({} if mode == "wb" else {"encoding": "utf-8"})) as fh:
-            fh.write(data)
-        os.chmod(tmp, 0o644)          # mkstemp makes it private; a report is an ordinary file
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
