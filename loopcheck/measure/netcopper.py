@@ -37,30 +37,41 @@ def pad_polygon(pad: Pad) -> Polygon:
     return Point(pad.x_mm, pad.y_mm).buffer(DEFAULT_PAD_MM / 2, quad_segs=8)
 
 
+def _stackup_matches(board: Board) -> None:
+    """The loader gives every board one copper thickness per layer and one dielectric between each
+    pair (project values, else stated defaults: loopcheck.stackup); anything else is a bug."""
+    st, n = board.stackup, len(board.layers)
+    if len(st.copper_thickness_m) != n or len(st.dielectrics) != max(n - 1, 0):
+        raise ValueError(f"stackup of {len(st.copper_thickness_m)} copper layers and {len(st.dielectrics)} "
+                         f"dielectrics does not match the board's {n} copper layers")
+
+
 def layer_z_mm(board: Board) -> list[float]:
-    """Height of each copper layer's mid-plane above the bottom of the board [mm], top first."""
+    """Height of each copper layer's mid-plane above the bottom of the board [mm], top first (board.stackup)."""
+    _stackup_matches(board)
     n = len(board.layers)
-    t = [board.stackup.copper_thickness_m[k] if k < len(board.stackup.copper_thickness_m)
-         else board.layers[k].thickness_m for k in range(n)]
+    t = board.stackup.copper_thickness_m
     z = [0.0] * n
     for k in range(n - 2, -1, -1):
-        d = board.stackup.dielectrics[k].thickness_m if k < len(board.stackup.dielectrics) else 1.5e-3 / max(n - 1, 1)
+        d = board.stackup.dielectrics[k].thickness_m
         z[k] = z[k + 1] + (t[k] / 2 + d + t[k + 1] / 2) * 1e3
     return z
 
 
 def layer_thickness_m(board: Board, index: int) -> float:
-    if index < len(board.stackup.copper_thickness_m):
-        return board.stackup.copper_thickness_m[index]
-    return board.layers[index].thickness_m
+    """Copper thickness of layer ``index`` [m] (board.stackup)."""
+    _stackup_matches(board)
+    return board.stackup.copper_thickness_m[index]
 
 
 def dielectric_between(board: Board, a: int, b: int) -> tuple[float, float]:
-    """(thickness [m], eps_r) of the insulation between copper layers a and b (summed if not adjacent)."""
+    """(thickness [m], eps_r) of the insulation between copper layers a != b (summed if not adjacent),
+    from board.stackup."""
+    _stackup_matches(board)
     lo, hi = min(a, b), max(a, b)
+    if lo == hi or lo < 0 or hi >= len(board.layers):
+        raise ValueError(f"no dielectric between copper layers {a} and {b}")
     ds = board.stackup.dielectrics[lo:hi]
-    if not ds:
-        return 1.5e-3, 4.5
     t = sum(d.thickness_m for d in ds)
     # series capacitors: the effective permittivity of stacked dielectrics
     er = t / sum(d.thickness_m / d.eps_r for d in ds)
