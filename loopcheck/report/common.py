@@ -15,7 +15,8 @@ from ..analysis import Analysis
 from ..fileio import write_atomic  # noqa: F401  (re-exported: reports are written with it)
 from ..findings import SEVERITIES, Finding, Measurement
 from ..powerstage import Stage
-from ..rules.evaluate import Check, Evaluation, at_or_above, fmt
+# fmt: the one number format of every report, the same as in the findings' messages
+from ..rules.evaluate import Check, Evaluation, at_or_above, fmt  # noqa: F401  (fmt re-exported)
 
 CAUTIONS = (
     "loopcheck estimates from the fab outputs; it does not certify a design. Its numbers come "

@@ -9,9 +9,8 @@ from html import escape
 from typing import Any
 
 from ..compare import Comparison, FindingChange
-from ..rules.evaluate import fmt
-from .common import CAUTION_LINE, CAUTIONS, CheckResult, UNIT_TEXT, path_label, value_text
-from .html import _CSS
+from .common import CAUTION_LINE, CAUTIONS, CheckResult, UNIT_TEXT, fmt, path_label, value_text
+from .html import REPORT_CSS
 from .svg import board_svg
 
 DIFF_SCHEMA_VERSION = "loopcheck-diff-report/1"
@@ -111,7 +110,7 @@ def render_diff_json(d: DiffResult) -> str:
 def render_diff_html(d: DiffResult) -> str:
     h = ["<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">",
          f"<title>loopcheck diff: {escape(d.old.board_name)} / {escape(d.new.board_name)}</title>",
-         f"<style>{_CSS} .pair {{ display:grid; grid-template-columns: 1fr 1fr; gap: 14px; }}"
+         f"<style>{REPORT_CSS} .pair {{ display:grid; grid-template-columns: 1fr 1fr; gap: 14px; }}"
          " .worse { color: var(--err); font-weight:600; } .better { color: var(--ok); "
          "font-weight:600; }</style></head><body>"]
     h.append(f"<header><h1>Layout revisions compared</h1><div class=\"sub\">old "

@@ -15,7 +15,8 @@ from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id, l
                      report_assumptions, path_label, sorted_findings, value_text)
 from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, copper_defs, layer_colour
 
-_CSS = """
+# the report style, shared by the check and the diff HTML reports
+REPORT_CSS = """
 :root { --ink:#1d232b; --muted:#5b6673; --line:#d9dee4; --paper:#fbfaf7; --panel:#ffffff;
         --err:#c62828; --warn:#e08a00; --note:#2f6db5; --ok:#2e7d4f; --waived:#7a7a7a; }
 * { box-sizing: border-box; }
@@ -111,7 +112,7 @@ def render_html(result: CheckResult) -> str:
     h.append("<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">")
     h.append('<meta name="viewport" content="width=device-width, initial-scale=1">')
     h.append(f"<title>loopcheck: {escape(board.name)}</title>")
-    h.append(f"<style>{_CSS}{_toggle_css(len(board.layers))}</style></head><body>")
+    h.append(f"<style>{REPORT_CSS}{_toggle_css(len(board.layers))}</style></head><body>")
 
     # --- header with the verdict ---
     counts = result.counts()
