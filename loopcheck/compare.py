@@ -17,8 +17,6 @@ class MeasurementChange:
     unit: str
     old: Measurement | None               # None: the quantity is new in NEW
     new: Measurement | None               # None: the quantity is gone from NEW
-    change: float | None = None           # new - old, in the unit, when both were measured
-    change_pct: float | None = None       # 100 * change / |old|, when old is not zero
 
     @property
     def old_value(self) -> float | None:
@@ -27,6 +25,29 @@ class MeasurementChange:
     @property
     def new_value(self) -> float | None:
         return None if self.new is None or self.new.value is None else float(self.new.value)
+
+    @property
+    def change(self) -> float | None:
+        """new - old, in the unit, when both were measured (0 for the same number up to rounding)."""
+        old, new = self.old_value, self.new_value
+        if old is None or new is None:
+            return None
+        change = new - old
+        if abs(change) <= 1e-9 * max(abs(old), abs(new)):
+            return 0.0
+        return change
+
+    @property
+    def change_pct(self) -> float | None:
+        """100 * change / |old|, when both were measured and old is not zero."""
+        change = self.change
+        if change is None:
+            return None
+        old = self.old_value
+        scale = max(abs(old), abs(self.new_value))
+        if abs(old) > 1e-6 * max(scale, 1e-300) and abs(old) > 1e-12:
+            return 100.0 * change / abs(old)
+        return None
 
 
 @dataclass
@@ -75,16 +96,8 @@ def match_measurements(old: list[Measurement], new: list[Measurement]) -> list[M
     for k in list(a) + [k for k in b if k not in a]:
         mo, mn = a.get(k), b.get(k)
         ref = mn or mo
-        ch = MeasurementChange(stage=k[0], quantity=k[1], label=ref.label, unit=ref.unit,
-                               old=mo, new=mn)
-        if ch.old_value is not None and ch.new_value is not None:
-            ch.change = ch.new_value - ch.old_value
-            scale = max(abs(ch.old_value), abs(ch.new_value))
-            if abs(ch.change) <= 1e-9 * scale:      # the same number up to rounding
-                ch.change = 0.0
-            if abs(ch.old_value) > 1e-6 * max(scale, 1e-300) and abs(ch.old_value) > 1e-12:
-                ch.change_pct = 100.0 * ch.change / abs(ch.old_value)
-        out.append(ch)
+        out.append(MeasurementChange(stage=k[0], quantity=k[1], label=ref.label, unit=ref.unit,
+                                     old=mo, new=mn))
     return out
 
 

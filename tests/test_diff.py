@@ -124,3 +124,16 @@ def test_rounding_noise_is_no_change():
     k, d = match_measurements(old, new)
     assert k.change == pytest.approx(8.56) and k.change_pct is None   # no % of a zero
     assert d.change == 0.0 and d.change_pct == 0.0
+
+
+def test_change_follows_from_old_and_new():
+    from loopcheck.compare import MeasurementChange
+
+    old = Measurement("hot_loop.area", 40.0, "mm2", "area", stage="s1")
+    new = Measurement("hot_loop.area", 30.0, "mm2", "area", stage="s1")
+    ch = MeasurementChange("s1", "hot_loop.area", "area", "mm2", old=old, new=new)
+    assert ch.change == pytest.approx(-10.0) and ch.change_pct == pytest.approx(-25.0)
+    ch.new = None                                   # gone from NEW: no change to show
+    assert ch.change is None and ch.change_pct is None
+    with pytest.raises(AttributeError):
+        ch.change = 1.0                             # derived, not stored
