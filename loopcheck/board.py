@@ -135,6 +135,38 @@ class Board:
     def vias(self) -> list[Pad]:
         return [p for p in self.pads if p.is_via]
 
+    @property
+    def outline_size_mm(self) -> tuple[float, float]:
+        """(width, height) of the outline's bounding box [mm]; (0, 0) for an empty outline."""
+        g = self.outline.geometry
+        if g.is_empty:
+            return 0.0, 0.0
+        x0, y0, x1, y1 = g.bounds
+        return float(x1 - x0), float(y1 - y0)
+
+    @property
+    def outline_area_mm2(self) -> float:
+        """The area inside the outline [mm²] (holes in the outline polygon left out)."""
+        g = self.outline.geometry
+        return 0.0 if g.is_empty else float(g.area)
+
+    @property
+    def hole_counts(self) -> dict[str, int]:
+        """Drilled holes and routed slots: ``plated`` and ``non_plated`` round holes, ``slots``."""
+        return {"plated": sum(1 for h in self.holes if h.plated and h.end is None),
+                "non_plated": sum(1 for h in self.holes if not h.plated and h.end is None),
+                "slots": sum(1 for h in self.holes if h.end is not None)}
+
+    @property
+    def named_net_count(self) -> int:
+        """Nets with a name (the netlist's unnamed pads left out)."""
+        return sum(1 for name in self.nets if name)
+
+    @property
+    def component_pad_count(self) -> int:
+        """Component pads (vias left out)."""
+        return sum(1 for p in self.pads if not p.is_via)
+
     def layer(self, name: str) -> CopperLayer:
         for layer in self.layers:
             if layer.name == name:

@@ -292,3 +292,24 @@ def test_net_copper_per_layer_on_a_read_board(boards):
     assert set(out) == {0}
     c2 = b.terminals["C2.1"]
     assert r.islands_of(c2)[0].equals(out[0])
+
+
+def test_board_counts_and_outline_size_that_inspect_reports():
+    from shapely.geometry import Polygon, box
+
+    from loopcheck.board import Board, Hole, Outline, Pad, Stackup
+
+    ring = Polygon(box(0, 0, 40, 25).exterior.coords, [box(10, 10, 20, 15).exterior.coords])
+    b = Board(name="b", layers=[], outline=Outline(ring, "test"),
+              stackup=Stackup([35e-6], [], 1.6e-3),
+              pads=[Pad("VIN", "C1", "1", 1, 1, (0,)), Pad("GND", "C1", "2", 2, 1, (0,)),
+                    Pad("", "J1", "1", 3, 1, (0,)), Pad("GND", "", "", 5, 5, (0,), 0.3, is_via=True)],
+              holes=[Hole(1, 1, 1.0, True), Hole(2, 2, 3.2, False), Hole(3, 3, 1.0, True, end=(4, 3)),
+                     Hole(5, 5, 0.3, True)])
+    assert b.outline_size_mm == (40.0, 25.0)
+    assert b.outline_area_mm2 == pytest.approx(40 * 25 - 10 * 5)       # the cut-out left out
+    assert b.hole_counts == {"plated": 2, "non_plated": 1, "slots": 1}
+    assert b.named_net_count == 2 and b.component_pad_count == 3 and len(b.vias) == 1
+    empty = Board(name="e", layers=[], outline=Outline(Polygon(), "none"), stackup=b.stackup)
+    assert empty.outline_size_mm == (0.0, 0.0) and empty.outline_area_mm2 == 0.0
+    assert empty.hole_counts == {"plated": 0, "non_plated": 0, "slots": 0}

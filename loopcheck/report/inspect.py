@@ -33,13 +33,8 @@ def inspect_data(board: Board, result: ConnectivityResult) -> dict[str, Any]:
         "copper_area_mm2": round(layer.copper_area_mm2, 4),
         "clipped_area_mm2": round(layer.clipped_area_mm2, 4),
     } for layer in board.layers]
-    holes = board.holes
-    g = board.outline.geometry
-    if g.is_empty:
-        width = height = area = 0.0
-    else:
-        x0, y0, x1, y1 = g.bounds
-        width, height, area = x1 - x0, y1 - y0, g.area
+    width, height = board.outline_size_mm
+    area = board.outline_area_mm2
     findings = []
     for f in result.findings:
         d: dict[str, Any] = {"rule": f.rule, "severity": f.severity, "message": f.message}
@@ -59,16 +54,11 @@ def inspect_data(board: Board, result: ConnectivityResult) -> dict[str, Any]:
         "board": board.name,
         "source": board.source,
         "layers": layers,
-        "holes": {
-            "plated": sum(1 for h in holes if h.plated and h.end is None),
-            "non_plated": sum(1 for h in holes if not h.plated and h.end is None),
-            "slots": sum(1 for h in holes if h.end is not None),
-            "files": list(board.drill_files),
-        },
-        "nets": sum(1 for name in board.nets if name),
+        "holes": {**board.hole_counts, "files": list(board.drill_files)},
+        "nets": board.named_net_count,
         "components": len(board.components),
-        "pads": sum(1 for p in board.pads if not p.is_via),
-        "vias": sum(1 for p in board.pads if p.is_via),
+        "pads": board.component_pad_count,
+        "vias": len(board.vias),
         "outline": {"source": board.outline.source, "from_extent": board.outline.from_extent,
                     "width_mm": round(width, 4), "height_mm": round(height, 4), "area_mm2": round(area, 3)},
         "netlist": board.netlist_file,
