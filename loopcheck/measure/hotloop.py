@@ -9,11 +9,12 @@ current takes the path of least inductance, under the conductor that carries it 
 
 Inductance: the partial-inductance sum over the loop's straight segments (Ruehli 1972; Paul,
 "Inductance: Loop and Partial", 2010), each segment a flat strip of its local width and its
-layer's copper thickness (``physics.inductance.polyline_loop_inductance``). Where a solid plane
+layer's copper thickness: the sum of the loop's partial-inductance matrix
+(``physics.inductance.partial_inductance_matrix``). Where a solid plane
 that is not part of the loop lies on the adjacent layer under a segment, the plane carries an
 image current (a perfect-conductor image at the plane, valid above the frequency where the plane
 is thicker than a skin depth, a few MHz for 1 oz copper): the mutual inductance with the mirrored
-segments is subtracted, which reproduces the microstrip inductance per length of a trace over a
+segments (``physics.inductance.image_in_plane``, ``segment_mutual_inductance``) is subtracted, which reproduces the microstrip inductance per length of a trace over a
 plane. Where the loop's own return runs in a plane under the outgoing conductor (no detour), that
 plane is the image: its in-plane stretches are dropped and L = Lp(path) - M(path, mirrored path)
 over the outgoing conductor and its vias. Where a gap forces the return away, the real path is
@@ -259,6 +260,21 @@ def _plane_images(ctx: MeasureContext, loop: LoopPath, z_mm: list[float]) -> lis
     return out
 
 
+def _mirror_segments(starts_m: np.ndarray, ends_m: np.ndarray,
+                     plane_z_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Segments (N, 3) [m] mirrored each in its own plane z = plane_z_m[k] [m] (the image method,
+    ``physics.inductance.image_in_plane``); the image carries the opposite current."""
+    from ..physics.inductance import image_in_plane
+
+    plane_z_m = np.asarray(plane_z_m, dtype=float)
+    m0, m1 = np.empty_like(starts_m), np.empty_like(ends_m)
+    for z0 in np.unique(plane_z_m):
+        sel = plane_z_m == z0
+        m0[sel] = image_in_plane(starts_m[sel], z0)
+        m1[sel] = image_in_plane(ends_m[sel], z0)
+    return m0, m1
+
+
 def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[str], dict]:
     """Partial-inductance estimate of the closed loop [H], assumptions, detail numbers."""
     from ..physics import inductance
@@ -300,13 +316,12 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
         # mutual inductance with the image loop: each imaged segment mirrored in its plane,
         # carrying the opposite current (so its mutual with the loop is subtracted)
         idx = np.nonzero(keep)[0]
-        ai, bj = np.meshgrid(idx, [j for j, _, _ in images], indexing="ij")
+        img = np.array([j for j, _, _ in images])
         zp = np.array([zp for _, zp, _ in images]) * 1e-3
-        zp_b = np.broadcast_to(zp[None, :], ai.shape)
-        b0 = starts[bj].copy()
-        b1 = ends[bj].copy()
-        b0[..., 2] = 2 * zp_b - b0[..., 2]
-        b1[..., 2] = 2 * zp_b - b1[..., 2]
+        m0, m1 = _mirror_segments(starts[img], ends[img], zp)
+        ai, col = np.meshgrid(idx, np.arange(len(images)), indexing="ij")
+        bj = img[col]
+        b0, b1 = m0[col], m1[col]
         g = 0.5 * (gmd[ai] + gmd[bj])
         m = inductance.segment_mutual_inductance(starts[ai].reshape(-1, 3), ends[ai].reshape(-1, 3),
                                                  b0.reshape(-1, 3), b1.reshape(-1, 3), g.reshape(-1))
@@ -339,9 +354,7 @@ def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, wid
     a, b, g = starts[path], ends[path], gmd[path]
     w, t = widths[path], thick[path]
     Lp = float(inductance.partial_inductance_matrix(a, b, g, widths_m=w, thicknesses_m=t).sum())
-    ma, mb = a.copy(), b.copy()
-    ma[:, 2] = 2 * zp - ma[:, 2]
-    mb[:, 2] = 2 * zp - mb[:, 2]
+    ma, mb = _mirror_segments(a, b, np.full(len(a), zp))
     P = len(path)
     ii, jj = np.meshgrid(np.arange(P), np.arange(P), indexing="ij")
     ii, jj = ii.ravel(), jj.ravel()
