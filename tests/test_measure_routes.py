@@ -8,7 +8,7 @@ from shapely.ops import unary_union
 
 from loopcheck.board import Pad
 from loopcheck.measure.netcopper import MeasureContext
-from loopcheck.measure.raster import Grid, rasterise
+from loopcheck.measure.raster import grid_covering, rasterise
 from loopcheck.measure.routes import Route, RouteError, narrowest_point, route
 
 from measure_boards import make_board, smd, square_pad, trace
@@ -20,7 +20,7 @@ def test_raster_area_matches_shapely():
     g = unary_union([trace([(0, 0), (10, 0), (10, 7)], 0.5),
                      Point(20, 5).buffer(4).difference(Point(20, 5).buffer(2)),
                      box(30, 0, 36, 6)])
-    grid = Grid.covering(g.bounds, 0.02)
+    grid = grid_covering(g.bounds, 0.02)
     m = rasterise(g, grid)
     assert m.sum() * 0.02 ** 2 == pytest.approx(g.area, rel=0.01)
     # the hole of the ring is empty

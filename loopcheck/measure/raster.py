@@ -3,61 +3,38 @@
 The routes and the clearance measurements work on rasters: a cell is copper when its centre lies
 inside the geometry. The fill is a vectorised scan line over the polygon edges, exact at the cell
 centres, so a 1 M-cell layer rasterises in well under a second.
+
+The grid is ``physics.raster.RasterGrid`` (the DC solver's); only the sampling differs: the DC
+solver needs cell coverage and face apertures, the routes a copper / no-copper mask.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
-from shapely.geometry import GeometryCollection, MultiPolygon, Polygon
 from shapely.geometry.base import BaseGeometry
 
+from ..physics.raster import RasterGrid
+from ..readers.fast_union import polygons_of
 
-@dataclass(frozen=True)
-class Grid:
-    """A regular grid: cell (row j, column i) has its centre at (x0 + (i + 1/2) p, y0 + (j + 1/2) p)."""
-
-    x0_mm: float
-    y0_mm: float
-    pitch_mm: float
-    nx: int
-    ny: int
-
-    def centre(self, j: np.ndarray | int, i: np.ndarray | int) -> tuple[np.ndarray, np.ndarray]:
-        """Cell centre(s) [mm]."""
-        return (self.x0_mm + (np.asarray(i) + 0.5) * self.pitch_mm,
-                self.y0_mm + (np.asarray(j) + 0.5) * self.pitch_mm)
-
-    def cell_of(self, x_mm: float, y_mm: float) -> tuple[int, int]:
-        """(row, column) of the cell containing the point, clipped to the grid."""
-        i = int(np.floor((x_mm - self.x0_mm) / self.pitch_mm))
-        j = int(np.floor((y_mm - self.y0_mm) / self.pitch_mm))
-        return min(max(j, 0), self.ny - 1), min(max(i, 0), self.nx - 1)
-
-    @staticmethod
-    def covering(bounds: tuple[float, float, float, float], pitch_mm: float, margin_cells: int = 2) -> "Grid":
-        """A grid covering ``bounds`` (minx, miny, maxx, maxy) [mm] with a margin of empty cells."""
-        minx, miny, maxx, maxy = bounds
-        x0 = minx - margin_cells * pitch_mm
-        y0 = miny - margin_cells * pitch_mm
-        nx = int(np.ceil((maxx - x0) / pitch_mm)) + margin_cells
-        ny = int(np.ceil((maxy - y0) / pitch_mm)) + margin_cells
-        return Grid(x0, y0, pitch_mm, max(nx, 1), max(ny, 1))
+__all__ = ["RasterGrid", "grid_covering", "cell_centre", "polygons_of", "rasterise"]
 
 
-def polygons_of(geom: BaseGeometry | None) -> list[Polygon]:
-    """The polygons in a geometry (lines and points dropped)."""
-    if geom is None or geom.is_empty:
-        return []
-    if isinstance(geom, Polygon):
-        return [geom]
-    if isinstance(geom, (MultiPolygon, GeometryCollection)):
-        out: list[Polygon] = []
-        for g in geom.geoms:
-            out.extend(polygons_of(g))
-        return out
-    return []
+def grid_covering(bounds: tuple[float, float, float, float], pitch_mm: float,
+                  margin_cells: int = 2) -> RasterGrid:
+    """A grid covering ``bounds`` (minx, miny, maxx, maxy) [mm] with a margin of empty cells [-]
+    on every side (the routes' distance transform needs copper-free cells round the copper)."""
+    minx, miny, maxx, maxy = bounds
+    x0 = minx - margin_cells * pitch_mm
+    y0 = miny - margin_cells * pitch_mm
+    nx = int(np.ceil((maxx - x0) / pitch_mm)) + margin_cells
+    ny = int(np.ceil((maxy - y0) / pitch_mm)) + margin_cells
+    return RasterGrid(x0, y0, pitch_mm, max(nx, 1), max(ny, 1))
+
+
+def cell_centre(grid: RasterGrid, j: np.ndarray | int, i: np.ndarray | int) -> tuple[np.ndarray, np.ndarray]:
+    """Centre(s) [mm] of cell(s) (row j, column i)."""
+    return (grid.x0_mm + (np.asarray(i) + 0.5) * grid.pitch_mm,
+            grid.y0_mm + (np.asarray(j) + 0.5) * grid.pitch_mm)
 
 
 def _edges(geom: BaseGeometry) -> np.ndarray:
@@ -72,7 +49,7 @@ def _edges(geom: BaseGeometry) -> np.ndarray:
     return np.vstack(segs)
 
 
-def rasterise(geom: BaseGeometry | None, grid: Grid) -> np.ndarray:
+def rasterise(geom: BaseGeometry | None, grid: RasterGrid) -> np.ndarray:
     """Boolean mask (ny, nx): True where the cell centre lies inside ``geom`` (even-odd rule)."""
     mask = np.zeros((grid.ny, grid.nx), dtype=bool)
     e = _edges(geom) if geom is not None else np.zeros((0, 4))

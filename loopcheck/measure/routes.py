@@ -37,7 +37,7 @@ from shapely.geometry.base import BaseGeometry
 
 from ..board import Pad
 from .netcopper import MeasureContext, layer_z_mm
-from .raster import Grid, rasterise
+from .raster import RasterGrid, cell_centre, grid_covering, rasterise
 
 ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
 MIN_PITCH_MM = 0.05
@@ -111,7 +111,7 @@ class NetRaster:
     """One net's copper as a graph of raster cells over its layers."""
 
     net: str
-    grid: Grid
+    grid: RasterGrid
     layers: list[int]                  # board layer indices, in raster order
     masks: np.ndarray                  # (L, ny, nx) bool
     edt_mm: np.ndarray                 # (L, ny, nx) distance from the cell centre to the nearest non-copper cell centre
@@ -130,7 +130,7 @@ class NetRaster:
 
     def node_xy(self, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         n = self.nodes[nodes]
-        return self.grid.centre(n[:, 1], n[:, 2])
+        return cell_centre(self.grid, n[:, 1], n[:, 2])
 
     def nearest_node(self, layer: int, x_mm: float, y_mm: float, radius_mm: float) -> int | None:
         """The copper cell on ``layer`` nearest to (x, y) within ``radius_mm``, or None."""
@@ -147,7 +147,7 @@ class NetRaster:
         jj, ii = np.nonzero(win >= 0)
         if len(jj) == 0:
             return None
-        xc, yc = self.grid.centre(jj + j0, ii + i0)
+        xc, yc = cell_centre(self.grid, jj + j0, ii + i0)
         d = np.hypot(xc - x_mm, yc - y_mm)
         k = int(np.argmin(d))
         if d[k] > radius_mm + self.pitch_mm:
@@ -211,7 +211,7 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     p = pitch_mm or choose_pitch(area)
     # the grid spans the bounding box on every layer: keep it bounded too (memory)
     p = max(p, math.sqrt((maxx - minx) * (maxy - miny) * len(layers) / MAX_GRID_CELLS))
-    grid = Grid.covering((minx, miny, maxx, maxy), p)
+    grid = grid_covering((minx, miny, maxx, maxy), p)
     masks = np.stack([rasterise(copper[l], grid) for l in layers])
     edt = np.stack([(ndimage.distance_transform_edt(m) * p).astype(np.float32) for m in masks])
     index = -np.ones(masks.shape, dtype=np.int64)
