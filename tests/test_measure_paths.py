@@ -57,6 +57,13 @@ def test_switch_node_path_resistance_and_ipc2221_rise():
     assert ms["path.input.resistance"].value is None and ms["path.input.resistance"].not_made
 
 
+# RMS currents (PHYSICS.md "Switching consequences"; the waveform shapes are common practice):
+# while a path conducts (a fraction F of the period: D for the buck's input, 1 - D for a boost's
+# rectifier, 1 for an inductor) its current ramps linearly from I (1 - r/2) to I (1 + r/2), r the
+# peak-to-peak ripple over the inductor's mean current I; the mean square of that ramp is
+# I^2 * integral_0^1 (1 + r (u - 1/2))^2 du = I^2 (1 + r^2/12), so I_rms = I sqrt(F (1 + r^2/12)).
+
+
 def test_rms_currents_of_a_buck():
     st = sw_stage(vin_min_v=12, vin_max_v=24, vout_v=3.0, iout_a=2.0, ripple_ratio=0.3)
     cur, notes = rms_currents(st)
@@ -149,14 +156,16 @@ def test_switch_node_area_and_capacitance_over_a_plane():
 def test_rms_currents_of_a_boost_and_its_switch_current():
     from loopcheck.measure.common import switch_current
     st = Stage("s1", "boost", "discrete", "SW", "VIN", "OUT", "GND",
-               operating_point=OperatingPoint(vin_min_v=12, vin_max_v=12, vout_v=24, iout_a=1.0, ripple_ratio=0.0))
+               operating_point=OperatingPoint(vin_min_v=12, vin_max_v=12, vout_v=24, iout_a=1.0, ripple_ratio=0.4))
     cur, _ = rms_currents(st)
     d = 1 - 12 / 24                           # D = 1 - Vin/Vout
     il = 1.0 / (1 - d)                        # inductor (input) current 2 A
-    assert cur["input"] == pytest.approx(il)
-    assert cur["output"] == pytest.approx(il * math.sqrt(1 - d))     # the rectifier's RMS current
+    r2 = 0.4 ** 2 / 12                        # the ripple term (above), 1.33 %
+    assert cur["input"] == pytest.approx(il * math.sqrt(1 + r2), rel=1e-12)               # 2.0133 A
+    assert cur["input"] != pytest.approx(il, rel=1e-3)                                   # the term counts
+    assert cur["output"] == pytest.approx(il * math.sqrt((1 - d) * (1 + r2)), rel=1e-12)  # the rectifier's
     i_sw, v_sw, _ = switch_current(st, st.operating_point)
-    assert i_sw == pytest.approx(il) and v_sw == 24
+    assert i_sw == pytest.approx(il * (1 + 0.4 / 2)) and v_sw == 24                      # the peak, 2.4 A
 
 
 @pytest.mark.parametrize("text, value", [("0.068", 0.068), ("68m", 0.068), ("68mR", 0.068), ("0R068", 0.068),

@@ -112,7 +112,12 @@ def path_ends(ctx: MeasureContext, stage: Stage) -> dict[str, tuple[list[Pad], l
 
 
 def rms_currents(stage: Stage) -> tuple[dict[str, float], list[str]]:
-    """RMS current per path [A] at the operating point, and the assumptions."""
+    """RMS current per path [A] at the operating point, and the assumptions.
+
+    A path that conducts for a fraction F of the period carries the inductor's current I ramping
+    from I (1 - r/2) to I (1 + r/2) (r: ripple_ratio, peak-to-peak over the mean), so its RMS
+    current is I sqrt(F (1 + r^2/12)) (PHYSICS.md "Switching consequences").
+    """
     op = stage.operating_point
     r2 = op.ripple_ratio ** 2 / 12.0
     vin = op.vin_min_v
@@ -123,10 +128,11 @@ def rms_currents(stage: Stage) -> tuple[dict[str, float], list[str]]:
     if stage.topology == "boost":
         il = i / max(1 - d, 0.05)
         cur = {"input": il * math.sqrt(1 + r2), "switch_node": il * math.sqrt(1 + r2),
-               "output": il * math.sqrt(max(1 - d, 0.0)), "ground": il}
+               "output": il * math.sqrt(max(1 - d, 0.0) * (1 + r2)), "ground": il}
     elif stage.topology == "buck-boost":
         il = i / max(1 - d, 0.05)
-        cur = {"input": il * math.sqrt(d), "switch_node": il, "output": il * math.sqrt(max(1 - d, 0.0)), "ground": il}
+        cur = {"input": il * math.sqrt(d * (1 + r2)), "switch_node": il * math.sqrt(1 + r2),
+               "output": il * math.sqrt(max(1 - d, 0.0) * (1 + r2)), "ground": il}
     else:
         cur = {"input": i * math.sqrt(d * (1 + r2)), "switch_node": i * math.sqrt(1 + r2), "output": i, "ground": i}
     return cur, notes
