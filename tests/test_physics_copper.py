@@ -116,16 +116,20 @@ def test_ipc2152_style_inverses():
     assert rise == pytest.approx(20.0, rel=1e-10)
 
 
-def test_ipc2152_style_agrees_with_ipc2221_external_within_band():
-    # Stated band (copper.ipc2152_temperature_rise docstring): for external 1 oz traces at
-    # 0.5-5 A and 10-20 K, the IPC-2152-style rise at IPC-2221's width (IPC-2221 sec. 6.2) is
-    # 0.55-1.8 times IPC-2221's rise, on the 0.070 in baseline board without a plane.
+def test_ipc2152_style_stays_in_the_from_memory_band_of_ipc2221_external():
+    # FROM MEMORY, not a published check: the IPC-2152-style fit's coefficients are recalled, not
+    # taken from the standard's charts, and the 0.55-1.8 band is the one the code's own docstring
+    # (copper.ipc2152_temperature_rise) states. So this checks only the fit's shape and that it
+    # stays within that agreement band of IPC-2221 (sec. 6.2, a published curve fit): for external
+    # 1 oz traces at 0.5-5 A and 10-20 K, the IPC-2152-style rise at IPC-2221's width is 0.55-1.8
+    # times IPC-2221's rise, on the 0.070 in baseline board without a plane. It does not show the
+    # fit reproduces IPC-2152.
     currents = np.array([0.5, 1.0, 2.0, 3.0, 5.0])[:, None]
     rises = np.array([10.0, 15.0, 20.0])[None, :]
     w = copper.ipc2221_width(currents, rises, OZ1)
     ratio = copper.ipc2152_temperature_rise(currents, w, OZ1, board_thickness_m=0.070 * 25.4e-3) / rises
     assert ratio.min() >= 0.55 and ratio.max() <= 1.8
-    # at the 1 A / 10 K check the two agree to 10 %
+    # at the 1 A / 10 K check the two agree to 10 % (from memory, as above)
     assert ratio[1, 0] == pytest.approx(1.0, abs=0.1)
 
 
