@@ -27,6 +27,7 @@ def test_no_value(text):
 def test_one_parser_everywhere():
     # the netlist-side (stage detection) and the measurement-side readers are the same function
     from loopcheck import stages
-    from loopcheck.measure import common
+    from loopcheck.measure import common, sense
     assert stages.parse_value is parse_value
-    assert common.parse_value is parse_value
+    assert sense.parse_value is parse_value
+    assert not hasattr(common, "parse_value")

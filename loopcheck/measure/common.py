@@ -6,7 +6,6 @@ from typing import Any
 
 from ..findings import Drawing, Measurement
 from ..powerstage import OperatingPoint, Stage
-from ..values import parse_value  # noqa: F401  (re-exported for the measurement modules)
 from . import QUANTITIES, base_quantity
 
 
