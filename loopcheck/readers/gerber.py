@@ -624,8 +624,12 @@ def _run_geometries(objs: list, shapes: _Shapes) -> tuple[list, list]:
         coords = np.concatenate([np.asarray(p, dtype=float) for p, _ in items])
         index = np.repeat(np.arange(len(items)), [len(p) for p, _ in items])
         lines = shapely.linestrings(coords, indices=index)
-        geoms.extend(shapely.buffer(lines, r, quad_segs=q).tolist())
-        nets.extend(n for _, n in items)
+        chain_nets = [n for _, n in items]
+        for net in dict.fromkeys(chain_nets):
+            mine = lines[[k for k, n in enumerate(chain_nets) if n == net]] if len(set(chain_nets)) > 1 else lines
+            merged = _merged_chains(mine)
+            geoms.extend(shapely.buffer(merged, r, quad_segs=q).tolist())
+            nets.extend([net] * len(merged))
     for info, segs, lnets in hull_lines.values():
         base = _outline_points(info.shape)
         a = np.asarray(segs, dtype=float)
@@ -635,6 +639,20 @@ def _run_geometries(objs: list, shapes: _Shapes) -> tuple[list, list]:
         geoms.extend(hulls.tolist())
         nets.extend(lnets)
     return geoms, nets
+
+
+def _merged_chains(lines: np.ndarray) -> np.ndarray:
+    """Polylines of one width (and net) joined wherever exactly two of them meet end to end, in
+    any order: a pour or a long trace drawn as thousands of strokes becomes a few paths, each
+    buffered once (the union of the strokes is the same set; 110k -> 38k vertices to merge on a
+    track-hatched corpus plane). Zero-length strokes (dots) are kept as they are."""
+    if len(lines) < 2:
+        return lines
+    dots = shapely.length(lines) == 0
+    paths = lines[~dots]
+    if len(paths) > 1:
+        paths = shapely.get_parts(shapely.line_merge(shapely.multilinestrings(paths)))
+    return np.concatenate((paths, lines[dots])) if dots.any() else paths
 
 
 def _stroke_quad_segs(r_mm: float, tol_mm: float) -> int:
