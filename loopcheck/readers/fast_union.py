@@ -94,7 +94,12 @@ def _groups(n: int, i: np.ndarray, j: np.ndarray) -> list[np.ndarray]:
 
 
 def add(acc: BaseGeometry, merged: BaseGeometry) -> BaseGeometry:
-    """acc union merged, with the binary union done only on the parts of acc that merged reaches."""
+    """acc union merged, with the binary union done only on the parts of acc that merged reaches.
+
+    Parts of acc strictly inside merged are absorbed and parts that do not touch it are kept as
+    they are, both found with merged prepared; only the parts that cross its boundary go into the
+    overlay (a board-wide pour with its pads and traces: most of them sit inside or in its holes).
+    """
     if acc.is_empty:
         return merged
     if merged.is_empty:
@@ -107,6 +112,15 @@ def add(acc: BaseGeometry, merged: BaseGeometry) -> BaseGeometry:
     keep[hit] = False
     if len(hit) == 0:
         return _collect(parts.tolist() + adders.tolist())
+    if len(hit) >= SMALL:
+        shapely.prepare(merged)
+        near = parts[hit]
+        inside = shapely.contains_properly(merged, near)
+        apart = ~inside & ~shapely.intersects(merged, near)
+        keep[hit[apart]] = True
+        hit = hit[~inside & ~apart]
+        if len(hit) == 0:
+            return _collect(parts[keep].tolist() + adders.tolist())
     joined = shapely.union(_collect(parts[hit].tolist()), merged)
     return _collect(parts[keep].tolist() + polygons_of(joined))
 
