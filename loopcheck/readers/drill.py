@@ -36,7 +36,7 @@ from ..board import Hole
 from ..errors import InputError
 from ..limits import DEFAULT_LIMITS, InputLimits
 from .aperture_shapes import unit_factor
-from .gerber import _read_text, sniff_gerber
+from .gerber import _read_text, sniff_gerber, text_head
 
 
 @dataclass
@@ -215,11 +215,5 @@ def sniff_excellon_text(text: str) -> bool:
 
 def sniff_excellon(path) -> bool:
     """Cheap content check: does the file look like an Excellon drill file? (reads 64 KB)"""
-    try:
-        with open(path, "rb") as fh:
-            head = fh.read(65536)
-    except OSError:
-        return False
-    if not head or b"\x00" in head:
-        return False
-    return sniff_excellon_text(head.decode("latin-1"))
+    text = text_head(path)
+    return text is not None and sniff_excellon_text(text)

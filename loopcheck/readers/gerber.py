@@ -1027,16 +1027,24 @@ _GERBER_HINTS = re.compile(r"%FS[LTD]?[AI]|%MO(MM|IN)|%ADD\d+|G0?4[ *]|%TF\.")
 _GERBER_OPS = re.compile(r"D0?[123]\*|M0?2\*|%ADD\d+")
 
 
-def sniff_gerber(path) -> bool:
-    """Cheap content check: does the file start like a Gerber file? (reads at most 64 KB)"""
+def text_head(path, size: int = 65536) -> str | None:
+    """The first ``size`` bytes of a file as text, or None when it is unreadable, empty or
+    binary (a NUL byte): the cheap look that the format sniffers share."""
     try:
         with open(path, "rb") as fh:
-            head = fh.read(65536)
+            head = fh.read(size)
     except OSError:
-        return False
+        return None
     if not head or b"\x00" in head:
+        return None
+    return head.decode("latin-1")
+
+
+def sniff_gerber(path) -> bool:
+    """Cheap content check: does the file start like a Gerber file? (reads at most 64 KB)"""
+    text = text_head(path)
+    if text is None:
         return False
-    text = head.decode("latin-1")
     if re.search(r"^\s*M48\s*$", text, re.M):      # an Excellon header
         return False
     return bool(_GERBER_HINTS.search(text)) and bool(_GERBER_OPS.search(text))
