@@ -185,12 +185,7 @@ class _Parser(GerberParser):
                 return super()._parse_coord(match)
         elif region.unit is not gs.unit:
             return super()._parse_coord(match)
-        x = self._value(x) if x else None
-        if x_s and x is not None:
-            x = -x
-        y = self._value(y) if y else None
-        if y_s and y is not None:
-            y = -y
+        x, y = self._signed(x_s, x), self._signed(y_s, y)
         self.last_operation = "1"
         if interp is not None:
             gs.interpolation_mode = _LINEAR
@@ -211,15 +206,17 @@ class _Parser(GerberParser):
             region.outline.append(new)
             region.arc_centers.append(None)
 
+    def _signed(self, sign, digits):
+        """One coordinate word's value with its sign, or None when the word is absent."""
+        if not digits:
+            return None
+        v = self._value(digits)
+        return -v if sign else v
+
     def _flash(self, x_s, x, y_s, y):
         """D03 outside a region, as gerbonara's GraphicsState.flash builds it."""
         gs = self.graphics_state
-        x = self._value(x) if x else None
-        if x_s and x is not None:
-            x = -x
-        y = self._value(y) if y else None
-        if y_s and y is not None:
-            y = -y
+        x, y = self._signed(x_s, x), self._signed(y_s, y)
         self.last_operation = "3"
         old = gs.point
         px, py = gs.point = (old[0] if x is None else x, old[1] if y is None else y)
