@@ -11,6 +11,7 @@ import pytest
 from loopcheck.errors import InputError
 from loopcheck.limits import InputLimits
 from loopcheck.readers.discover import discover, sniff
+from corpus_maps import CORPUS_MAPPINGS
 
 CORPUS = Path(__file__).parents[1].parent / "shared" / "corpus"
 
@@ -188,13 +189,6 @@ def test_empty_and_broken_zip(tmp_path):
 
 # --- the corpus ----------------------------------------------------------------------------
 
-# Folders that hold more than one board: each needs a mapping (or gives the clear error).
-CORPUS_MAPPINGS = {
-    "diptrace": {"mainboard_Top.gbr": "copper:1", "mainboard_Bottom.gbr": "copper:2",
-                 "mainboard_BoardOutline.gbr": "outline", "mainboard.drl": "drill"},
-    "geda": {"driver.top.gbr": "copper:1", "driver.bottom.gbr": "copper:2",
-             "driver.plated-drill.cnc": "drill:plated", "driver.unplated-drill.cnc": "drill:nonplated"},
-}
 
 
 def corpus_boards() -> list[Path]:

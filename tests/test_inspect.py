@@ -17,6 +17,7 @@ from loopcheck.cli import main
 from synth_fixtures import buck_board, write_buck
 
 from loopcheck.synth import SynthPour, write_fab
+from corpus_maps import CORPUS_MAPPINGS
 
 REPO = Path(__file__).parents[1]
 
@@ -196,12 +197,6 @@ def test_text_format_and_exit_codes_through_a_subprocess(boards):
 CORPUS = REPO.parent / "shared" / "corpus"
 # folders holding several boards: a project file picks one (the error without it is tested in
 # test_discover.py)
-CORPUS_MAPPINGS = {
-    "diptrace": {"mainboard_Top.gbr": "copper:1", "mainboard_Bottom.gbr": "copper:2",
-                 "mainboard_BoardOutline.gbr": "outline", "mainboard.drl": "drill"},
-    "geda": {"driver.top.gbr": "copper:1", "driver.bottom.gbr": "copper:2",
-             "driver.plated-drill.cnc": "drill:plated", "driver.unplated-drill.cnc": "drill:nonplated"},
-}
 
 
 def corpus_targets():
