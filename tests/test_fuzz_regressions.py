@@ -1,0 +1,185 @@
+"""Regression tests for what the fuzz harness (benchmarks/fuzz_boards.py) found.
+
+Each test writes its own small damaged board (the synthesized buck of synth_fixtures, changed
+the one way the fuzz case changed it), runs ``loopcheck check`` as a user would and holds it to
+the bad-input contract: exit code 2, one line on stderr naming the file and line, no traceback,
+no report written, nothing changed beside the inputs.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from synth_fixtures import write_buck
+
+REPO = Path(__file__).parents[1]
+
+# readers-netlist owns readers/gerber.py and is fixing this class (issue 11); the tests below
+# say what the fix must do and pass once it has landed
+NO_APERTURE = pytest.mark.xfail(
+    strict=False,
+    reason="a draw or flash with no valid aperture selected (D0*, a flash before any aperture) "
+           "still raises AttributeError in readers/aperture_shapes.py; the reader fix is "
+           "readers-netlist's (issue 11) and was not in main when this test was written")
+
+
+def listing(folder: Path) -> list[tuple[str, int, int]]:
+    return [(str(p.relative_to(folder)), p.lstat().st_size, p.lstat().st_mtime_ns)
+            for p in sorted(folder.rglob("*"))]
+
+
+def check_refuses(board: Path, tmp_path: Path, name: str, lines: range | None = None) -> str:
+    """Run ``loopcheck check BOARD --format json --output OUT``; assert the bad-input contract.
+
+    ``name`` must be in the one line on stderr, followed by ``:LINE:`` with LINE in ``lines``
+    when given. Returns the line."""
+    out_dir = tmp_path / "out"
+    out_dir.mkdir()
+    out = out_dir / "report.json"
+    before = listing(board)
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    res = subprocess.run([sys.executable, "-m", "loopcheck", "check", str(board), "--format", "json",
+                          "--output", str(out)], capture_output=True, text=True, env=env,
+                         cwd=str(out_dir), timeout=120)
+    assert "Traceback" not in res.stderr, res.stderr
+    assert res.returncode == 2, (res.returncode, res.stderr)
+    err = res.stderr.strip("\n").split("\n")
+    assert len(err) == 1 and err[0].startswith("loopcheck: "), res.stderr
+    assert name in err[0], err[0]
+    if lines is not None:
+        m = re.search(re.escape(name) + r":(\d+):", err[0])
+        assert m and int(m[1]) in lines, (err[0], list(lines))
+    assert not out.exists() and list(out_dir.iterdir()) == [], "a report was written on exit 2"
+    assert listing(board) == before, "something changed beside the inputs"
+    return err[0]
+
+
+def damaged_copper(tmp_path: Path, change) -> tuple[Path, str, int]:
+    """The synthesized buck with its top copper layer passed through ``change(lines) -> (lines, k)``
+    (k: the 1-based line the damage is on). Returns the board folder, the file name and k."""
+    board = tmp_path / "board"
+    paths = write_buck(board)
+    top = paths["L1"]
+    lines, k = change(top.read_text().splitlines(keepends=True))
+    top.write_text("".join(lines))
+    return board, top.name, k
+
+
+def _first(lines: list[str], prefix: str) -> int:
+    return next(i for i, line in enumerate(lines) if line.startswith(prefix))
+
+
+def test_select_of_aperture_D0_then_a_flash(tmp_path):
+    """Fuzz kind invalid-dcode: ``D0*`` (no such aperture) selected, then a flash."""
+    def change(lines):
+        k = _first(lines, "X")                 # the first coordinate statement
+        return lines[:k] + ["D0*\n", "X0Y0D03*\n"] + lines[k:], k + 1
+    board, name, k = damaged_copper(tmp_path, change)
+    check_refuses(board, tmp_path, name, range(k, k + 3))
+
+
+@NO_APERTURE
+def test_flash_before_any_aperture_is_defined(tmp_path):
+    """Fuzz kind invalid-dcode, flash-before-aperture (seed 1, cases 52 and 57 of the first run)."""
+    def change(lines):
+        k = _first(lines, "%ADD")
+        return lines[:k] + ["X0Y0D03*\n"] + lines[k:], k + 1
+    board, name, k = damaged_copper(tmp_path, change)
+    check_refuses(board, tmp_path, name, range(k, k + 2))
+
+
+@NO_APERTURE
+def test_flashes_with_every_aperture_selection_deleted(tmp_path):
+    """Fuzz kind invalid-dcode, no-selects, on the bottom layer: a pour, then flashes with no
+    aperture ever selected (a draw, D01, with none is already refused by the parser)."""
+    board = tmp_path / "board"
+    bottom = write_buck(board)["L2"]
+    lines = bottom.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.endswith("D03*\n"))
+    bottom.write_text("".join(line for line in lines if not re.match(r"^(G54)?D\d{2,}\*\s*$", line)))
+    check_refuses(board, tmp_path, bottom.name)
+
+
+def test_draws_with_every_aperture_selection_deleted(tmp_path):
+    """The same on the top layer, whose first operation is a draw: refused by the parser."""
+    def change(lines):
+        return [line for line in lines if not re.match(r"^(G54)?D\d{2,}\*\s*$", line)], 0
+    board, name, _ = damaged_copper(tmp_path, change)
+    check_refuses(board, tmp_path, name)
+
+
+def check_completes(board: Path, tmp_path: Path) -> dict:
+    """Run ``loopcheck check``; assert it finishes (exit 0 or 1) with its report and no traceback."""
+    out = tmp_path / "report.json"
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    before = listing(board)
+    res = subprocess.run([sys.executable, "-m", "loopcheck", "check", str(board), "--format", "json",
+                          "--output", str(out)], capture_output=True, text=True, env=env,
+                         cwd=str(tmp_path), timeout=120)
+    assert "Traceback" not in res.stderr, res.stderr
+    assert res.returncode in (0, 1), (res.returncode, res.stderr)
+    assert listing(board) == before
+    import json
+    return json.loads(out.read_text())
+
+
+def test_one_flash_repeated_twenty_thousand_times(tmp_path):
+    """Fuzz kind repeat-lines (seed 11, case 9 of the first run): a pad's flash statement
+    repeated 20 000 times made 20 000 identical shapes, whose n^2 overlapping pairs took 12 GB
+    and two minutes in the layer union (a segmentation fault under a memory limit). Identical
+    shapes are now unioned once; the board reads as if the flash were there once."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.endswith("D03*\n"))
+    top.write_text("".join(lines[:k] + [lines[k]] * 20000 + lines[k:]))
+    clean = tmp_path / "clean"
+    write_buck(clean)
+    damaged, reference = tmp_path / "a", tmp_path / "b"
+    damaged.mkdir()
+    reference.mkdir()
+    got, want = check_completes(board, damaged), check_completes(clean, reference)
+    assert got["result"] == want["result"]
+    for a, b in zip(got["layers"], want["layers"], strict=True):
+        assert a["copper_area_mm2"] == pytest.approx(b["copper_area_mm2"], rel=1e-9)
+    assert [(f["rule"], f["severity"], f["stage"]) for f in got["findings"]] == \
+           [(f["rule"], f["severity"], f["stage"]) for f in want["findings"]]
+
+
+def test_outline_drawn_twenty_four_thousand_times_by_step_and_repeat(tmp_path):
+    """Fuzz kind step-repeat on the profile (seed 3, case 0): 100 000 copies of the outline made
+    400 000 lines to join, past 60 s and 4 GB. An outline layer may now draw at most
+    InputLimits.max_profile_segments lines and arcs (copies counted): 6 000 copies of a 4-line
+    outline are refused in one line naming the file."""
+    board = tmp_path / "board"
+    profile = write_buck(board)["profile"]
+    lines = profile.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.endswith("D02*\n"))
+    end = next(i for i, line in enumerate(lines) if line.startswith("M02"))
+    profile.write_text("".join(lines[:k + 1] + ["%SRX1Y6000I1J1*%\n"] + lines[k + 1:end]
+                               + ["%SR*%\n"] + lines[end:]))
+    msg = check_refuses(board, tmp_path, profile.name)
+    assert "outline" in msg and "limit" in msg
+
+
+def test_copper_step_and_repeat_past_a_hundred_thousand_objects(tmp_path):
+    """Fuzz kind step-repeat on copper: 4 000 copies of the top layer's 29 objects (116 000
+    objects) were allowed (the limit was 2 000 000; up to that many take many minutes to read).
+    The default limit is now 100 000 objects after expansion, and the refusal names the file."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    first = next(i for i, line in enumerate(lines) if line.startswith("G01"))
+    end = next(i for i, line in enumerate(lines) if line.startswith("M02"))
+    assert sum(line.endswith(("D01*\n", "D03*\n")) for line in lines[first:end]) >= 29
+    top.write_text("".join(lines[:first] + ["%SRX4000Y1I70J0*%\n"] + lines[first:end] + ["%SR*%\n"]
+                           + lines[end:]))
+    msg = check_refuses(board, tmp_path, top.name)
+    assert "step-and-repeat" in msg
