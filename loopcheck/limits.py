@@ -11,8 +11,13 @@ class InputLimits:
     max_zip_members: int = 500
     max_zip_uncompressed_bytes: int = 500 * 1024 * 1024
     max_zip_ratio: float = 200.0                   # uncompressed / compressed, a zip-bomb guard
-    max_step_repeat_objects: int = 2_000_000       # graphic objects after step-and-repeat expansion
+    # graphic objects after step-and-repeat expansion: a layer of this many reads in well under
+    # a minute (2 000 000 took over ten; found by fuzzing)
+    max_step_repeat_objects: int = 100_000
     max_objects_per_layer: int = 5_000_000
+    # drawn lines and arcs of an outline (profile) layer, step-and-repeat copies counted: joining
+    # them into faces is the slow part (40 000 took half a minute); real outlines draw hundreds
+    max_profile_segments: int = 20_000
 
 
 DEFAULT_LIMITS = InputLimits()

@@ -937,6 +937,9 @@ def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: flo
             continue
         for dx, dy in offsets_of[k]:
             lines.append(shapely.LineString(pts + np.array((dx * f_sr, dy * f_sr))))
+    if len(lines) > limits.max_profile_segments:
+        raise InputError(f"the outline layer draws {len(lines)} lines and arcs, over the limit of "
+                         f"{limits.max_profile_segments} for an outline", path=str(path))
     if seg_xy:
         a = np.asarray(seg_xy, dtype=float) + np.tile(np.asarray(seg_off, dtype=float), 2)
         for at, ln in zip(seg_at, shapely.linestrings(a.reshape(-1, 2, 2)).tolist()):
