@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import importlib.util
 import os
+import sys
 from pathlib import Path
 
 import pytest
@@ -30,6 +31,7 @@ pytestmark = pytest.mark.fuzz
 def load_harness():
     spec = importlib.util.spec_from_file_location("fuzz_boards", REPO / "benchmarks" / "fuzz_boards.py")
     module = importlib.util.module_from_spec(spec)
+    sys.modules["fuzz_boards"] = module           # its dataclasses look their module up
     spec.loader.exec_module(module)
     return module
 

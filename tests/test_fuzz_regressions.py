@@ -183,3 +183,48 @@ def test_copper_step_and_repeat_past_a_hundred_thousand_objects(tmp_path):
                            + lines[end:]))
     msg = check_refuses(board, tmp_path, top.name)
     assert "step-and-repeat" in msg
+
+
+def test_regular_polygon_aperture_of_a_million_vertices(tmp_path):
+    """Fuzz kind bad-aperture (seed 2026, case 135): ``%ADD11P,1X1000000*%`` made every flash
+    of D11 a million-vertex polygon and the layer ran past a minute (here: one flash of it). The Gerber format allows
+    3 to 12 vertices; over 1024 is refused, naming the file."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    k = max(i for i, line in enumerate(lines) if line.startswith("%ADD")) + 1
+    end = next(i for i, line in enumerate(lines) if line.startswith("M02"))
+    top.write_text("".join(lines[:k] + ["%ADD99P,1X1000000*%\n"] + lines[k:end]
+                           + ["D99*\n", "X20000000Y20000000D03*\n"] + lines[end:]))
+    msg = check_refuses(board, tmp_path, top.name)
+    assert "vertices" in msg
+
+
+def test_zip_of_a_version_the_zip_module_cannot_read(tmp_path):
+    """Fuzz kind zip-corrupt (seed 2026, case 177): a flipped byte made the archive's central
+    directory ask for zip version 8.1, and the zip module's NotImplementedError came out as a
+    traceback. It is an archive that cannot be read: exit 2, naming the archive."""
+    board = tmp_path / "board"
+    paths = write_buck(board)
+    z = tmp_path / "zipin" / "board.zip"
+    z.parent.mkdir()
+    import zipfile
+    with zipfile.ZipFile(z, "w", zipfile.ZIP_DEFLATED) as zf:
+        for p in paths.values():
+            zf.write(p, p.name)
+    data = bytearray(z.read_bytes())
+    central = data.find(b"PK\x01\x02")
+    data[central + 6:central + 8] = (81).to_bytes(2, "little")     # version needed to extract: 8.1
+    z.write_bytes(bytes(data))
+    out = tmp_path / "out"
+    out.mkdir()
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    before = listing(z.parent)
+    res = subprocess.run([sys.executable, "-m", "loopcheck", "check", str(z), "--format", "json",
+                          "--output", str(out / "report.json")], capture_output=True, text=True,
+                         env=env, cwd=str(out), timeout=120)
+    assert "Traceback" not in res.stderr, res.stderr
+    assert res.returncode == 2, (res.returncode, res.stderr)
+    err = res.stderr.strip("\n").split("\n")
+    assert len(err) == 1 and "board.zip" in err[0] and "zip" in err[0], res.stderr
+    assert list(out.iterdir()) == [] and listing(z.parent) == before
