@@ -119,6 +119,8 @@ def regular_polygon(cx: float, cy: float, outer_diameter: float, n: int,
                     rotation_deg: float = 0.0, about=None) -> Polygon:
     """Regular n-gon with its circumscribed circle of ``outer_diameter``, first vertex on +x."""
     n = int(round(n))
+    if n > 1024:    # the format allows 3 to 12; a million (found by fuzzing) took minutes per layer
+        raise ValueError(f"a regular polygon of {n} vertices (the Gerber format allows 3 to 12)")
     if n < 3 or outer_diameter <= 0:
         return Polygon()
     t = np.linspace(0.0, 2.0 * math.pi, n, endpoint=False)

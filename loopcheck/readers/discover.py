@@ -162,8 +162,9 @@ def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
 def _extract_zip(zip_path: Path, dest: Path, limits: InputLimits) -> None:
     try:
         zf = zipfile.ZipFile(zip_path)
-    except zipfile.BadZipFile:
-        raise InputError("not a valid zip archive", path=str(zip_path)) from None
+    except (zipfile.BadZipFile, NotImplementedError, ValueError, EOFError) as exc:   # e.g. a version it cannot read
+        raise InputError(f"not a valid zip archive ({exc})" if isinstance(exc, NotImplementedError)
+                         else "not a valid zip archive", path=str(zip_path)) from None
     except OSError as exc:
         raise InputError(f"cannot read: {exc.strerror or exc}", path=str(zip_path)) from None
     with zf:
