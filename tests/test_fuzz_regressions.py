@@ -38,12 +38,14 @@ def listing(folder: Path) -> list[tuple[str, int, int]]:
 def check_refuses(board: Path, tmp_path: Path, name: str, lines: range | None = None) -> str:
     """Run ``loopcheck check BOARD --format json --output OUT``; assert the bad-input contract.
 
+    BOARD is a folder (watched for changes) or a .zip (its folder is watched).
     ``name`` must be in the one line on stderr, followed by ``:LINE:`` with LINE in ``lines``
     when given. Returns the line."""
     out_dir = tmp_path / "out"
     out_dir.mkdir()
     out = out_dir / "report.json"
-    before = listing(board)
+    watch = board if board.is_dir() else board.parent
+    before = listing(watch)
     env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
     res = subprocess.run([sys.executable, "-m", "loopcheck", "check", str(board), "--format", "json",
                           "--output", str(out)], capture_output=True, text=True, env=env,
@@ -57,7 +59,7 @@ def check_refuses(board: Path, tmp_path: Path, name: str, lines: range | None = 
         m = re.search(re.escape(name) + r":(\d+):", err[0])
         assert m and int(m[1]) in lines, (err[0], list(lines))
     assert not out.exists() and list(out_dir.iterdir()) == [], "a report was written on exit 2"
-    assert listing(board) == before, "something changed beside the inputs"
+    assert listing(watch) == before, "something changed beside the inputs"
     return err[0]
 
 
@@ -228,3 +230,21 @@ def test_zip_of_a_version_the_zip_module_cannot_read(tmp_path):
     err = res.stderr.strip("\n").split("\n")
     assert len(err) == 1 and "board.zip" in err[0] and "zip" in err[0], res.stderr
     assert list(out.iterdir()) == [] and listing(z.parent) == before
+
+
+def test_zip_member_with_an_empty_name(tmp_path):
+    """Fuzz kind zip-paths (seed 11, case 157): a member whose name is empty made the zip
+    module's is_dir() raise IndexError. It is refused as a member with no file name."""
+    board = tmp_path / "board"
+    paths = write_buck(board)
+    zdir = tmp_path / "zipin"
+    zdir.mkdir()
+    import zipfile
+    with zipfile.ZipFile(zdir / "board.zip", "w") as zf:
+        for p in paths.values():
+            zf.write(p, p.name)
+        info = zipfile.ZipInfo("x")
+        info.filename = ""
+        zf.writestr(info, b"G04 nameless*\nM02*\n")
+    msg = check_refuses(zdir / "board.zip", tmp_path, "board.zip")
+    assert "no file name" in msg

@@ -168,7 +168,7 @@ def _extract_zip(zip_path: Path, dest: Path, limits: InputLimits) -> None:
     except OSError as exc:
         raise InputError(f"cannot read: {exc.strerror or exc}", path=str(zip_path)) from None
     with zf:
-        members = [m for m in zf.infolist() if not m.is_dir()]
+        members = [m for m in zf.infolist() if not m.filename.endswith("/")]   # is_dir() fails on ""
         if not members:
             raise InputError("empty zip archive: no files in it", path=str(zip_path))
         if len(members) > limits.max_zip_members:
