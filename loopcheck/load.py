@@ -33,17 +33,22 @@ from .stackup import build_stackup, layer_names
 EXTENT_MARGIN_MM = 2.0
 
 
-def load_board(project: Project, limits: InputLimits = DEFAULT_LIMITS) -> Board:
+def load_board(project: Project, limits: InputLimits = DEFAULT_LIMITS, board: str | None = None) -> Board:
     """Read the board a Project names. Raises InputError on bad or ambiguous input.
 
     Parameters
     ----------
     project : from :func:`loopcheck.project.load_project`
     limits : limits for untrusted input files
+    board : which board, when the fab outputs hold several (``readers.discover.list_boards``);
+        None with several boards raises :class:`loopcheck.readers.discover.SeveralBoards`
     """
     project_file = str(project.path) if project.path else None
-    with discover(project.fab, project.files, limits, project_file=project_file) as fab:
-        return _load(project, fab, limits)
+    with discover(project.fab, project.files, limits, project_file=project_file, board=board) as fab:
+        b = _load(project, fab, limits)
+        if fab.board is not None:
+            b.name = f"{project.name}/{fab.board}"
+        return b
 
 
 # Copper layers are read in parallel processes (one per core) when there is enough to read: the

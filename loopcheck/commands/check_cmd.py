@@ -108,10 +108,10 @@ def _load_project(board: str):
     return load_project(board)
 
 
-def _load_board(project):
+def _load_board(project, board_name: str | None = None):
     from ..load import load_board
 
-    return load_board(project)
+    return load_board(project, board=board_name)
 
 
 def _analyse(board, project):
@@ -120,7 +120,7 @@ def _analyse(board, project):
     return analyse(board, project)
 
 
-def run_check(board: str, deck: str | None, fail_on: str, progress: Progress):
+def run_check(board: str, deck: str | None, fail_on: str, progress: Progress, board_name: str | None = None):
     """The pipeline: project, board, analysis, evaluation. Returns a CheckResult."""
     from ..report.common import CheckResult
     from ..rules import evaluate_all, load_deck
@@ -129,7 +129,7 @@ def run_check(board: str, deck: str | None, fail_on: str, progress: Progress):
         project = _load_project(board)
     rule_deck = load_deck(deck, project)          # early: a bad deck fails before the slow part
     with progress.step("reading the fab outputs"):
-        b = _load_board(project)
+        b = _load_board(project, board_name)
     with progress.step("measuring the power stages"):
         analysis = _analyse(b, project)
     evaluation = evaluate_all(analysis, rule_deck, project)
@@ -172,19 +172,36 @@ def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None 
 @click.option("--fail-on-incomplete", is_flag=True,
               help="Also exit 1 when the check did not cover everything (no netlist, no power "
                    "stage found, measurements not made); the reports list what was not covered.")
+@click.option("--board", "board_name", default=None, metavar="NAME",
+              help="The board to check when the fab outputs hold several (told apart by subfolder "
+                   "or file-name stem); default: each in turn, reported separately, the exit code "
+                   "the worst of them. Several boards' machine-read reports need --output FILE "
+                   "(one file per board, the board's name put before the suffix).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress messages on stderr.")
 def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tuple[str, ...],
-            fail_on: str, fail_on_incomplete: bool, quiet: bool) -> None:
+            fail_on: str, fail_on_incomplete: bool, board_name: str | None, quiet: bool) -> None:
     """Check the power stages of BOARD (a fab-output folder, .zip or loopcheck.toml).
 
     Exit code 0: no unwaived finding at or above --fail-on (and, with --fail-on-incomplete,
     nothing left uncovered); 1: there are some; 2: bad input.
     """
-    pairs = pair_outputs(formats, outputs)
-    for _, out in pairs:
-        if out is not None:
-            check_writable(out)
-    progress = Progress(enabled=not quiet and sys.stderr.isatty())
-    result = run_check(board, deck, fail_on, progress)
-    emit(result, pairs, progress)
-    sys.exit(1 if result.failed or (fail_on_incomplete and result.gaps) else 0)
+    from . import boards
+
+    names = boards.boards_to_run(_load_project(board), board_name)
+    per_board = boards.per_board_outputs(pair_outputs(formats, outputs), names)
+
+    for pairs in per_board:
+        for _, out in pairs:
+            if out is not None:
+                check_writable(out)
+
+    def one(name: str | None) -> int:
+        pairs = per_board[names.index(name)]
+        progress = Progress(enabled=not quiet and sys.stderr.isatty())
+        result = run_check(board, deck, fail_on, progress, board_name=name)
+        if any(out is None for _, out in pairs):
+            boards.heading(name, names)
+        emit(result, pairs, progress)
+        return 1 if result.failed or (fail_on_incomplete and result.gaps) else 0
+
+    sys.exit(boards.run_each(names, one))

@@ -59,6 +59,9 @@ class FabSet:
     bom: Path | None = None
     ignored: list[tuple[Path, str]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    board: str | None = None                 # the board read, when the fab outputs hold several
+    boards: list[str] = field(default_factory=list)   # all boards found (empty: just one)
+    claimed_copper: list[Path] = field(default_factory=list)   # files claiming copper (before resolving)
     how: dict[Path, str] = field(default_factory=dict)      # path -> how its role was decided
     attributes: dict[Path, str] = field(default_factory=dict)  # path -> X2 FileFunction
     _tmp: tempfile.TemporaryDirectory | None = None
@@ -116,8 +119,17 @@ class _File:
 
 # --- entry point ---------------------------------------------------------------------------
 
+class SeveralBoards(InputError):
+    """The fab outputs hold more than one board and none was chosen (``boards`` names them)."""
+
+    def __init__(self, message: str, boards: list[str], path: str | None = None):
+        super().__init__(message, path=path)
+        self.boards = boards
+
+
 def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
-             limits: InputLimits = DEFAULT_LIMITS, project_file: str | None = None) -> FabSet:
+             limits: InputLimits = DEFAULT_LIMITS, project_file: str | None = None,
+             board: str | None = None) -> FabSet:
     """Sort the files of a folder or a .zip of fab outputs into roles (see the module docstring).
 
     Parameters
@@ -126,15 +138,70 @@ def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
     mapping : the project's ``[files]`` table, file name (relative to the fab) -> role
     limits : limits for an untrusted archive
     project_file : the project file's path, named in errors about the mapping
+    board : which board to read when the fab outputs hold several (see :func:`list_boards`)
 
     Raises
     ------
     InputError : a refused or broken zip; no copper layer; two files claiming one copper layer;
         a mapping that names a file not in the fab outputs; a file named like a Gerber, Excellon
-        or IPC-D-356 file whose content is not one (unless mapped as "ignore").
+        or IPC-D-356 file whose content is not one (unless mapped as "ignore");
+        :class:`SeveralBoards` when the fab outputs hold several boards and ``board`` is None;
+        a ``board`` that is not among them.
     """
+    fab = _open(fab_path, limits)
+    try:
+        files = _scan(fab, limits)
+        groups = board_groups(fab, files, dict(mapping or {}), limits, project_file)
+        if len(groups) > 1:
+            names = list(groups)
+            fab.boards = names
+            if board is None:
+                raise SeveralBoards(f"{len(names)} boards in these fab outputs ({', '.join(names)}); pick one "
+                                    f"with --board NAME, or give each board its own folder",
+                                    names, path=str(fab.source))
+            key = _match_board(board, names)
+            if key is None:
+                raise InputError(f"--board {board}: no such board here; the fab outputs hold "
+                                 f"{', '.join(names)}", path=str(fab.source))
+            files = groups[key]
+            fab.board = key
+            fab.notes.append(f"board {key!r}, one of {len(names)} boards in these fab outputs "
+                             f"({', '.join(names)}): only its files are read")
+        elif board is not None and board != next(iter(groups)):
+            raise InputError(f"--board {board}: these fab outputs hold one board; leave --board out",
+                             path=str(fab.source))
+        _classify(fab, files, dict(mapping or {}), limits, project_file)
+    except BaseException:
+        fab.close()
+        raise
+    return fab
+
+
+def list_boards(fab_path: str | Path, mapping: dict[str, str] | None = None,
+                limits: InputLimits = DEFAULT_LIMITS, project_file: str | None = None) -> list[str]:
+    """The boards in a folder or .zip of fab outputs: their names when there are several, else [].
+
+    Boards are told apart by subfolder (each holding its own copper layers) or by the file-name
+    stem (``controller.top.gbr`` / ``driver.top.gbr``) when the files together would put two
+    files on one copper layer; a project file's ``[files]`` that maps copper makes one board.
+    """
+    fab = _open(fab_path, limits)
+    try:
+        groups = board_groups(fab, _scan(fab, limits), dict(mapping or {}), limits, project_file)
+        return list(groups) if len(groups) > 1 else []
+    finally:
+        fab.close()
+
+
+def _match_board(board: str, names: list[str]) -> str | None:
+    if board in names:
+        return board
+    low = [n for n in names if n.lower() == board.lower().strip("/")]
+    return low[0] if len(low) == 1 else None
+
+
+def _open(fab_path: str | Path, limits: InputLimits) -> FabSet:
     fab_path = Path(fab_path)
-    mapping = dict(mapping or {})
     if fab_path.is_dir():
         fab = FabSet(source=fab_path, root=fab_path)
     elif fab_path.is_file() and fab_path.suffix.lower() == ".zip":
@@ -149,12 +216,80 @@ def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
         raise InputError("no such file or folder", path=str(fab_path))
     else:
         raise InputError("expected a folder or a .zip of fab outputs", path=str(fab_path))
-    try:
-        _classify(fab, mapping, limits, project_file)
-    except BaseException:
-        fab.close()
-        raise
     return fab
+
+
+# --- several boards in one folder ----------------------------------------------------------
+
+# extensions that say nothing about the layer: the layer is then in the rest of the name
+_PLAIN_EXT = {".gbr", ".ger", ".gerber", ".pho", ".art", ".gbx", ".grb", ".txt", ".drl", ".cnc", ".xln",
+              ".exc", ".ipc", ".d356", ".csv", ".nc"}
+_SEP = re.compile(r"[._\-\s]+")
+
+
+def _trial(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: InputLimits,
+           project_file: str | None) -> tuple[list[Path], bool]:
+    """Classify ``files`` on their own: (files claiming copper, True when two claim one layer)."""
+    scratch = FabSet(source=fab.source, root=fab.root)
+    try:
+        _classify(scratch, files, mapping, limits, project_file)
+    except InputError as exc:
+        return scratch.claimed_copper, "more than one file claims the same copper layer" in exc.detail
+    return scratch.claimed_copper, False
+
+
+def _stem(f: _File, k: int) -> str:
+    """The file name up to its k-th separator (the extension left out): the board's stem."""
+    name = f.path.name
+    stem = name[: -len(f.path.suffix)] if f.path.suffix and len(f.path.suffix) < len(name) else name
+    cuts = [m.start() for m in _SEP.finditer(stem) if m.start() > 0]
+    return stem[: cuts[k - 1]] if len(cuts) >= k else stem
+
+
+def board_groups(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: InputLimits,
+                 project_file: str | None, prefix: str = "") -> dict[str | None, list[_File]]:
+    """Board name -> its files; one entry (name None) when the files make one board."""
+    if any(role.startswith("copper:") for role in mapping.values()):
+        return {None: files}
+    claims, clash = _trial(fab, files, mapping, limits, project_file)
+    if not clash:
+        return {prefix.rstrip("/") or None: files}
+    # 1. subfolders that each hold copper layers
+    by_dir: dict[str, list[_File]] = {}
+    for f in files:
+        sub = f.rel[len(prefix):]
+        by_dir.setdefault(prefix + sub.split("/", 1)[0] + "/" if "/" in sub else "", []).append(f)
+    with_copper = {d: fs for d, fs in by_dir.items() if d and _trial(fab, fs, mapping, limits, project_file)[0]}
+    if len(with_copper) > 1:
+        out: dict[str | None, list[_File]] = {}
+        for d, fs in sorted(with_copper.items()):
+            for name, group in board_groups(fab, fs, mapping, limits, project_file, prefix=d).items():
+                out[name or d.rstrip("/")] = group
+        return out
+    # 2. file-name stems: the shortest stem that leaves no two files on one copper layer
+    for k in range(1, 6):
+        groups: dict[str, list[_File]] = {}
+        for f in files:
+            groups.setdefault(prefix + _stem(f, k), []).append(f)
+        boards = {}
+        copper_files: set[Path] = set()
+        ok = True
+        for name, fs in groups.items():
+            claimed, clash = _trial(fab, fs, mapping, limits, project_file)
+            if clash:
+                ok = False
+                break
+            if claimed:
+                boards[name] = fs
+                copper_files.update(claimed)
+        if not ok or len(boards) < 2:
+            continue
+        # the stem must not swallow the layer's own name (``x.top`` / ``x.bottom`` are one board)
+        if any(_stem(f, k) == _stem(f, 99) and f.path.suffix.lower() in _PLAIN_EXT
+               for fs in boards.values() for f in fs if f.path in copper_files):
+            break
+        return dict(sorted(boards.items()))
+    return {prefix.rstrip("/") or None: files}
 
 
 # --- zip safety ----------------------------------------------------------------------------
@@ -278,7 +413,9 @@ class _Claim:
     how: str
 
 
-def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project_file: str | None) -> None:
+def _scan(fab: FabSet, limits: InputLimits) -> list[_File]:
+    """Every file under the fab root (hidden files, system files and the project file left out),
+    with its kind and X2 FileFunction sniffed from its first bytes."""
     files: list[_File] = []
     found = []
     for p in fab.root.rglob("*"):
@@ -296,9 +433,14 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
             continue
         kind, function = sniff(path)
         files.append(_File(path=path, rel=rel, kind=kind, function=function))
-        if function:
-            fab.attributes[path] = function
+    return files
 
+
+def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: InputLimits,
+              project_file: str | None) -> None:
+    for f in files:
+        if f.function:
+            fab.attributes[f.path] = f.function
     by_rel = {f.rel: f for f in files}
     by_name: dict[str, list[_File]] = {}
     for f in files:
@@ -465,6 +607,7 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
     drill_items = set_aside("drill", list(drills.values()), lambda c: c[0])
     boms = set_aside("bom", boms, lambda f: f)
 
+    fab.claimed_copper = [c.file.path for c in copper_claims]
     _resolve_copper(fab, copper_claims, project_file)
 
     if outline_cands:
