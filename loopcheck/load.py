@@ -140,7 +140,14 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
     for path, plated in fab.drills:
         from .readers.drill import read_excellon
         try:
-            df = read_excellon(path, limits)
+            df = read_excellon(path, limits, number_format=fab.drill_formats.get(path))
+            if df.format_candidates:
+                df, note = _choose_drill_format(project, fab, path, plated, df, raw_layers, limits)
+                assumptions.append(note)
+            elif df.number_format is not None and "parameter file" in df.number_format.source \
+                    or df.number_format is not None and "drill log" in df.number_format.source:
+                assumptions.append(f"{fab.relname(path)}: number format from {df.number_format.source}: "
+                                   f"{df.number_format.describe()}")
         except InputError as exc:
             raise _reraise(fab, exc) from None
         name = fab.relname(path)
@@ -261,6 +268,58 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
         assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
     )
+
+
+# a guessed drill format is taken when at least this share of its plated holes land on copper
+DRILL_GUESS_MIN_LANDED = 0.5
+
+
+def _choose_drill_format(project: Project, fab: FabSet, path, plated: bool | None, first, raw_layers,
+                         limits: InputLimits):
+    """The drill file read with each plausible number format; the one whose plated holes land on
+    the copper of the outer layers (where a plated hole has its pad) most often. Returns the
+    DrillFile and the assumption that says so; refuses when none lands on copper."""
+    from .readers.drill import read_excellon
+
+    name = fab.relname(path)
+    geoms = [gl.geometry for _, _, gl in raw_layers if not gl.geometry.is_empty]
+    outer = [geoms[0], geoms[-1]] if len(geoms) > 1 else geoms
+    for g in outer:
+        shapely.prepare(g)
+    scored = []
+    for cand in first.format_candidates:
+        df = first if cand == first.number_format else read_excellon(path, limits, number_format=cand)
+        holes = [h for h in df.holes if h.end is None and (h.plated if plated is None else plated)]
+        if not holes or not outer:
+            scored.append((0, 0, cand, df))
+            continue
+        xs = np.array([h.x_mm for h in holes])
+        ys = np.array([h.y_mm for h in holes])
+        on = np.zeros(len(holes), dtype=bool)
+        for g in outer:
+            on |= shapely.contains_xy(g, xs, ys)
+        scored.append((int(on.sum()), len(holes), cand, df))
+    fix = (f"set it under [files] in {project.path or 'a loopcheck.toml beside the fab outputs'}, e.g. "
+           f"\"{name}\" = \"drill {{words}}\"")
+    if all(n == 0 for _, n, _, _ in scored):
+        cand = scored[0][2]
+        return scored[0][3], (f"{name}: number format not given in the file or beside it, and no plated "
+                              f"holes to check a guess against the copper; read as {cand.describe()} (the "
+                              f"most common habit); if wrong, " + fix.format(words=cand.words()))
+    best = max(scored, key=lambda s: (s[0] / max(s[1], 1)))   # first of equals: the likelier habit
+    landed, total, cand, df = best
+    if landed < DRILL_GUESS_MIN_LANDED * total:
+        raise InputError(f"no number format in the drill file or beside it, and none of the "
+                         f"{len(scored)} plausible formats puts its plated holes on the copper (best: "
+                         f"{cand.describe()}, {landed} of {total}); "
+                         + fix.format(words="inch 2.4 omit-leading") + " with the right units and digits",
+                         path=fab.error_name(path))
+    others = sorted((s for s in scored if s is not best and s[0] / max(s[1], 1) < landed / total),
+                    key=lambda s: -s[0] / max(s[1], 1))
+    nxt = f"; next best {others[0][2].describe()}: {others[0][0]} of {others[0][1]}" if others else ""
+    return df, (f"{name}: number format not given in the file or beside it; read as {cand.describe()}: "
+                f"{landed} of {total} plated holes land on the outer copper{nxt}; if wrong, "
+                + fix.format(words=cand.words()))
 
 
 def clip_to_outline(geom: BaseGeometry, outline: BaseGeometry) -> BaseGeometry:

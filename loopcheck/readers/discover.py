@@ -59,6 +59,7 @@ class FabSet:
     bom: Path | None = None
     ignored: list[tuple[Path, str]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    drill_formats: dict = field(default_factory=dict)   # path -> DrillFormat from the [files] mapping
     board: str | None = None                 # the board read, when the fab outputs hold several
     boards: list[str] = field(default_factory=list)   # all boards found (empty: just one)
     claimed_copper: list[Path] = field(default_factory=list)   # files claiming copper (before resolving)
@@ -466,7 +467,7 @@ def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: 
     netlists: list[tuple[_File, str]] = []
     boms: list[_File] = []
     decided: set[str] = set()
-    mapped_roles = {role.split(":")[0] for _, role in mapped.values()}
+    mapped_roles = {role.split(" ")[0].split(":")[0] for _, role in mapped.values()}
 
     for rel, (f, role) in mapped.items():
         decided.add(rel)
@@ -480,6 +481,13 @@ def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: 
         elif role.startswith("drill"):
             if f.kind != "gerber":       # drill data written as Gerber is read too
                 _expect(f, "excellon", role, fab, project_file)
+            role, _, words = role.partition(" ")
+            if words.strip():
+                from .drill_format import parse_format_words
+                try:
+                    fab.drill_formats[f.path] = parse_format_words(words)
+                except ValueError as exc:
+                    raise InputError(f"files: {f.rel!r}: {exc}", path=project_file) from None
             plated = {"drill:plated": True, "drill:nonplated": False}.get(role)
             if plated is None:
                 plated = _drill_plating_from_function(f.function)
