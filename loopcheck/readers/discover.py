@@ -286,7 +286,7 @@ def board_groups(fab: FabSet, files: list[_File], mapping: dict[str, str], limit
         if not ok or len(boards) < 2:
             continue
         # the stem must not swallow the layer's own name (``x.top`` / ``x.bottom`` are one board)
-        if any(_stem(f, k) == _stem(f, 99) and f.path.suffix.lower() in _PLAIN_EXT
+        if any(_stem(f, k) == _stem(f, 99) and f.path.suffix.lower() in _PLAIN_EXT and not f.function
                for fs in boards.values() for f in fs if f.path in copper_files):
             break
         return dict(sorted(boards.items()))

@@ -74,7 +74,12 @@ class DrillFormat:
                            self.integer_digits if self.integer_digits is not None else other.integer_digits,
                            self.decimal_digits if self.decimal_digits is not None else other.decimal_digits,
                            self.zeros or other.zeros,
-                           " + ".join(s for s in (self.source, other.source) if s))
+                           " + ".join(s for s, f in ((self.source, self), (other.source, other))
+                                      if s and f.says_something))
+
+    @property
+    def says_something(self) -> bool:
+        return any(v is not None for v in (self.units, self.integer_digits, self.decimal_digits, self.zeros))
 
 
 def parse_format_words(words: str) -> DrillFormat:
