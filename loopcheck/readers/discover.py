@@ -60,6 +60,7 @@ class FabSet:
     ignored: list[tuple[Path, str]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     drill_formats: dict = field(default_factory=dict)   # path -> DrillFormat from the [files] mapping
+    inner_order_guessed: list[Path] = field(default_factory=list)   # inner layers in a guessed order
     board: str | None = None                 # the board read, when the fab outputs hold several
     boards: list[str] = field(default_factory=list)   # all boards found (empty: just one)
     claimed_copper: list[Path] = field(default_factory=list)   # files claiming copper (before resolving)
@@ -529,6 +530,17 @@ def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: 
             fab.ignored.append((f.path, f"not copper ({how})"))
             decided.add(f.rel)
 
+    # 2b. short extensions and two-letter names (readers.layer_names), before the common rules
+    from .layer_names import copper_position
+    for f in files:
+        if f.rel in decided or f.kind != "gerber":
+            continue
+        pos = copper_position(f.path.name)
+        if pos is not None and pos[0] != "function":
+            copper_claims.append(_Claim(f, pos, "layer number in the file name" if pos[0] == "L"
+                                        else f"file name ({pos[0]} by its extension or layer word)"))
+            decided.add(f.rel)
+
     # 3. gerbonara's layer-name rules, on the files the content says could hold a role
     rest = [f for f in files if f.rel not in decided and f.kind in ("gerber", "excellon", "ipc356")]
     for key, group in _gerbonara_roles(rest).items():
@@ -569,6 +581,15 @@ def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: 
                       f.path.stem, re.I)
         if m:
             copper_claims.append(_Claim(f, ("L", int(m.group(1))), "layer number in the file name"))
+            decided.add(f.rel)
+
+    # 5. inner layers named by their function (GND2, PWR ...): placed between top and bottom
+    for f in files:
+        if f.rel in decided or f.kind != "gerber":
+            continue
+        pos = copper_position(f.path.name)
+        if pos is not None and pos[0] == "function":
+            copper_claims.append(_Claim(f, pos, "inner layer named by its function"))
             decided.add(f.rel)
 
     # the rest by content alone
@@ -760,12 +781,26 @@ def _role_of_gerbonara_key(key: str) -> tuple | None:
     return None
 
 
+def _exact(c: _Claim) -> bool:
+    """A claim of an exact layer number (X2 attribute or the [files] mapping), not a name's."""
+    return c.how.startswith(("X2", "[files]"))
+
+
 def _resolve_copper(fab: FabSet, claims: list[_Claim], project_file: str | None) -> None:
+    functional = [c for c in claims if c.position[0] == "function"]
+    if functional and not any(c.position == ("top",) for c in claims) or functional and \
+            not any(c.position == ("bottom",) for c in claims):
+        # named by function but no top and bottom to put them between: not taken as copper
+        for c in functional:
+            fab.ignored.append((c.file.path, "a Gerber file whose layer could not be told (map it in [files])"))
+        claims = [c for c in claims if c.position[0] != "function"]
     if not claims:
         raise InputError("no copper layer found among the fab outputs (found: "
                          + (", ".join(fab.display(p) for p, _ in fab.ignored[:12]) or "no files")
                          + "); map the copper files in the project file's [files] as copper:1 .. copper:N",
                          path=str(fab.source))
+    if not any(_exact(c) for c in claims) and _resolve_by_names(fab, claims):
+        return
     bottoms = [c for c in claims if c.position == ("bottom",)]
     fixed: list[tuple[int, _Claim]] = []
     for c in claims:
@@ -805,3 +840,45 @@ def _resolve_copper(fab: FabSet, claims: list[_Claim], project_file: str | None)
         c = by_pos[pos][0]
         fab.copper.append((c.file.path, pos - 1))
         fab.how[c.file.path] = c.how
+
+
+def _resolve_by_names(fab: FabSet, claims: list[_Claim]) -> bool:
+    """A stack from names alone: top first, bottom last, the numbered layers between in the
+    order of their numbers (``L02`` .. ``L11``, ``LAYER_1`` .. ``LAYER_2``, ``.ly2`` / ``.ly15``:
+    a name's number orders, it need not be the position), then inner layers named by function
+    in the most likely order (stated as an assumption with the [files] lines that fix it).
+    Returns False (the exact-number rules then decide) when names give no top to start from."""
+    tops = [c for c in claims if c.position == ("top",)]
+    bottoms = [c for c in claims if c.position == ("bottom",)]
+    numbered = [c for c in claims if c.position[0] in ("L", "inner")]
+    functional = [c for c in claims if c.position[0] == "function"]
+    if len(tops) > 1 or len(bottoms) > 1:
+        return False                      # the clash error names them
+    if not tops:
+        return False                      # L1 .. Ln by number (or a gap the exact rules report)
+    numbers = [c.position[1] for c in numbered]
+    if len(set(numbers)) != len(numbers):
+        return False                      # two files with one number: the clash error names them
+    numbered.sort(key=lambda c: c.position[1])
+    functional.sort(key=lambda c: (c.position[1] if c.position[1] is not None else 99, c.position[2],
+                                   c.file.rel.lower()))
+    stack = tops + numbered + functional + bottoms
+    for pos, c in enumerate(stack, start=1):
+        fab.copper.append((c.file.path, pos - 1))
+        fab.how[c.file.path] = c.how
+    renumbered = [c for pos, c in enumerate(stack, start=1) if c in numbered and
+                  pos != (c.position[1] if c.position[0] == "L" else c.position[1] + 1)]
+    lines = ", ".join(f'"{fab.relname(c.file.path)}" = "copper:{pos}"' for pos, c in enumerate(stack, start=1))
+    if renumbered:
+        fab.notes.append("copper layer order from the numbers in the file names (a name's number "
+                         "orders the inner layers, it is not taken as the position): "
+                         + ", ".join(f"{fab.display(c.file.path)} = L{stack.index(c) + 1}" for c in numbered))
+    if len(functional) > 1 or (functional and numbered):
+        fab.inner_order_guessed = [c.file.path for c in numbered + functional]
+        fab.notes.append("inner copper layers named by function, their order not in the names or X2 "
+                         "attributes: taken as " + ", ".join(f"{fab.display(c.file.path)} = L{stack.index(c) + 1}"
+                                                             for c in functional)
+                         + " (numbers in the names first, then ground before power before signal: "
+                           "the most likely order); if wrong, set the order in loopcheck.toml: [files] "
+                         + lines)
+    return True
