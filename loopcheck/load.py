@@ -133,6 +133,13 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
             raise _reraise(fab, exc) from None
         inputs[fab.relname(fab.netlist)] = f"netlist: {fab.how.get(fab.netlist, '')}"
         _check_netlist_layers(fab, netlist, n)
+        if fab.inner_order_guessed:
+            raw_layers, note = _order_inner_by_access_codes(fab, raw_layers, netlist)
+            if note:
+                assumptions.append(note)
+                fab.notes[:] = [x for x in fab.notes if not x.startswith("inner copper layers named by function")]
+                inputs.update({fab.relname(path): f"copper layer {index + 1} ({names[index]}): {note.split(':')[0]}"
+                               for path, index, _ in raw_layers if path in fab.inner_order_guessed})
 
     # drills
     holes: list[Hole] = []
@@ -268,6 +275,44 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
         assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
     )
+
+
+def _order_inner_by_access_codes(fab: FabSet, raw_layers: list, netlist) -> tuple[list, str | None]:
+    """Inner layers whose order the names did not give, put in the order the netlist's access
+    codes say: a pad with access code k (not a through hole) lies on copper layer k, so each
+    file goes to the layer number whose pads land on its copper most often. Returns the layers
+    (re-indexed) and the assumption, or the layers unchanged and None when the netlist has no
+    pads on those layers (the order from the names then stands, as discovery stated it)."""
+    import itertools
+
+    guessed = [(path, index, gl) for path, index, gl in raw_layers if path in fab.inner_order_guessed]
+    slots = sorted(index for _, index, _ in guessed)
+    pts = [p for p in netlist.points if not (p.hole_mm and p.hole_mm > 0) and p.access - 1 in slots]
+    if not pts or len(guessed) > 7:
+        return raw_layers, None
+    score = np.zeros((len(guessed), len(slots)), dtype=int)
+    for i, (_, _, gl) in enumerate(guessed):
+        if gl.geometry.is_empty:
+            continue
+        shapely.prepare(gl.geometry)
+        for j, slot in enumerate(slots):
+            on = [p for p in pts if p.access - 1 == slot]
+            if on:
+                score[i, j] = int(shapely.contains_xy(gl.geometry, np.array([p.x_mm for p in on]),
+                                                      np.array([p.y_mm for p in on])).sum())
+    current = tuple(slots.index(index) for _, index, _ in guessed)
+    best = max(itertools.permutations(range(len(slots))),
+               key=lambda perm: (sum(score[i, j] for i, j in enumerate(perm)), perm == current))
+    if sum(score[i, j] for i, j in enumerate(best)) == 0:
+        return raw_layers, None
+    new_index = {path: slots[j] for (path, _, _), j in zip(guessed, best)}
+    out = [(path, new_index.get(path, index), gl) for path, index, gl in raw_layers]
+    out.sort(key=lambda r: r[1])
+    fab.copper = [(path, index) for path, index, _ in out]
+    placed = ", ".join(f"{fab.relname(path)} = L{new_index[path] + 1} ({score[i, best[i]]} pads)"
+                       for i, (path, _, _) in enumerate(guessed))
+    return out, (f"inner layer order from the netlist's access codes (pads on layer k land on that "
+                 f"file's copper): {placed}")
 
 
 # a guessed drill format is taken when at least this share of its plated holes land on copper

@@ -549,7 +549,9 @@ def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: 
             role = _role_of_gerbonara_key(key)
             if role is None:
                 continue
-            if f.kind == "gerber" and role[0] == "copper":
+            if f.kind == "gerber" and role[0] == "copper" and re.search(r"silk|mask|paste|legend", f.path.name, re.I):
+                fab.ignored.append((f.path, "not copper (silk, mask or paste by its name)"))
+            elif f.kind == "gerber" and role[0] == "copper":
                 copper_claims.append(_Claim(f, role[1], how))
             elif f.kind == "gerber" and role[0] == "outline":
                 pref = 2.0      # .gko, edge cuts, outline, profile ...
