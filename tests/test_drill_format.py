@@ -161,3 +161,16 @@ def test_corpus_bare_inch_files_are_checked_against_copper(folder, board):
     b = load_board(load_project(CORPUS / folder), board=board)
     notes = [a for a in b.assumptions if "number format not given" in a and "plated holes land" in a]
     assert notes and all("read as inch, 2.4 digits" in n for n in notes)
+
+
+def test_decimal_coordinates_without_units_take_the_units_that_land(buck):
+    folder, paths, expected = buck
+    holes = read_excellon(paths["drill"]).holes
+    lines = ["M48", "T1C0.0394", "T2C0.0157", "%"]      # tool sizes in inch, no INCH statement
+    for t, d in (("T1", 1.0), ("T2", 0.4)):
+        lines.append(t)
+        lines += [f"X{h.x_mm / 25.4:.4f}Y{h.y_mm / 25.4:.4f}" for h in holes if round(h.diameter_mm, 2) == d]
+    paths["drill"].write_text("\n".join(lines + ["M30"]) + "\n")
+    b = load_board(load_project(folder))
+    assert key(b.holes) == expected
+    assert any("read as inch" in a for a in b.assumptions)

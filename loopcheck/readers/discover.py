@@ -758,6 +758,12 @@ def _gerbonara_roles(files: list[_File]) -> dict[str, list[_File]]:
         for key, group in guessed.items():
             if re.fullmatch(r"inner_\d+ copper", key):
                 continue   # the guesser's number may be a layer or an inner-layer number: step 4 decides
+            if key.startswith("drill"):
+                # the guesser finds "rou(te)" inside words such as "group": a drill needs the word
+                group = [p for p in group if re.search(r"(?<![a-z])(drill|drl|routs?|route|rout|nc)(?![a-z])|"
+                                                       r"pth|plated|holes?", p.stem, re.I)]
+                if not group:
+                    continue
             out.setdefault(f"{key}", []).extend(by_path[p] for p in group)
     return out
 
