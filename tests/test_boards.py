@@ -100,3 +100,14 @@ def test_corpus_folders_of_several_boards_inspect_each(folder, names):
     assert res.exit_code in (0, 1), res.output
     for i, name in enumerate(names, start=1):
         assert f"=== board {name} ({i} of {len(names)}) ===" in res.output
+
+
+def test_stages_and_diff_take_board(tmp_path):
+    folder = side_by_side(tmp_path / "s")
+    res = CliRunner().invoke(main, ["stages", str(folder), "--board", "alpha"])
+    assert res.exit_code == 0, res.output
+    res = CliRunner().invoke(main, ["diff", str(folder), str(folder), "--board", "beta", "-q"])
+    assert res.exit_code == 0, res.output
+    # without a choice, the stages command names the boards and the option (one line, exit 2)
+    res = CliRunner().invoke(main, ["stages", str(folder)])
+    assert res.exit_code == 2 and "--board" in res.output and "alpha, beta" in res.output

@@ -809,6 +809,10 @@ def _resolve_copper(fab: FabSet, claims: list[_Claim], project_file: str | None)
                          path=str(fab.source))
     if not any(_exact(c) for c in claims) and _resolve_by_names(fab, claims):
         return
+    # exact layer numbers decide; a layer named only by function has no place among them
+    for c in [c for c in claims if c.position[0] == "function"]:
+        fab.ignored.append((c.file.path, "a Gerber file whose layer could not be told (map it in [files])"))
+    claims = [c for c in claims if c.position[0] != "function"]
     bottoms = [c for c in claims if c.position == ("bottom",)]
     fixed: list[tuple[int, _Claim]] = []
     for c in claims:
