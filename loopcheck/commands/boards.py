@@ -33,8 +33,11 @@ def boards_to_run(project, board: str | None) -> list[str | None]:
         return [board]
     from ..readers.discover import list_boards
 
-    names = list_boards(project.fab, project.files,
-                        project_file=str(project.path) if project.path else None)
+    try:
+        names = list_boards(project.fab, project.files,
+                            project_file=str(project.path) if project.path else None)
+    except InputError:
+        return [None]      # reading the one board then reports the error, as without boards
     return list(names) or [None]
 
 

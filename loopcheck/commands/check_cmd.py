@@ -129,7 +129,7 @@ def run_check(board: str, deck: str | None, fail_on: str, progress: Progress, bo
         project = _load_project(board)
     rule_deck = load_deck(deck, project)          # early: a bad deck fails before the slow part
     with progress.step("reading the fab outputs"):
-        b = _load_board(project, board_name)
+        b = _load_board(project, board_name) if board_name is not None else _load_board(project)
     with progress.step("measuring the power stages"):
         analysis = _analyse(b, project)
     evaluation = evaluate_all(analysis, rule_deck, project)
