@@ -46,8 +46,9 @@ def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
         if out is not None:
             check_cmd.check_writable(out)
     progress = check_cmd.Progress(enabled=not quiet and sys.stderr.isatty())
-    a = check_cmd.run_check(old, deck, "never", progress, board_name=board_name)
-    b = check_cmd.run_check(new, deck, "never", progress, board_name=board_name)
+    kw = {"board_name": board_name} if board_name is not None else {}
+    a = check_cmd.run_check(old, deck, "never", progress, **kw)
+    b = check_cmd.run_check(new, deck, "never", progress, **kw)
     cmp = compare(a.analysis.measurements, b.analysis.measurements, a.findings, b.findings)
     result = DiffResult(a, b, cmp)
     check_cmd.emit(result, pairs, progress, render=renderer)
