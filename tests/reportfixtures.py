@@ -152,9 +152,11 @@ BOARDS_DIR = Path(__file__).resolve().parents[1] / "boards"
 _ANALYSES: dict = {}
 
 
-def cached_analyse(board, project):
+def cached_analyse(board, project, **kw):
     """The measurement pipeline, run once per demo board per test session (it takes seconds);
-    keyed by what the analysis depends on, so a copy of a board with other waivers shares it."""
+    keyed by what the analysis depends on, so a copy of a board with other waivers shares it.
+    The run's options (time budget, inductance method) are not passed: the demo boards measure
+    well inside the default budget."""
     import os
 
     from loopcheck.analysis import analyse

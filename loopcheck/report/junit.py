@@ -64,7 +64,25 @@ def render_junit(result: CheckResult) -> str:
         suites[f"{board}.coverage"] = [(gap, "coverage", [], f"not covered: {gap}") for gap in gaps]
 
     root = ET.Element("testsuites", name=f"loopcheck {board}")
-    totals = {"tests": 0, "failures": 0, "skipped": 0}
+    totals = {"tests": 0, "failures": 0, "skipped": 0, "errors": 0}
+    # Internal errors (bugs in loopcheck): an <error> each in a <board>.internal suite, so a
+    # CI's test view shows the check as not completed, not as passed.
+    if result.internal_errors:
+        from ..crashreport import how_to_report
+
+        suite = ET.SubElement(root, "testsuite", name=f"{board}.internal")
+        for e in result.internal_errors:
+            case = ET.SubElement(suite, "testcase", name=f"internal error: {e.where()}",
+                                 classname=f"{board}.internal")
+            el = ET.SubElement(case, "error", message=f"internal error in the {e.where()}: "
+                               f"{e.error}; the check could not be completed",
+                               type="internal-error")
+            el.text = how_to_report([e])
+        n = len(result.internal_errors)
+        for k, v in (("tests", n), ("failures", 0), ("errors", n), ("skipped", 0)):
+            suite.set(k, str(v))
+        totals["tests"] += n
+        totals["errors"] += n
     for sname, cases in suites.items():
         suite = ET.SubElement(root, "testsuite", name=sname)
         n_fail = n_skip = 0
@@ -98,7 +116,7 @@ def render_junit(result: CheckResult) -> str:
         totals["skipped"] += n_skip
     root.set("tests", str(totals["tests"]))
     root.set("failures", str(totals["failures"]))
-    root.set("errors", "0")
+    root.set("errors", str(totals["errors"]))
     root.set("skipped", str(totals["skipped"]))
     ET.indent(root)
     return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"

@@ -177,15 +177,30 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
         "results": results,
         "columnKind": "unicodeCodePoints",
         "properties": {"board": board.name, "deck": result.deck.name,
-                       "fail_on": result.fail_on, "failed": result.failed},
+                       "fail_on": result.fail_on, "failed": result.failed,
+                       "could_not_complete": bool(result.internal_errors)},
     }
-    # The run itself succeeded; what it did not cover (no netlist, no stage, measurements not
-    # made) is a warning notification each, so a SARIF viewer shows the check as incomplete.
+    # What the check did not cover (no netlist, no stage, measurements not made) is a warning
+    # notification each, so a SARIF viewer shows the check as incomplete. An internal error (a
+    # bug in loopcheck) is an error notification, and the execution did not succeed.
+    from ..crashreport import how_to_report
+
+    notes: list[dict[str, Any]] = []
+    for e in result.internal_errors:
+        notes.append({
+            "level": "error",
+            "message": {"text": f"internal error in the {e.where()}: {e.error}. The check could "
+                                "not be completed. " + how_to_report([e]).splitlines()[-1].strip()},
+            "descriptor": {"id": "internal-error"},
+            "properties": {"internal_error": e.to_dict()},
+        })
+    notes += [{"level": "warning", "message": {"text": gap}} for gap in dict.fromkeys(result.gaps)]
     run["invocations"] = [{
-        "executionSuccessful": True,
-        "toolExecutionNotifications": [{"level": "warning", "message": {"text": gap}}
-                                       for gap in dict.fromkeys(result.gaps)],
-        "properties": {"complete": not result.gaps},
+        "executionSuccessful": not result.internal_errors,
+        "exitCode": result.exit_code(),
+        "toolExecutionNotifications": notes,
+        "properties": {"complete": result.complete,
+                       "internal_errors": len(result.internal_errors)},
     }]
     if root is not None:
         run["originalUriBaseIds"] = {BASE_ID: {"uri": root.resolve().as_uri() + "/"}}
