@@ -18,6 +18,10 @@ class _Group(click.Group):
     exception (a bug) into one message naming what to send, exit code 3; no traceback on the
     terminal (it goes to a temporary file the message names)."""
 
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        ctx.meta["loopcheck.argv"] = list(args)     # the command line, for bug reports
+        return super().parse_args(ctx, args)
+
     def invoke(self, ctx: click.Context):
         try:
             return super().invoke(ctx)

@@ -46,8 +46,19 @@ def internal_error(module: str, exc: BaseException, stage: str | None = None) ->
 
 
 def command_line() -> str:
+    """The command as given (the CLI keeps its arguments; else the process's own)."""
+    import shlex
+
     args = sys.argv[1:]
-    return "loopcheck " + " ".join(args) if args else "loopcheck"
+    try:
+        import click
+
+        ctx = click.get_current_context(silent=True)
+        if ctx is not None and "loopcheck.argv" in ctx.meta:
+            args = ctx.meta["loopcheck.argv"]
+    except ImportError:
+        pass
+    return "loopcheck " + shlex.join(args) if args else "loopcheck"
 
 
 def how_to_report(errors: list[InternalError]) -> str:
