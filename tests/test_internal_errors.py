@@ -203,3 +203,30 @@ def test_the_time_budget_reports_what_it_did_not_reach(monkeypatch, tmp_path):
     r = CliRunner().invoke(main, ["check", "board", "--time-budget", "0.2"])
     assert "INCOMPLETE" in r.stdout
     assert CliRunner().invoke(main, ["check", "board", "--time-budget", "0"]).exit_code == 2
+
+
+def test_inductance_method_reaches_the_measurement_and_the_json(monkeypatch):
+    """--inductance field|fast goes into analyse() and the measurement context; the JSON names
+    the method the hot-loop measurement says it ran (hot_loop.inductance_method)."""
+    _need_tidy()
+    from loopcheck.measure import hotloop
+    from loopcheck.measure.common import measurement
+
+    seen = []
+
+    def fake_hot_loop(ctx, stage):
+        method = getattr(ctx, "inductance_method", "field")
+        seen.append(method)
+        return [measurement("hot_loop.inductance", 5.0, stage,
+                            detail={"inductance_method": method})]
+
+    _stub_all_but(monkeypatch, None, None)
+    monkeypatch.setattr(hotloop, "measure_hot_loop", fake_hot_loop)
+    for method in ("fast", "field"):
+        r = CliRunner().invoke(main, ["check", str(TIDY), "--inductance", method,
+                                      "--format", "json"])
+        assert r.exit_code == 0, r.output
+        assert json.loads(r.stdout)["stages"][0]["hot_loop"]["inductance_method"] == method
+    assert seen == ["fast", "field"]
+    r = CliRunner().invoke(main, ["check", str(TIDY), "--inductance", "exact"])
+    assert r.exit_code == 2
