@@ -101,7 +101,10 @@ def test_an_exception_inside_each_measurement_module_exits_3_in_every_format(
     from loopcheck.report.jsonreport import load_schema
     jsonschema.validate(data, load_schema())
     # SARIF: a tool execution notification at level error; the execution did not succeed
-    (inv,) = json.loads(reports["sarif"])["runs"][0]["invocations"]
+    sarif = json.loads(reports["sarif"])
+    from test_sarif import validate as validate_sarif
+    validate_sarif(sarif)                         # the OASIS SARIF 2.1.0 schema
+    (inv,) = sarif["runs"][0]["invocations"]
     assert inv["executionSuccessful"] is False and inv["exitCode"] == 3
     errs = [n for n in inv["toolExecutionNotifications"] if n["level"] == "error"]
     assert len(errs) == 1 and where in errs[0]["message"]["text"]
