@@ -115,8 +115,15 @@ def test_layout_loss_in_every_format_with_a_headline_per_stage():
     assert 'id="layout-loss-stage1"' in html and "Layout cost in efficiency" in html
     check = next(c for c in ev.checks if c.rule == "layout-loss")
     assert check.status == "pass" and check.measurement is m
-    assert "layout-loss" in render_junit(r)
+    import xml.etree.ElementTree as ET
+
+    junit = ET.fromstring(render_junit(r))
+    props = {p.get("name"): p.get("value") for p in junit.iter("property")}
+    assert float(props["layout_loss_pct"]) == pytest.approx(m.value, rel=1e-3)
+    assert float(props["switching_w"]) == pytest.approx(m.detail["switching_w"], rel=1e-3)
     sarif = json.loads(render_sarif(r))
+    (ll,) = sarif["runs"][0]["properties"]["layout_loss"]
+    assert ll["pct"] == pytest.approx(m.value) and ll["conduction_w"] > 0
     assert any(x["id"] == "layout-loss" for x in sarif["runs"][0]["tool"]["driver"]["rules"])
     assert math.isfinite(m.value)
 

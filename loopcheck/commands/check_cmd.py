@@ -63,11 +63,14 @@ class Progress:
         if not self.enabled:
             yield
             return
-        shown = threading.Event()
+        lock = threading.Lock()
+        state = {"shown": False, "finished": False}
 
         def announce() -> None:
-            shown.set()
-            self._write(f"{what} ...")
+            with lock:                # never after the step has ended: both lines or neither
+                if not state["finished"]:
+                    state["shown"] = True
+                    self._write(f"{what} ...")
 
         wait = max(self.after_s - (self.clock() - self.start), 0.0)
         timer = threading.Timer(wait, announce)
@@ -77,8 +80,10 @@ class Progress:
             yield
         finally:
             timer.cancel()
-            if shown.is_set():
-                self._write(f"{what}: done")
+            with lock:
+                state["finished"] = True
+                if state["shown"]:
+                    self._write(f"{what}: done")
 
 
 def progress_wanted(quiet: bool, pairs: list[tuple[str, str | None]], stream=None) -> bool:

@@ -83,8 +83,13 @@ def render_junit(result: CheckResult) -> str:
             suite.set(k, str(v))
         totals["tests"] += n
         totals["errors"] += n
+    headline = _layout_loss_properties(result)
     for sname, cases in suites.items():
         suite = ET.SubElement(root, "testsuite", name=sname)
+        if sname in headline:
+            props = ET.SubElement(suite, "properties")
+            for k, v in headline[sname]:
+                ET.SubElement(props, "property", name=k, value=v)
         n_fail = n_skip = 0
         for name, rule, fs, skip in cases:
             case = ET.SubElement(suite, "testcase", name=name, classname=sname)
@@ -120,6 +125,24 @@ def render_junit(result: CheckResult) -> str:
     root.set("skipped", str(totals["skipped"]))
     ET.indent(root)
     return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"
+
+
+def _layout_loss_properties(result: CheckResult) -> dict[str, list[tuple[str, str]]]:
+    """Per stage suite: the efficiency points the layout costs and its parts, as properties."""
+    out: dict[str, list[tuple[str, str]]] = {}
+    a = result.analysis
+    for stage in a.stages:
+        m = a.measurement(stage.name, "layout_loss")
+        if m is None:
+            continue
+        name = f"{result.board_name}.{stage.name}"
+        if m.value is None:
+            out[name] = [("layout_loss_not_made", m.not_made or "")]
+            continue
+        out[name] = [("layout_loss_pct", f"{m.value:.4g}")] + [
+            (k, f"{float(m.detail[k]):.4g}") for k in ("conduction_w", "switching_w",
+                                                        "output_power_w") if k in m.detail]
+    return out
 
 
 def _detail(f: Finding) -> str:

@@ -97,6 +97,21 @@ def _artifact(file: str | None, result: CheckResult, root: Path | None,
     return art
 
 
+def _layout_loss(result: CheckResult) -> list[dict[str, Any]]:
+    """Per stage: the efficiency points the layout costs, its parts, or why it was not made."""
+    out = []
+    for stage in result.analysis.stages:
+        m = result.analysis.measurement(stage.name, "layout_loss")
+        if m is None:
+            continue
+        entry: dict[str, Any] = {"stage": stage.name, "pct": m.value, "not_made": m.not_made}
+        for k in ("conduction_w", "switching_w", "output_power_w"):
+            if k in m.detail:
+                entry[k] = float(m.detail[k])
+        out.append(entry)
+    return out
+
+
 def render_sarif(result: CheckResult) -> str:
     return json.dumps(sarif_dict(result), indent=2, ensure_ascii=False) + "\n"
 
@@ -177,6 +192,7 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
         "results": results,
         "columnKind": "unicodeCodePoints",
         "properties": {"board": board.name, "deck": result.deck.name,
+                       "layout_loss": _layout_loss(result),
                        "fail_on": result.fail_on, "failed": result.failed,
                        "could_not_complete": bool(result.internal_errors)},
     }
