@@ -119,9 +119,42 @@ def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
     ]
 
 
-def budget_reason(budget_s: float | None) -> str:
-    return (f"time budget used up ({budget_s:g} s per board, --time-budget): "
-            "not measured" if budget_s else "time budget used up: not measured")
+def budget_reason(budget_s: float | None, during: bool = False) -> str:
+    per = f" ({budget_s:g} s per board, --time-budget)" if budget_s else ""
+    if during:
+        return f"time budget used up during this measurement{per}: abandoned"
+    return f"time budget used up{per}"
+
+
+class _OutOfTime(Exception):
+    """A measurement module still running at the deadline (abandoned)."""
+
+
+def _call_within(fn: Callable[..., Any], args: tuple, deadline: float | None) -> Any:
+    """``fn(*args)``, but give up at ``deadline`` (time.monotonic()): the call runs in a daemon
+    thread that is abandoned when it outlasts the budget (it ends with the process), so a slow
+    measurement never holds up the reports. Its exceptions come back here unchanged."""
+    import threading
+    import time
+
+    if deadline is None:
+        return fn(*args)
+    box: dict[str, Any] = {}
+
+    def work() -> None:
+        try:
+            box["value"] = fn(*args)
+        except BaseException as exc:       # handed to the caller, who classifies it
+            box["error"] = exc
+
+    worker = threading.Thread(target=work, name="loopcheck-measurement", daemon=True)
+    worker.start()
+    worker.join(max(deadline - time.monotonic(), 0.0))
+    if worker.is_alive():
+        raise _OutOfTime()
+    if "error" in box:
+        raise box["error"]
+    return box["value"]
 
 
 def measure_stage(ctx, stage: Stage, timings: dict[str, float] | None = None,
@@ -151,7 +184,10 @@ def measure_stage(ctx, stage: Stage, timings: dict[str, float] | None = None,
             progress(f"{stage.name}: {name}")
         t0 = time.perf_counter()
         try:
-            out += fn(ctx, stage)
+            out += _call_within(fn, (ctx, stage), deadline)
+        except _OutOfTime:
+            out += [not_made(q, stage, budget_reason(budget_s, during=True))
+                    for q in _module_quantities(name)]
         except MeasurementGap as exc:
             out += [not_made(q, stage, str(exc)) for q in _module_quantities(name)]
         except Exception as exc:     # module boundary: a bug, re-raised as an internal error record

@@ -86,7 +86,31 @@ def render_text(result: CheckResult) -> str:
     if counts["waived"]:
         summary += f"; {counts['waived']} waived"
     lines.append(f"Findings: {summary}")
+    # rules not checked because their measurement was not made: one line per reason (the
+    # measurements themselves are listed under each stage)
+    unchecked = {id(c.finding): c for c in result.evaluation.checks
+                 if c.finding is not None and c.status == "not made"}
+    grouped: dict[tuple[str, str | None, str], list[str]] = {}
+    for f in result.findings:
+        c = unchecked.get(id(f))
+        if c is not None and not f.waived:
+            grouped.setdefault((f.severity, f.stage, c.reason or ""), [])
+            if f.rule not in grouped[(f.severity, f.stage, c.reason or "")]:
+                grouped[(f.severity, f.stage, c.reason or "")].append(f.rule)
+    shown_groups: set[tuple[str, str | None, str]] = set()
     for i, f in sorted_findings(result.findings):
+        c = unchecked.get(id(f))
+        if c is not None and not f.waived:
+            key = (f.severity, f.stage, c.reason or "")
+            if key in shown_groups:
+                continue
+            shown_groups.add(key)
+            rules = grouped[key]
+            if len(rules) > 1:
+                where = f"{f.stage}: " if f.stage else ""
+                lines.append(f"  {f.severity:<8} {len(rules)} rules not checked, {where}"
+                             f"{c.reason}: {', '.join(rules)}")
+                continue
         where = []
         if f.x_mm is not None and f.y_mm is not None:
             where.append(f"at ({f.x_mm:.1f}, {f.y_mm:.1f}) mm")
