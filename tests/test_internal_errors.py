@@ -258,7 +258,7 @@ def test_a_measurement_still_running_at_the_deadline_is_abandoned_not_waited_for
     from loopcheck.project import load_project
 
     def stuck(ctx, stage):
-        _time.sleep(4.0)
+        _time.sleep(20.0)                         # a daemon thread: it ends with the process
         return []
 
     _stub_all_but(monkeypatch, None, None)
@@ -271,7 +271,7 @@ def test_a_measurement_still_running_at_the_deadline_is_abandoned_not_waited_for
     r = CliRunner().invoke(main, ["check", "board", "--time-budget", "0.5", "--format", "json"])
     took = _time.monotonic() - t0
     assert r.exit_code == 0, r.output
-    assert took < 3.0, took                      # the stuck module was not waited for
+    assert took < 10.0, took                     # the stuck module was not waited for (20 s)
     gaps = json.loads(r.stdout)["result"]["gaps"]
     assert any(g.startswith("stage1 input capacitor") and "during this measurement" in g
                for g in gaps)
