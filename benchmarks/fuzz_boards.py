@@ -11,7 +11,9 @@ temporary folder, damages it in one or a few ways, runs
 with a time limit, and judges the run by the bad-input contract:
 
 - no ``Traceback`` on stderr; the process is not killed by a signal;
-- exit code 0, 1 or 2, or 3 only with an internal-error message that names the module;
+- exit code 0, 1 or 2, or 3 only with an internal-error message that names the module (an
+  internal error is accepted by the contract but is a bug all the same: the summary lists them
+  by class, from the traceback file the message names, and they are kept like failures);
 - done within 60 s of CPU time (the case's process group, its reader pool included; a
   wall-clock limit of ten times that stops it anyway): on a machine shared with other work, wall
   time measures the load, not the case;
@@ -62,8 +64,13 @@ REPO = Path(__file__).resolve().parents[1]
 REALBOARDS = REPO.parent / "shared" / "realboards"
 TIMEOUT_S = 60.0
 MEMORY_LIMIT_BYTES = 6 * 1024 ** 3      # address space of one case: a runaway case fails alone
+# exit code 3 is accepted only with loopcheck's internal-error message, which names where it
+# happened: "loopcheck: the check could not be completed: 1 internal error ..." and then one line
+# per error, "  hot loop measurement of stage1: IndexError: ... (report id 1a2b3c4d5e)"
 INTERNAL_ERROR = re.compile(r"internal error", re.I)
-NAMES_MODULE = re.compile(r"\bloopcheck(\.\w+)+|\b\w+\.py\b|\bmodule\b", re.I)
+NAMES_MODULE = re.compile(r"^\s+\S[^:\n]*: \w+.*\(report id \w+\)", re.M)
+# its traceback goes to a file in the temporary folder, by design (not a leftover)
+CRASH_REPORT = re.compile(r"^loopcheck-\w+-.*\.txt$")
 
 
 # ----------------------------------------------------------------------------------------------
@@ -996,8 +1003,11 @@ def judge(run: Running, status: int, rusage, keep: Path | None, timeout: float) 
             failures.append("bad-exit")
     if snapshot(casedir) != run.before:
         failures.append("wrote-beside-inputs")
-    if any((casedir / "tmp").iterdir()):
+    left = [p for p in (casedir / "tmp").iterdir() if not (rc == 3 and CRASH_REPORT.match(p.name))]
+    if left:
         failures.append("temp-left")
+    crash_reports = [p for p in (casedir / "tmp").iterdir() if CRASH_REPORT.match(p.name)]
+    traceback_text = "".join(p.read_text(errors="replace") for p in crash_reports)
     outs = [p.name for p in (casedir / "out").iterdir()]
     if rc == 2:
         if outs:
@@ -1013,11 +1023,13 @@ def judge(run: Running, status: int, rusage, keep: Path | None, timeout: float) 
         except (OSError, ValueError):
             failures.append("no-report")
     verdict = failures[0] if failures else ("exit-3-internal" if rc == 3 else f"exit-{rc}")
+    if rc == 3 and traceback_text:            # the saved traceback tells one bug from another
+        stderr = stderr + "\n[saved traceback]\n" + traceback_text
     peak_mb = rusage.ru_maxrss / 1024 if rusage is not None else 0.0
     outcome = Outcome(case=case, rc=rc, seconds=seconds, cpu_s=cpu, peak_mb=peak_mb, verdict=verdict,
                       failures=failures, stderr=stderr[-4000:])
-    if failures and keep is not None:
-        dest = keep / f"case-{case.index:06d}-{failures[0]}"
+    if (failures or rc == 3) and keep is not None:        # an internal error is a bug to fix too
+        dest = keep / f"case-{case.index:06d}-{failures[0] if failures else 'internal-error'}"
         shutil.rmtree(dest, ignore_errors=True)
         shutil.copytree(casedir, dest, symlinks=True, ignore_dangling_symlinks=True,
                         ignore=lambda d, names: [n for n in names if stat.S_ISFIFO(os.lstat(os.path.join(d, n)).st_mode)])
@@ -1123,7 +1135,7 @@ _FRAME = re.compile(r'File "([^"]*loopcheck[^"]*)", line (\d+), in (\w+)')
 def signature(o: Outcome) -> str:
     """What tells one failure class from another: for a traceback, the exception and the last
     loopcheck frame; otherwise the failure and the first line of stderr without its numbers."""
-    if "traceback" in o.failures:
+    if "traceback" in o.failures or (o.verdict == "exit-3-internal" and "[saved traceback]" in o.stderr):
         frames = _FRAME.findall(o.stderr)
         last = [line for line in o.stderr.strip().splitlines() if line and not line.startswith(" ")]
         exc = last[-1] if last else "?"
@@ -1131,7 +1143,8 @@ def signature(o: Outcome) -> str:
         if frames:
             f, n, fn = frames[-1]
             where = f" at {f.split('loopcheck/')[-1]}:{n} {fn}"
-        return f"traceback {exc.split(':')[0]}{where}"
+        kind = "traceback" if "traceback" in o.failures else "internal error (exit 3)"
+        return f"{kind} {exc.split(':')[0]}{where}"
     first = o.stderr.strip().splitlines()[0] if o.stderr.strip() else ""
     first = re.sub(r"/\S*case-\d+/", "", first)
     return f"{o.failures[0]}: {re.sub(r'[0-9]+', 'N', first)[:120]}"
@@ -1159,10 +1172,10 @@ def summary(outcomes: list[Outcome]) -> str:
                      f"peak memory max {max(o.peak_mb for o in outcomes):.0f} MB")
     classes: dict[str, list[int]] = defaultdict(list)
     for o in outcomes:
-        if o.failures:
+        if o.failures or o.verdict == "exit-3-internal":
             classes[signature(o)].append(o.case.index)
     if classes:
-        lines.append("failure classes:")
+        lines.append("failure classes (and internal errors, exit 3: accepted, but bugs to fix):")
         for sig, idx in sorted(classes.items(), key=lambda kv: -len(kv[1])):
             lines.append(f"  {len(idx):5d}  {sig}  (cases {', '.join(map(str, idx[:8]))}"
                          f"{' ...' if len(idx) > 8 else ''})")
@@ -1211,7 +1224,7 @@ def main(argv: list[str] | None = None) -> int:
                                    "details": o.case.details, "rc": o.rc, "verdict": o.verdict,
                                    "failures": o.failures, "seconds": round(o.seconds, 2), "cpu_s": round(o.cpu_s, 2),
                                    "peak_mb": round(o.peak_mb), "kept": o.kept,
-                                   "stderr": o.stderr[-1500:] if o.failures else o.stderr[:300]}) + "\n")
+                                   "stderr": o.stderr[-1500:] if o.failures or o.rc == 3 else o.stderr[:300]}) + "\n")
             logf.flush()
         if a.show or o.failures:
             print(f"[{done[0]}/{len(indices)} {time.monotonic() - t0:.0f}s] case {o.case.index} "
@@ -1228,7 +1241,7 @@ def main(argv: list[str] | None = None) -> int:
         if logf:
             logf.close()
     failed = [o for o in outcomes if o.failures]
-    print(f"seed {a.seed}, cases {indices[0]}..{indices[-1]} ({len(outcomes)}), "
+    print(f"seed {a.seed}, {len(outcomes)} cases ({indices[0]}..{indices[-1]}), "
           f"{time.monotonic() - t0:.0f} s with {a.jobs} jobs")
     print(summary(outcomes))
     if failed:
@@ -1237,11 +1250,12 @@ def main(argv: list[str] | None = None) -> int:
             print(f"  case {o.case.index}: {', '.join(o.failures)}: {o.case.source} "
                   f"{'; '.join(o.case.details)[:200]}")
     else:
-        print(f"no failing case (failing cases would be kept in {keep})")
-        try:
-            keep.rmdir()
-        except OSError:
-            pass
+        print("no failing case")
+    internal = [o for o in outcomes if o.verdict == "exit-3-internal"]
+    if internal:
+        print(f"{len(internal)} cases ended in an internal error (exit 3), kept in {keep}")
+    if not failed and not internal:
+        keep.rmdir() if not any(keep.iterdir()) else None
     return 1 if failed else 0
 
 

@@ -4,7 +4,8 @@ Each case is a demo board, a real board from ../shared/realboards (inspected onl
 of one takes up to half a minute; left out when the folder is absent) or a loopcheck.synth board,
 copied and damaged one to three ways (see benchmarks/fuzz_boards.py for the kinds), then run
 through ``loopcheck check`` / ``inspect`` / the zip form. A case fails on a traceback, an exit
-code other than 0/1/2 (3 only with an internal-error message naming the module), more than 60 s
+code other than 0/1/2 (3 only with an internal-error message naming the module; such cases are
+listed as warnings: bugs to fix, though the contract holds), more than 60 s
 of CPU, anything written beside the inputs, temporary files left behind, or a report written on
 exit 2. The 10,000-case run is ``python3 benchmarks/fuzz_boards.py --seed S --count 10000``.
 
@@ -17,6 +18,7 @@ from __future__ import annotations
 import importlib.util
 import os
 import sys
+import warnings
 from pathlib import Path
 
 import pytest
@@ -48,6 +50,11 @@ def test_fuzzed_boards_keep_the_bad_input_contract(tmp_path):
     # the run must have reached all three outcomes a damaged board can have, or it tested little
     verdicts = {o.verdict for o in outcomes}
     assert {"exit-2"} <= verdicts and verdicts & {"exit-0", "exit-1"}, fb.summary(outcomes)
+    # exit 3 with loopcheck's internal-error message is within the contract, but each is a bug:
+    # say so in the test summary
+    for o in outcomes:
+        if o.verdict == "exit-3-internal":
+            warnings.warn(f"fuzz case {o.case.index} ({'; '.join(o.case.details)}): {fb.signature(o)}")
     failed = [o for o in outcomes if o.failures]
     report = "\n".join(
         f"case {o.case.index} ({o.case.source}, {o.case.command}; {'; '.join(o.case.details)}): "

@@ -25,9 +25,10 @@ REPO = Path(__file__).parents[1]
 # say what the fix must do and pass once it has landed
 NO_APERTURE = pytest.mark.xfail(
     strict=False,
-    reason="a draw or flash with no valid aperture selected (D0*, a flash before any aperture) "
-           "still raises AttributeError in readers/aperture_shapes.py; the reader fix is "
-           "readers-netlist's (issue 11) and was not in main when this test was written")
+    reason="a flash with no aperture selected (before any aperture, or every selection gone) "
+           "still raises AttributeError in readers/aperture_shapes.py (exit 3, an internal error, "
+           "where bad input is exit 2); the reader fix is readers-netlist's (issue 11) and was "
+           "not in main when this test was written")
 
 
 def listing(folder: Path) -> list[tuple[str, int, int]]:
