@@ -249,3 +249,18 @@ def test_zip_member_with_an_empty_name(tmp_path):
         zf.writestr(info, b"G04 nameless*\nM02*\n")
     msg = check_refuses(zdir / "board.zip", tmp_path, "board.zip")
     assert "no file name" in msg
+
+
+def test_netlist_coordinate_with_a_superscript_digit(tmp_path):
+    """Coverage-guided fuzzing of the IPC-D-356 reader (benchmarks/fuzz_parsers_atheris.py):
+    ``"²".isdigit()`` is True but ``int("²")`` raises ValueError, so an X location ``0²2000``
+    passed the reader's digit check and crashed it. It is now a field that is not a number,
+    named with its file and line."""
+    board = tmp_path / "board"
+    netlist = write_buck(board)["netlist"]
+    lines = netlist.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("327"))
+    x = lines[k].index("X", 40) + 2                     # the first digit of the X location
+    lines[k] = lines[k][:x + 1] + "\u00b2" + lines[k][x + 2:]
+    netlist.write_bytes("".join(lines).encode("latin-1"))     # one byte, 0xB2, as fuzzed
+    check_refuses(board, tmp_path, netlist.name, range(k + 1, k + 2))

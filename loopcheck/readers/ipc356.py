@@ -233,7 +233,7 @@ class _Parser:
             sign, s = (-1 if s[0] == "-" else 1), s[1:].strip()
         else:
             sign = 1
-        if not s.isdigit():
+        if not (s.isascii() and s.isdigit()):    # "²".isdigit() is True, int("²") fails
             raise self.error(lineno, f"{what} {text.strip()!r} in columns {first}-{first + len(text) - 1} "
                                      "is not a number")
         return sign * int(s)
