@@ -1147,7 +1147,7 @@ def signature(o: Outcome) -> str:
         return f"{kind} {exc.split(':')[0]}{where}"
     first = o.stderr.strip().splitlines()[0] if o.stderr.strip() else ""
     first = re.sub(r"/\S*case-\d+/", "", first)
-    return f"{o.failures[0]}: {re.sub(r'[0-9]+', 'N', first)[:120]}"
+    return f"{o.failures[0] if o.failures else o.verdict}: {re.sub(r'[0-9]+', 'N', first)[:120]}"
 
 
 def summary(outcomes: list[Outcome]) -> str:
