@@ -1023,11 +1023,12 @@ def judge(run: Running, status: int, rusage, keep: Path | None, timeout: float) 
         except (OSError, ValueError):
             failures.append("no-report")
     verdict = failures[0] if failures else ("exit-3-internal" if rc == 3 else f"exit-{rc}")
+    stderr = stderr[-3000:]
     if rc == 3 and traceback_text:            # the saved traceback tells one bug from another
-        stderr = stderr + "\n[saved traceback]\n" + traceback_text
+        stderr = stderr + "\n[saved traceback]\n" + traceback_text[-4000:]
     peak_mb = rusage.ru_maxrss / 1024 if rusage is not None else 0.0
     outcome = Outcome(case=case, rc=rc, seconds=seconds, cpu_s=cpu, peak_mb=peak_mb, verdict=verdict,
-                      failures=failures, stderr=stderr[-4000:])
+                      failures=failures, stderr=stderr)
     if (failures or rc == 3) and keep is not None:        # an internal error is a bug to fix too
         dest = keep / f"case-{case.index:06d}-{failures[0] if failures else 'internal-error'}"
         shutil.rmtree(dest, ignore_errors=True)

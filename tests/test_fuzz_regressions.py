@@ -264,3 +264,17 @@ def test_netlist_coordinate_with_a_superscript_digit(tmp_path):
     lines[k] = lines[k][:x + 1] + "\u00b2" + lines[k][x + 2:]
     netlist.write_bytes("".join(lines).encode("latin-1"))     # one byte, 0xB2, as fuzzed
     check_refuses(board, tmp_path, netlist.name, range(k + 1, k + 2))
+
+
+def test_second_board_refused_after_the_first_was_checked(tmp_path):
+    """Fuzz kind path-tricks (seed 2026, cases 59 and 189): one extra copper file (here a link to
+    a copy of the bottom layer outside the folder, as the fuzz case made it) beside a board
+    made discovery see a second board, refused as bad input after the first board's report had
+    been written: exit 2 with a report. Reports are now written once every board has been read."""
+    board = tmp_path / "board"
+    paths = write_buck(board, netlist_conductors=True)
+    outside = tmp_path / "outside"
+    outside.mkdir()
+    (outside / "outside-copper.gbr").write_bytes(paths["L2"].read_bytes())   # bottom layer, top name
+    os.symlink(outside / "outside-copper.gbr", board / "extra-copper-L1-top.gbr")
+    check_refuses(board, tmp_path, "extra")

@@ -246,19 +246,28 @@ def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tup
             if out is not None:
                 check_writable(out)
 
+    checked: list = []
+
     def one(name: str | None) -> int:              # the work of one board, as before boards
         pairs = per_board[names.index(name)]
         progress = Progress(enabled=progress_wanted(quiet, pairs))
         kw = {"board_name": name} if name is not None else {}
         result = run_check(board, deck, fail_on, progress, time_budget_s=time_budget,
                            inductance_method=inductance, fail_on_incomplete=fail_on_incomplete, **kw)
-        if any(out is None for _, out in pairs):
-            boards.heading(name, names)
-        emit(result, pairs, progress)
-        if result.internal_errors:
-            from ..crashreport import how_to_report
-
-            click.echo(how_to_report(result.internal_errors), err=True)
+        checked.append((name, pairs, progress, result))
         return result.exit_code()
 
-    sys.exit(boards.run_each(names, one))
+    code = boards.run_each(names, one)
+    # reports are written once every board has been read: on exit 2 (a board refused as bad
+    # input) nothing is written, as with one board (found by fuzzing: a stray file beside a board
+    # made a second, broken board whose refusal came after the first board's report)
+    if code != 2:
+        for name, pairs, progress, result in checked:
+            if any(out is None for _, out in pairs):
+                boards.heading(name, names)
+            emit(result, pairs, progress)
+            if result.internal_errors:
+                from ..crashreport import how_to_report
+
+                click.echo(how_to_report(result.internal_errors), err=True)
+    sys.exit(code)
