@@ -788,3 +788,112 @@ def rectangular_loop_conductors(a_m: float, b_m: float, width_m: float, thicknes
                       link_ends=np.array([[xc[icut], -b_m / 2, z_m]]),
                       link_widths=np.array([w]), link_thickness=np.array([thickness_m]))
     return con2
+
+
+def line_conductors(length_m: float, strips: list[tuple[float, float, int, int]], layer_z_m, thickness_m: float,
+                    plane: tuple[float, int, int] | None = None, fine_m: float | None = None,
+                    coarse_m: float | None = None, cell_length_m: float | None = None,
+                    slot: tuple[float, float] | None = None, short_end: bool = True):
+    """A straight transmission-line section of length ``length_m`` along x, cut into cells: the
+    test geometry of the per-length checks (microstrip, parallel and coplanar strips).
+
+    Parameters
+    ----------
+    length_m : float
+        Length of the line [m].
+    strips : list of (centre y [m], width [m], layer, conductor)
+        The strips; conductor 0 is the outgoing conductor, 1 the return.
+    layer_z_m : list of float
+        Height of each layer [m].
+    thickness_m : float
+        Copper thickness [m].
+    plane : (half width [m], layer, conductor), optional
+        A wide plane centred under the line; conductor 1 makes it the return, 2 an unrelated
+        plane (eddy current only).
+    slot : (x [m], width [m]), optional
+        A slot across the plane at x, from y = -half width to the line's far side + 3 widths
+        (the return must go round its end).
+    short_end : bool
+        The conductors are joined at x = length (a via or a bar across); the source link joins
+        them at x = 0.
+
+    Returns
+    -------
+    (SheetMesh, Conductors)
+    """
+    zs = np.asarray(layer_z_m, dtype=float)
+    ws = [w for _, w, _, _ in strips]
+    fine = fine_m or min(ws) / 6
+    coarse = coarse_m or 4 * max(ws)
+    feats = []
+    for y, w, _, _ in strips:
+        feats += [y - w / 2, y, y + w / 2]
+    half = plane[0] if plane else max(abs(y) + w for y, w, _, _ in strips)
+    ylo, yhi = -half, half
+    ye = graded_edges(ylo, yhi, feats, fine, coarse, growth=1.4)
+    cl = cell_length_m or max(ws)
+    xf = [0.0, length_m]
+    if slot:
+        xf += [slot[0] - slot[1] / 2, slot[0] + slot[1] / 2]
+    xe = graded_edges(0.0, length_m, xf, min(cl, slot[1] / 2) if slot else cl, cl, growth=1.5)
+    xc, yc = 0.5 * (xe[1:] + xe[:-1]), 0.5 * (ye[1:] + ye[:-1])
+    nlay = len(zs)
+    lab = np.full((nlay, len(xc), len(yc)), -1, dtype=int)
+    for y, w, k, cond in strips:
+        inside = (yc > y - w / 2) & (yc < y + w / 2)
+        lab[k][:, inside] = cond
+    if plane:
+        lab[plane[1]][:, :] = plane[2]
+        if slot:
+            sx = np.abs(xc - slot[0]) < slot[1] / 2
+            far = max(y + w / 2 for y, w, _, _ in strips) + 3 * max(ws)
+            sy = yc < far
+            lab[plane[1]][np.ix_(sx, sy)] = -1
+    mesh = SheetMesh(xe, ye, lab, zs, np.full(nlay, thickness_m))
+    out = [s for s in strips if s[3] == 0][0]
+    ret = [s for s in strips if s[3] == 1]
+    rk = ret[0][2] if ret else plane[1]
+    ry = ret[0][0] if ret else out[0]
+    x0, x1 = float(xc[0]), float(xc[-1])
+    vias, links = [], []
+    if short_end:
+        if rk != out[2]:
+            vias.append((x1, out[0], (out[2], rk), min(out[1], 1e-3) / 2) if ry == out[0] else None)
+    vias = [v for v in vias if v]
+    # the source: a link at x = 0 from the return to the outgoing conductor
+    links.append(((x0, ry, rk), (x0, out[0], out[2]), out[1], 0.0))
+    if short_end and (rk == out[2] or ry != out[0]):
+        links.append(((x1, out[0], out[2]), (x1, ry, rk), out[1], 0.0))
+    con, _, _ = sheet_conductors(mesh, 1.7e-8, vias, links)
+    return mesh, con
+
+
+def loop_over_plane_conductors(a_m: float, b_m: float, width_m: float, thickness_m: float, height_m: float,
+                               margin_m: float = 10e-3, fine_m: float | None = None, coarse_m: float | None = None):
+    """A rectangular strip loop (as ``rectangular_loop_conductors``, one cell across) at height
+    ``height_m`` above a plane of another conductor that extends ``margin_m`` beyond it; the
+    plane is not connected to the loop (eddy current only). Returns (SheetMesh, Conductors)."""
+    w = width_m
+    fine = fine_m or w
+    coarse = coarse_m or max(2 * w, height_m)
+    xf = [s * (a_m + w) / 2 for s in (-1, 1)] + [s * (a_m - w) / 2 for s in (-1, 1)]
+    yf = [s * (b_m + w) / 2 for s in (-1, 1)] + [s * (b_m - w) / 2 for s in (-1, 1)]
+    X0, Y0 = (a_m + w) / 2 + margin_m, (b_m + w) / 2 + margin_m
+    xe = graded_edges(-X0, X0, xf + [-w / 2, w / 2], fine, coarse)
+    ye = graded_edges(-Y0, Y0, yf, fine, coarse)
+    xc, yc = 0.5 * (xe[1:] + xe[:-1]), 0.5 * (ye[1:] + ye[:-1])
+    X, Y = np.meshgrid(xc, yc, indexing="ij")
+    ring = ((np.abs(X) < (a_m + w) / 2) & (np.abs(Y) < (b_m + w) / 2)
+            & ((np.abs(X) > (a_m - w) / 2) | (np.abs(Y) > (b_m - w) / 2)))
+    # the source gap: the bottom strip's cell column at x in (-w/2, w/2) is left out
+    gap = (np.abs(X) < w / 2) & (Y < -(b_m - w) / 2)
+    lab = np.full((2, len(xc), len(yc)), -1, dtype=int)
+    lab[0][ring & ~gap] = 0
+    lab[1][:, :] = 1
+    mesh = SheetMesh(xe, ye, lab, np.array([height_m, 0.0]), np.full(2, thickness_m))
+    ileft = int(np.nonzero(xc < -w / 2)[0][-1])
+    iright = int(np.nonzero(xc > w / 2)[0][0])
+    yb = float(yc[np.argmin(np.abs(yc + b_m / 2))])
+    links = [((float(xc[ileft]), yb, 0), (float(xc[iright]), yb, 0), w, 0.0)]
+    con, _, _ = sheet_conductors(mesh, 1.7e-8, (), links)
+    return mesh, con
