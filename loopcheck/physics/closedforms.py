@@ -526,7 +526,7 @@ def coaxial_rectangles_mutual(side_a_m, side_b_m, distance_m):
     A 20 x 10 mm loop and its image 3 mm below:
 
     >>> round(coaxial_rectangles_mutual(20e-3, 10e-3, 3e-3) * 1e9, 2)
-    21.18
+    11.21
     """
     a = float(as_positive("side_a_m", side_a_m))
     b = float(as_positive("side_b_m", side_b_m))
