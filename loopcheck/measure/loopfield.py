@@ -26,6 +26,7 @@ from .netcopper import MeasureContext, layer_thickness_m, layer_z_mm, pad_polygo
 
 MAX_BRANCHES = 3200        # cells of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
 MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy loop worth meshing
+EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
 FINE_MM = (0.1, 0.5)        # finest cell: half the narrowest loop conductor, within these bounds
 PACKAGE_INDUCTANCE_NOTE = ("a part is a straight strip between its pad centres, as wide as its smaller pad; "
                            "the package's own inductance beyond that strip is taken as zero (no table of "
@@ -67,7 +68,8 @@ def _pad_size(p: Pad) -> float:
     return min(dims) if dims else 0.6
 
 
-def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float | None = None):
+def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float | None = None,
+               max_branches: int = MAX_BRANCHES):
     """The sheet mesh of the window around ``loop`` (a hotloop.LoopPath); ``scale`` multiplies
     the cell sizes (the mesh-convergence check halves it). Returns (mesh, island nets, notes)."""
     board = ctx.board
@@ -86,6 +88,7 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
     fine = float(np.clip(min(wmin / 2, min(hs) if hs else 1.0), *FINE_MM)) * scale
     coarse = float(np.clip(span / 10, 0.8, 3.0)) * scale
     fx, fy = [], []
+    path = LineString([(p[0], p[1]) for p in loop.points] + [loop.points[0][:2]])
     n = len(loop.points)
     for i in range(n):
         a, b = loop.points[i], loop.points[(i + 1) % n]
@@ -100,11 +103,20 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
     for p in pads:
         s = pad_polygon(p).bounds
         fx += [s[0], s[2]]; fy += [s[1], s[3]]
+    # the edges of the loop nets' copper near the loop: the high-frequency current crowds there
+    near = path.buffer(EDGE_REACH_MM)
+    for net in dict.fromkeys(p.net for p in pads):
+        for g in ctx.net_copper(net).values():
+            part = g.intersection(near)
+            if part.is_empty:
+                continue
+            xy = shapely.get_coordinates(shapely.boundary(part))
+            if len(xy):
+                fx += xy[:, 0].tolist(); fy += xy[:, 1].tolist()
     # nearby plated holes of the loop's nets: their cells are made to hold copper
     window = box(x0, y0, x1, y1)
     nets = list(dict.fromkeys(p.net for p in pads))
     vias = []
-    path = LineString([(p[0], p[1]) for p in loop.points] + [loop.points[0][:2]])
     for net in nets:
         for (vx, vy, dia, layers) in ctx.via_sites(net):
             if window.contains(shapely.points(vx, vy)):
@@ -117,7 +129,7 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
         ye = loopsolve.graded_edges(y0, y1, _thin(fy, fine / 2), fine, coarse)
         labels, island_net = _labels(ctx, xe, ye, window, nets)
         ncell = int(np.sum(labels >= 0))
-        if 2 * ncell <= MAX_BRANCHES:
+        if 2 * ncell <= max_branches:
             break
         fine *= 1.3
         coarse *= 1.3
@@ -204,10 +216,13 @@ def _node_cell(mesh, k: int, x_mm: float, y_mm: float, want: set[int] | None, re
 
 
 def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz: float | None = None,
-                     margin_mm: float | None = None) -> FieldLoop:
-    """Field solve of the closed loop ``loop`` (hotloop.LoopPath). Raises FieldSolveError."""
+                     margin_mm: float | None = None, max_branches: int = MAX_BRANCHES) -> FieldLoop:
+    """Field solve of the closed loop ``loop`` (hotloop.LoopPath). Raises FieldSolveError.
+
+    ``scale`` multiplies the cell sizes and ``max_branches`` caps the cells (the mesh is
+    coarsened until it fits); the mesh-convergence check halves the cells with a raised cap."""
     board = ctx.board
-    mesh, island_net, vias, notes, (fine, coarse) = build_mesh(ctx, loop, scale, margin_mm)
+    mesh, island_net, vias, notes, (fine, coarse) = build_mesh(ctx, loop, scale, margin_mm, max_branches)
     names = [l.name for l in board.layers]
     # islands of each loop net
     net_islands: dict[str, set[int]] = {}
@@ -277,8 +292,11 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
     for k, nm in enumerate(link_names):
         key = f"part {nm}"
         groups[key] = groups.get(key, 0.0) + float(sol.energy_share[nb + k])
-    shares = sorted(({"part": k, "share_pct": round(100 * v, 1)} for k, v in groups.items()),
-                    key=lambda d: -abs(d["share_pct"]))
+    # copper carrying only eddy current has no share: at the least-energy current its loops
+    # satisfy C_e^T Lp I = 0, so sum I_e (Lp I)_e = 0; its effect shows as the lower mutual
+    # terms in the shares of the loop's own copper
+    shares = sorted(({"part": k, "share_pct": round(100 * v, 1)} for k, v in groups.items()
+                     if "(eddy)" not in k), key=lambda d: -abs(d["share_pct"]))
     # ---- current density per layer and the centroid lines
     J = loopsolve.sheet_current_density(mesh, con, sol.currents)
     mag = np.hypot(J[..., 0], J[..., 1])
@@ -294,7 +312,6 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
                               round(float(dym[j]), 3), round(float(J[k, i, j, 0]) * 1e-3, 4),
                               round(float(J[k, i, j, 1]) * 1e-3, 4)] for i, j in zip(*sel)]
     legs_out, loop_pts = _centroid_legs(ctx, loop, mesh, mag, legs)
-    others = sum(v for k, v in groups.items() if "(eddy)" in k)
     notes += [
         "partial-element field solve (Ruehli 1974; Kamon, Tsuk and White 1994): rectangular sheet cells with "
         "exact bar partial inductances (Hoer and Love 1965) for near pairs, filaments for far ones; the "
@@ -309,7 +326,7 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
         "mesh": {"fine_mm": round(fine, 3), "coarse_mm": round(coarse, 3), "cells": int(nb),
                  "links": len(links), "vias": sum(1 for v in via_branches if v), "loops": sol.n_loops},
         "inductance_shares": shares,
-        "eddy_share_pct": round(100 * others, 1),
+        "eddy_conductors": sum(1 for n in island_net if n is None),
         "current_density_a_per_mm": density,   # per layer: [x, y, dx, dy, Jx, Jy] (mm, A/mm per A in the loop)
         "current_centroid": [{"net": net, "points": [[round(x, 3), round(y, 3)] for x, y in pts]}
                              for net, pts in legs_out],
