@@ -27,6 +27,7 @@ from .netcopper import MeasureContext, layer_thickness_m, layer_z_mm, pad_polygo
 MAX_BRANCHES = 3200        # cells of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
 MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy loop worth meshing
 EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
+EDGE_MAX_LINES = 24         # ... at most this many extra cell edges per axis, those nearest the loop first
 FINE_MM = (0.1, 0.5)        # finest cell: half the narrowest loop conductor, within these bounds
 PACKAGE_INDUCTANCE_NOTE = ("a part is a straight strip between its pad centres, as wide as its smaller pad; "
                            "the package's own inductance beyond that strip is taken as zero (no table of "
@@ -105,14 +106,19 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
         fx += [s[0], s[2]]; fy += [s[1], s[3]]
     # the edges of the loop nets' copper near the loop: the high-frequency current crowds there
     near = path.buffer(EDGE_REACH_MM)
+    edge_xy = []
     for net in dict.fromkeys(p.net for p in pads):
         for g in ctx.net_copper(net).values():
             part = g.intersection(near)
-            if part.is_empty:
-                continue
-            xy = shapely.get_coordinates(shapely.boundary(part))
-            if len(xy):
-                fx += xy[:, 0].tolist(); fy += xy[:, 1].tolist()
+            if not part.is_empty:
+                edge_xy.append(shapely.get_coordinates(shapely.boundary(part)))
+    ex, ey = [], []
+    if edge_xy:
+        xy = np.vstack(edge_xy)
+        order = np.argsort(shapely.distance(path, shapely.points(xy)))
+        limit = int(round(EDGE_MAX_LINES / scale))
+        ex = _nearest_first(xy[order, 0], fx, fine, limit)
+        ey = _nearest_first(xy[order, 1], fy, fine, limit)
     # nearby plated holes of the loop's nets: their cells are made to hold copper
     window = box(x0, y0, x1, y1)
     nets = list(dict.fromkeys(p.net for p in pads))
@@ -124,21 +130,44 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
                 if path.distance(shapely.points(vx, vy)) < 1.0:
                     fx += [vx - dia / 2 - 0.1, vx + dia / 2 + 0.1]
                     fy += [vy - dia / 2 - 0.1, vy + dia / 2 + 0.1]
-    for _ in range(8):
-        xe = loopsolve.graded_edges(x0, x1, _thin(fx, fine / 2), fine, coarse)
-        ye = loopsolve.graded_edges(y0, y1, _thin(fy, fine / 2), fine, coarse)
+    # within the cell budget: first a faster growth, then without the copper-edge lines, then
+    # coarser cells (the finest kept below the narrowest loop conductor as long as possible)
+    plan = [(True, 1.5, 1.0, 1.0), (True, 2.0, 1.0, 1.5), (False, 2.0, 1.0, 1.5), (False, 2.0, 1.0, 2.5),
+            (False, 2.5, 1.0, 3.5)] + [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k) for k in range(1, 8)]
+    for edges, growth, kf, kc in plan:
+        f, c = min(fine * kf, max(fine, 0.9 * wmin * scale)) if kf > 1 else fine, coarse * kc
+        if kf > 1:
+            f = fine * kf
+        xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f, c, growth)
+        ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f, c, growth)
         labels, island_net = _labels(ctx, xe, ye, window, nets)
         ncell = int(np.sum(labels >= 0))
         if 2 * ncell <= max_branches:
             break
-        fine *= 1.3
-        coarse *= 1.3
+    fine, coarse = f, c
     mesh = loopsolve.SheetMesh(np.asarray(xe) * 1e-3, np.asarray(ye) * 1e-3, labels,
                                np.asarray(z_mm) * 1e-3, np.array([layer_thickness_m(board, k) for k in range(nl)]))
     notes = [f"field solve window {x1 - x0:.1f} x {y1 - y0:.1f} mm around the loop, all {nl} copper layers; "
              f"cells {fine:.2f} mm at the loop's conductor edges growing to {coarse:.2f} mm "
              f"({int(np.sum(labels >= 0))} copper cells)"]
     return mesh, island_net, vias, notes, (fine, coarse)
+
+
+def _nearest_first(values, existing, tol, limit: int = None) -> list[float]:
+    """Up to ``limit`` coordinates from ``values`` (nearest the loop first) that are not within
+    ``tol`` of one already taken: copper edges grade the mesh without flooding it with lines."""
+    limit = EDGE_MAX_LINES if limit is None else limit
+    taken = sorted(existing)
+    out: list[float] = []
+    arr = np.asarray(taken)
+    for v in values:
+        if len(out) >= limit:
+            break
+        if arr.size and np.min(np.abs(arr - v)) < tol:
+            continue
+        out.append(float(v))
+        arr = np.append(arr, v)
+    return out
 
 
 def _thin(values, tol):

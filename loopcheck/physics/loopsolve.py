@@ -421,12 +421,16 @@ def loop_basis(n_nodes: int, branch_nodes: np.ndarray, first: int | None = None)
                     queue.append(q)
         # nodes reachable only through the forced branch
     # nodes reached through nothing else than ``first`` would be unseen: they are (isolated)
+    root = np.arange(n_nodes)
+    for q in np.argsort(depth, kind="stable"):
+        if parent[q] >= 0:
+            root[q] = root[parent[q]]
     rows, cols, vals = [], [], []
     m = 0
     for b in np.nonzero(~in_tree)[0]:
         a, c = int(u[b]), int(v[b])
-        if a == c:
-            continue
+        if a == c or root[a] != root[c]:
+            continue          # (only the forced branch can join two trees: it closes no loop)
         rows.append(b); cols.append(m); vals.append(1.0)
         # walk from c (end) back to the common ancestor, then from a: the loop runs a -> c
         # through b, and back c -> ancestor -> a along the tree
