@@ -67,7 +67,7 @@ def main() -> None:
         cpu = time.process_time() - c0
         _, peak = tracemalloc.get_traced_memory()
         tracemalloc.stop()
-        print(f"{folder.name}: {len(loops)} loops, field solve {total:.2f} s together, "
+        print(f"{folder.name}: {len(loops)} loops, field solve {total:.2f} s together (CPU {cpu:.2f} s), "
               f"peak traced memory {peak / 2**20:.0f} MB, process max RSS "
               f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MB")
         for name, L, cells, dt, loop in rows:

@@ -132,12 +132,15 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
                     fy += [vy - dia / 2 - 0.1, vy + dia / 2 + 0.1]
     # within the cell budget: first a faster growth, then without the copper-edge lines, then
     # coarser cells (the finest kept below the narrowest loop conductor as long as possible)
-    plan = [(True, 1.5, 1.0, 1.0), (True, 2.0, 1.0, 1.5), (False, 2.0, 1.0, 1.5), (False, 2.0, 1.0, 2.5),
-            (False, 2.5, 1.0, 3.5)] + [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k) for k in range(1, 8)]
-    for edges, growth, kf, kc in plan:
-        f, c = min(fine * kf, max(fine, 0.9 * wmin * scale)) if kf > 1 else fine, coarse * kc
-        if kf > 1:
-            f = fine * kf
+    plan = [(True, 1.5, 1.0, 1.0, 1.0), (True, 2.0, 1.0, 1.5, 1.0), (False, 2.0, 1.0, 1.5, 1.0),
+            (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 0.6), (False, 2.5, 1.0, 3.5, 0.35)]
+    plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 0.35) for k in range(1, 8)]
+    bx = (min(xs), min(ys), max(xs), max(ys))
+    for edges, growth, kf, kc, km in plan:
+        f, c = fine * kf, coarse * kc
+        m = max(1.5, margin * km)      # a smaller window before coarser cells: thin traces stay meshed
+        x0, y0, x1, y1 = bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m
+        window = box(x0, y0, x1, y1)
         xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f, c, growth)
         ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f, c, growth)
         labels, island_net = _labels(ctx, xe, ye, window, nets)
@@ -145,6 +148,7 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
         if 2 * ncell <= max_branches:
             break
     fine, coarse = f, c
+    vias = [v for v in vias if x0 < v[0] < x1 and y0 < v[1] < y1]
     mesh = loopsolve.SheetMesh(np.asarray(xe) * 1e-3, np.asarray(ye) * 1e-3, labels,
                                np.asarray(z_mm) * 1e-3, np.array([layer_thickness_m(board, k) for k in range(nl)]))
     notes = [f"field solve window {x1 - x0:.1f} x {y1 - y0:.1f} mm around the loop, all {nl} copper layers; "
@@ -195,11 +199,19 @@ def _labels(ctx: MeasureContext, xe, ye, window, nets):
         for idx in tree.query(window, predicate="intersects"):
             poly = polys[int(idx)]
             owner = None
+            claims = []
             for net in nets:
                 g = net_cu[net].get(k)
-                if g is not None and poly.intersects(g) and poly.intersection(g).area > 0.5 * min(poly.area, g.area):
-                    owner = net
-                    break
+                if g is not None and poly.intersects(g):
+                    share = poly.intersection(g).area / max(poly.area, 1e-12)
+                    if share > 0.5 or poly.intersection(g).area > 0.5 * g.area:
+                        claims.append((share, net))
+            if len(claims) > 1:
+                raise FieldSolveError(
+                    f"the copper of {' and '.join(n for _, n in claims)} is one island on "
+                    f"{board.layers[k].name} (joined in the copper as read): the loop's nets cannot be told apart")
+            if claims:
+                owner = claims[0][1]
             clip = poly.intersection(window)
             if owner is None and clip.area < MIN_OTHER_ISLAND_MM2:
                 continue
