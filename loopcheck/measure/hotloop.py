@@ -389,7 +389,7 @@ def loop_inductance_by_method(ctx: MeasureContext, loop: LoopPath) -> tuple[floa
         res = solve_field_loop(ctx, loop)
     except FieldSolveError as exc:
         return L_fast, notes_fast + [f"field solve not made ({exc}): the fast path estimate is reported"], det_fast
-    det = {**res.detail, "fast_estimate_nH": L_fast * 1e9}
+    det = {**res.detail, "fast_estimate_nH": L_fast * 1e9, "fast": det_fast}
     return res.inductance_h, res.assumptions, det
 
 
