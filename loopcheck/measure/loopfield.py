@@ -28,7 +28,7 @@ MAX_BRANCHES = 3200        # cells of the dense solve (memory ~ N^2 * 8 bytes, t
 MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy loop worth meshing
 EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
 EDGE_MAX_LINES = 24         # ... at most this many extra cell edges per axis, those nearest the loop first
-FINE_MM = (0.1, 0.5)        # finest cell: half the narrowest loop conductor, within these bounds
+FINE_MM = (0.1, 0.4)        # finest cell: a third of the narrowest loop conductor, within these bounds
 PACKAGE_INDUCTANCE_NOTE = ("a part is a straight strip between its pad centres, as wide as its smaller pad; "
                            "the package's own inductance beyond that strip is taken as zero (no table of "
                            "package inductances is applied)")
@@ -86,7 +86,7 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
     y0, y1 = min(ys) - margin, max(ys) + margin
     wmin = min([w for w in loop.widths_mm if w > 0] + [_pad_size(p) for p in pads])
     hs = [abs(z_mm[k] - z_mm[k + 1]) for k in range(nl - 1)]
-    fine = float(np.clip(min(wmin / 2, min(hs) if hs else 1.0), *FINE_MM)) * scale
+    fine = float(np.clip(min(wmin / 3, min(hs) if hs else 1.0), *FINE_MM)) * scale
     coarse = float(np.clip(span / 10, 0.8, 3.0)) * scale
     fx, fy = [], []
     path = LineString([(p[0], p[1]) for p in loop.points] + [loop.points[0][:2]])
