@@ -260,19 +260,10 @@ def _plane_images(ctx: MeasureContext, loop: LoopPath, z_mm: list[float]) -> lis
     return out
 
 
-def _mirror_segments(starts_m: np.ndarray, ends_m: np.ndarray,
-                     plane_z_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Segments (N, 3) [m] mirrored each in its own plane z = plane_z_m[k] [m] (the image method,
-    ``physics.inductance.image_in_plane``); the image carries the opposite current."""
-    from ..physics.inductance import image_in_plane
+def _mirror_segments(starts_m, ends_m, plane_z_m):
+    from ..physics.inductance import mirror_segments
 
-    plane_z_m = np.asarray(plane_z_m, dtype=float)
-    m0, m1 = np.empty_like(starts_m), np.empty_like(ends_m)
-    for z0 in np.unique(plane_z_m):
-        sel = plane_z_m == z0
-        m0[sel] = image_in_plane(starts_m[sel], z0)
-        m1[sel] = image_in_plane(ends_m[sel], z0)
-    return m0, m1
+    return mirror_segments(starts_m, ends_m, plane_z_m)
 
 
 def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[str], dict]:

@@ -789,3 +789,45 @@ def path_over_plane_inductance(points_m, widths_m, thicknesses_m, plane_z_m):
     wl = np.concatenate([w, [w.mean()], w[::-1], [w.mean()]])
     tl = np.concatenate([t, [t.mean()], t[::-1], [t.mean()]])
     return 0.5 * polyline_loop_inductance(loop, wl, tl)
+
+
+def mirror_segments(starts_m, ends_m, plane_z_m):
+    r"""Segments mirrored each in its own horizontal plane z = plane_z_m[k] (the image method).
+
+    .. math:: (x, y, z) \mapsto (x, y, 2 z_p - z)
+
+    The image carries the opposite current, so its mutual inductance with the loop is
+    subtracted (a perfectly conducting plane; valid above the frequency where the plane is
+    thicker than a skin depth).
+
+    Parameters
+    ----------
+    starts_m, ends_m : array (N, 3)
+        Segment ends [m].
+    plane_z_m : array (N,)
+        Height of the plane each segment is mirrored in [m].
+
+    Returns
+    -------
+    (array (N, 3), array (N, 3))
+        Mirrored starts and ends [m].
+
+    References
+    ----------
+    .. [1] C. R. Paul, "Inductance: Loop and Partial", Wiley, 2010, ch. 6 (images).
+
+    Examples
+    --------
+    >>> a, b = mirror_segments([[0, 0, 1e-3]], [[1e-3, 0, 1e-3]], [0.0])
+    >>> a.tolist(), b.tolist()
+    ([[0.0, 0.0, -0.001]], [[0.001, 0.0, -0.001]])
+    """
+    starts_m = np.atleast_2d(as_finite("starts_m", starts_m))
+    ends_m = np.atleast_2d(as_finite("ends_m", ends_m))
+    plane_z_m = np.broadcast_to(as_finite("plane_z_m", plane_z_m), (len(starts_m),))
+    m0, m1 = np.empty_like(starts_m), np.empty_like(ends_m)
+    for z0 in np.unique(plane_z_m):
+        sel = plane_z_m == z0
+        m0[sel] = image_in_plane(starts_m[sel], z0)
+        m1[sel] = image_in_plane(ends_m[sel], z0)
+    return m0, m1
