@@ -17,7 +17,7 @@ import numpy as np
 import shapely
 
 from ..board import Board
-from ..findings import Measurement
+from ..findings import Drawing, Measurement
 from ..powerstage import Stage
 from .svg import Frame, geometry_path, layer_colour
 
@@ -48,13 +48,12 @@ def stage_loop_measurements(measurements: list[Measurement], stage: str) -> dict
 
 
 def loop_window(board: Board, stage: Stage, loop: dict[str, Measurement]) -> Frame | None:
-    """The zoom window: the bounding box of the loop's drawings (else of its terminals' pads)
+    """The zoom window: the bounding box of the loop's drawings and its terminals' pads
     with a margin of a fifth of its size, at least MIN_MARGIN_MM, and at least MIN_WINDOW_MM
     wide and high. None when there is nothing to place it by."""
     pts = [p for m in loop.values() for d in m.drawings for p in d.points]
-    if not pts:
-        pts = [(board.terminals[t].x_mm, board.terminals[t].y_mm)
-               for t in stage.hot_loop if t in board.terminals]
+    pts += [(board.terminals[t].x_mm, board.terminals[t].y_mm)
+            for t in stage.hot_loop if t in board.terminals]
     if not pts:
         return None
     xy = np.asarray(pts, dtype=float)
@@ -136,9 +135,13 @@ def _cap_cells(cells: dict[int, np.ndarray], limit: int = MAX_CELLS) -> dict[int
     total = sum(len(a) for a in cells.values())
     if total <= limit:
         return cells
-    allm = np.concatenate([np.hypot(a[:, 4], a[:, 5]) for a in cells.values()])
-    cut = np.sort(allm)[-limit]
-    return {k: a[np.hypot(a[:, 4], a[:, 5]) >= cut] for k, a in cells.items()}
+    keys = list(cells)
+    allm = np.concatenate([np.hypot(cells[k][:, 4], cells[k][:, 5]) for k in keys])
+    owner = np.concatenate([np.full(len(cells[k]), n) for n, k in enumerate(keys)])
+    row = np.concatenate([np.arange(len(cells[k])) for k in keys])
+    keep = np.argsort(-allm, kind="stable")[:limit]
+    out = {k: cells[k][np.sort(row[keep][owner[keep] == n])] for n, k in enumerate(keys)}
+    return {k: a for k, a in out.items() if len(a)}
 
 
 def _heat_layer(cells: np.ndarray, scale: HeatScale) -> str:
@@ -267,6 +270,10 @@ def stage_loop_svg(board: Board, stage: Stage, measurements: list[Measurement], 
                            f'<title>area enclosed by the traced loop</title></polygon>')
     path = next((d for m in (area, ind) if m is not None for d in m.drawings
                  if d.kind == "polyline"), None)
+    if path is None and area is not None:         # no path drawn: the area's outline
+        rings = [list(d.points) + [d.points[0]] for d in area.drawings
+                 if d.kind == "polygon" and len(d.points) >= 3]
+        path = Drawing("polyline", max(rings, key=len)) if rings else None
     if path is not None and len(path.points) >= 2:
         out.append(f'<polyline class="loop-path-casing" stroke-width="{3.2 * u:.3f}" '
                    f'points="{_pts(path.points)}"/>'
