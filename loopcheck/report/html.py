@@ -176,9 +176,12 @@ def _stage_loop_figure(result: CheckResult, stage, k: int) -> str:
             h.append(f'<label for="zh-{k}-{i}"><span class="sw" style="background:'
                      f'linear-gradient(90deg,{HEAT_COLOURS[2]},{HEAT_COLOURS[-2]})"></span>'
                      f'{escape(layer.name)} current density</label>')
-    h.append('<p><strong>Drawn from the measurements</strong></p>'
-             '<div><span class="sw" style="background:rgba(255,96,72,.5)"></span>'
-             'traced loop path, its area shaded</div>')
+    h.append('<p><strong>Drawn from the measurements</strong></p>')
+    if 'class="loop-path"' in svg:
+        h.append('<div><span class="sw" style="background:rgba(255,96,72,.5)"></span>'
+                 'traced loop path, its area shaded</div>')
+    else:
+        h.append("<div><em>loop not traced: its terminals are shown</em></div>")
     if ind is not None and ind.detail.get("current_centroid"):
         h.append('<div><span class="sw" style="background:#5cf2ff"></span>'
                  'centroid line of the loop current</div>')
@@ -212,10 +215,15 @@ def _stage_loop_figure(result: CheckResult, stage, k: int) -> str:
     if shares:
         h.append('<p><strong>Where the inductance sits</strong></p><table class="shares">'
                  "<thead><tr><th>part of the loop</th><th>share</th></tr></thead><tbody>")
-        for s in shares:
+        shown = [s for s in shares if abs(float(s["share_pct"])) >= 0.05]
+        for s in shown:
             h.append(f'<tr><td>{escape(str(s["part"]))}</td>'
                      f'<td class="num">{float(s["share_pct"]):.1f} %</td></tr>')
         h.append("</tbody></table>")
+        if len(shown) < len(shares):
+            rest = len(shares) - len(shown)
+            h.append(f"<p><small>and {rest} part{'s' if rest != 1 else ''} under 0.1 % "
+                     "(all in the JSON report)</small></p>")
     h.append("</div></div></div>")
     return "".join(h)
 
