@@ -314,17 +314,19 @@ def test_contradictory_roles(roles_, key):
 
 
 def test_key_lines_in_the_project_file(tmp_path):
-    from loopcheck.stages import _key_line
+    # the lines come from the project file as loopcheck.project read it (stages no longer re-reads it)
+    from loopcheck.project import load_project
 
     f = tmp_path / "loopcheck.toml"
     f.write_text('[board]\nname = "x"\n\n[operating_point]\niout_a = 1\n\n[stages.led]\nswitch = "Q1"\n'
                  '[stages.led.operating_point]\nfsw_hz = 1\n[stages."odd name"]\ninductor = "L1"\n')
-    assert _key_line(str(f), "operating_point.iout_a") == 5
-    assert _key_line(str(f), "stages.led.switch") == 8
-    assert _key_line(str(f), "stages.led.operating_point.fsw_hz") == 10
-    assert _key_line(str(f), "stages.odd name.inductor") == 12
-    assert _key_line(str(f), "stages.led.rectifier") == 7         # not there: its table's header
-    assert _key_line(None, "stages.led.switch") is None
+    p = load_project(f)
+    assert p.nearest_line("operating_point.iout_a") == 5
+    assert p.nearest_line("stages.led.switch") == 8
+    assert p.nearest_line("stages.led.operating_point.fsw_hz") == 10
+    assert p.nearest_line("stages.odd name.inductor") == 12
+    assert p.nearest_line("stages.led.rectifier") == 7         # not there: its table's header
+    assert p.key_error("stages.led.switch", "x").line == 8
 
 
 def test_operating_point_defaults_and_errors():
@@ -406,13 +408,22 @@ def test_impossible_operating_point_cli_exit_2(tmp_path):
 
 
 def test_values_from_bom_file(tmp_path):
+    # the BOM is read once, by load_board, into board.component_values; stages use those values
+    # (behaviour change: stages no longer re-read the CSV named in [files])
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    from synth_fixtures import write_buck
+
+    write_buck(tmp_path)
     bom = tmp_path / "bom.csv"
-    bom.write_text('Designator;Comment;Footprint\n"C1, C2";4.7uF;1210\nRS1;0R1;2512\n')
-    assert read_bom(bom) == {"C1": "4.7uF", "C2": "4.7uF", "RS1": "0R1"}
-    board = board_from(LED_BUCK)
-    st = find_stages(board, Project(path=None, fab=tmp_path, name="t", files={"bom.csv": "bom"},
-                                    operating_point={"iout_a": 1.5})).stages[0]
-    assert st.operating_point.vsense_v == pytest.approx(0.15)
+    bom.write_text('Designator;Comment;Footprint\n"C1, C2";4.7uF;1210\nL1;22uH;1210\n')
+    assert read_bom(bom) == {"C1": "4.7uF", "C2": "4.7uF", "L1": "22uH"}
+    board = load_board(load_project(tmp_path))
+    assert board.component_values["C1"] == "4.7uF"
+    search = find_stages(board, load_project(tmp_path))
+    assert any("part values from the fab outputs" in m for m in search.messages)
+    assert search.stages[0].role("inductor").ref == "L1"
 
 
 @pytest.mark.parametrize("text", ["Ref,Value\nC1\n", "Part Number,Qty\nX,1\n", "Ref,Value\n1C,4u7\n",

@@ -1,0 +1,344 @@
+"""The detector: candidates -> topology -> roles -> loops for each stage, and the project file's
+named stages matched to what was found."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from ..board import Board
+from ..powerstage import Role, Stage
+from ..project import Project
+from .loops import LoopsMixin
+from .netlist import GROUND_NAMES, SWITCH_NODE_NAMES, Netlist, Part
+from .roles import _LIST_KEYS, _REF_KEYS, RolesMixin, _project_error, _validate_spec
+from .topology import TopologyMixin, _Element
+
+
+class Detector(TopologyMixin, RolesMixin, LoopsMixin):
+    def __init__(self, board: Board, project: Project, values: dict[str, str]):
+        self.board = board
+        self.project = project
+        self.nl = Netlist(board, values)
+        self.path = str(project.path) if project.path else None
+        self.messages: list[str] = []
+        self._floating = False           # the stage being built is a low-side (floating) buck
+        self._across: str | None = None  # ... and its load capacitor's input-side net
+
+    # -- one stage ----------------------------------------------------------------------------
+    def build(self, name: str, sw: str, inductor: Part, switching: str, sw_evidence: list[str],
+              fixed: dict[str, Any]) -> Stage:
+        nl = self.nl
+        missing: list[str] = []
+        x_net = next(iter(inductor.nets - {sw}))
+        x_rail, x_via = self._resolve_rail(x_net, {sw})
+        elements = [self._element(p, sw) for p in nl.on(sw) if p.kind in ("transistor", "diode", "ic")
+                    and p.ref != inductor.ref and (p.kind != "transistor" or len(p.nets) >= 2)]
+        # a named switch or rectifier must be among them
+        for key in ("switch", "rectifier"):
+            if key in fixed and fixed[key] not in [e.part.ref for e in elements]:
+                part = nl.parts[fixed[key]]
+                kind = part.kind
+                if kind not in ("transistor", "diode", "ic"):
+                    # a part of unknown kind named as a switch: by its connections
+                    kind = "transistor" if len(part.nets) >= 3 else "diode"
+                    self.messages.append(f"{name}: {part.ref} (named {key}) taken as a {kind} from its "
+                                         f"{len(part.nets)} connected nets")
+                elements.append(self._element(part, sw, kind))
+        transistors = [e for e in elements if e.kind == "transistor"]
+        diodes = [e for e in elements if e.kind == "diode"]
+        ics = [e for e in elements if e.kind == "ic"]
+        if fixed.get("switch") and nl.parts[fixed["switch"]].kind == "ic":
+            transistors = [e for e in transistors if e.part.ref == fixed.get("rectifier")]
+        if transistors:
+            # two transistors switch synchronously, also with a Schottky across the low side
+            switching = "synchronous" if len(transistors) >= 2 else "discrete"
+        elif ics:
+            switching = "integrated"
+
+        ic_rails: list[str] = []
+        if switching == "integrated":
+            ic = ics[0].part
+            ic_rails = sorted(n for n in ic.nets - {sw} if nl.is_railish(n))
+        rails = [x_rail] + [e.rail for e in transistors + diodes if e.rail] + ic_rails
+        cathode_sides = set()
+        for e in diodes:
+            k, _ = self._diode_cathode(e.part)
+            if k is not None and k != sw:
+                cathode_sides.add(k)
+        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"), cathode_sides)
+
+        topology = fixed.get("topology")
+        topo_ev = "named in loopcheck.toml" if topology else ""
+        topo_conf = 1.0 if topology else 0.8
+        switch_el: _Element | None = None
+        rect_el: _Element | None = None
+        input_net = output_net = None
+
+        def by_ref(ref):
+            return next((e for e in elements if e.part.ref == ref), None)
+
+        on_ground = [e for e in transistors + diodes if e.rail == ground]
+        off_ground = [e for e in transistors + diodes if e.rail != ground]
+        # a low-side (floating) buck, common in LED drivers: switch from the switch node to ground,
+        # diode up to the input, the load (and its capacitor) between the input and the inductor
+        low_t = next((e for e in on_ground if e.kind == "transistor"), None)
+        up_d = next((e for e in off_ground if e.kind == "diode"), None)
+        across = (self._load_across(x_rail, up_d.rail, ground) if low_t is not None and up_d is not None
+                  and ground != x_rail and topology in (None, "buck") else None)
+        floating = across is not None
+        self._floating, self._across = floating, across
+        if switching in ("discrete", "synchronous"):
+            if topology is None:
+                if ground == x_rail:
+                    topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
+                elif any(e.kind == "diode" for e in on_ground) and any(e.kind == "transistor" for e in off_ground):
+                    d = next(e for e in on_ground if e.kind == "diode")
+                    topology, topo_ev = "buck", f"diode {d.part.ref} from the switch node to ground"
+                elif floating:
+                    topology, topo_ev = "buck", (
+                        f"low-side (floating) buck: transistor {low_t.part.ref} to ground, diode {up_d.part.ref} "
+                        f"up to {up_d.rail}, the load capacitor between {across} and {x_rail}")
+                elif any(e.kind == "transistor" for e in on_ground) and any(e.kind == "diode" for e in off_ground):
+                    t = next(e for e in on_ground if e.kind == "transistor")
+                    d = next(e for e in off_ground if e.kind == "diode")
+                    topology, topo_ev = "boost", (f"transistor {t.part.ref} to ground and diode "
+                                                  f"{d.part.ref} to the output")
+                else:
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw)
+            if topology == "buck" and floating:
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else low_t
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else up_d
+                input_net = rect_el.rail if rect_el else None
+                output_net = x_rail
+            elif topology == "buck":
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
+                    next((e for e in off_ground if e.kind == "transistor"), None))
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
+                    next((e for e in on_ground if e is not switch_el), None))
+                input_net = switch_el.rail if switch_el else None
+                output_net = x_rail
+            elif topology == "boost":
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
+                    next((e for e in on_ground if e.kind == "transistor"), None))
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
+                    next((e for e in off_ground if e is not switch_el), None))
+                input_net = x_rail
+                output_net = rect_el.rail if rect_el else None
+            else:  # inverting buck-boost: switch SW-input, rectifier SW-output
+                cands = [e for e in transistors + diodes if e.rail != ground]
+                if "switch" in fixed:
+                    switch_el = by_ref(fixed["switch"])
+                else:
+                    ts = [e for e in cands if e.kind == "transistor"]
+                    if len(ts) == 1 or not ts:
+                        switch_el = ts[0] if ts else None
+                    else:
+                        switch_el = max(ts, key=lambda e: self._input_likeness(e.rail))
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
+                    next((e for e in cands if e is not switch_el), None))
+                input_net = switch_el.rail if switch_el else None
+                output_net = rect_el.rail if rect_el else None
+        else:  # integrated
+            ic_el = ics[0] if ics else None
+            ext = diodes[0] if diodes else (transistors[0] if transistors else None)
+            if "rectifier" in fixed:
+                ext = by_ref(fixed["rectifier"])
+            ic = ic_el.part if ic_el else None
+            if topology is None:
+                if ground == x_rail:
+                    topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
+                elif ext is not None and ext.rail == ground:
+                    topology, topo_ev = "buck", f"{ext.part.ref} from the switch node to ground"
+                elif ext is not None and ext.rail is not None:
+                    topology, topo_ev = "boost", f"{ext.part.ref} from the switch node to {ext.rail}"
+                else:
+                    others = [n for n in ic_rails if n not in (ground, x_rail)]
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, others, sw)
+            switch_el = ic_el
+            if ext is not None and (ext.rail == ground or topology != "buck"):
+                rect_el = ext
+            else:
+                rect_el = ic_el
+            others = [n for n in ic_rails if n not in (ground, x_rail, sw)]
+            if topology == "buck":
+                output_net = x_rail
+                input_net = fixed.get("input_net") or (max(others, key=self._input_likeness) if others else None)
+            elif topology == "boost":
+                input_net = x_rail
+                output_net = (ext.rail if ext is not None and ext.rail else
+                              (min(others, key=self._input_likeness) if others else None))
+            else:
+                input_net = max(others, key=self._input_likeness) if others else None
+                output_net = ext.rail if ext is not None else None
+            if ic is not None and not diodes and rect_el is ic_el:
+                topo_ev += "; switches inside the IC"
+        input_net = fixed.get("input_net") or input_net
+        output_net = fixed.get("output_net") or output_net
+
+        stage = Stage(name=name, topology=topology or "buck", switching=switching, switch_node=sw,
+                      input_net=input_net, output_net=output_net, ground_net=ground)
+        roles: list[Role] = []
+        if "switch_node" in fixed:
+            sw_evidence = ["named in loopcheck.toml"]
+
+        # inductor
+        roles.append(self._role("inductor", inductor, (inductor.terminals_on(sw) + inductor.terminals_on(x_net)),
+                                0.9, f"inductor with one terminal on the switch node {sw}", fixed,
+                                pins={"sw": inductor.terminals_on(sw), "other": inductor.terminals_on(x_net)}))
+        # controller
+        controller, c_ev, c_conf = self._controller(switching, switch_el, rect_el, fixed)
+        # switch and rectifier
+        if switch_el is not None:
+            roles.append(self._switch_role("switch", switch_el, sw, stage, controller, fixed))
+        else:
+            missing.append("switch: no transistor or IC pin on the switch node fits the topology")
+        if rect_el is not None:
+            roles.append(self._switch_role("rectifier", rect_el, sw, stage, controller, fixed))
+        else:
+            missing.append("rectifier: no diode or second switch on the switch node")
+        if controller is not None:
+            roles.append(Role("controller", controller.ref, tuple(p.terminal for p in controller.pads),
+                              c_conf, c_ev, pins=self._controller_pins(controller, stage, roles)))
+        else:
+            missing.append("controller: no IC drives the switch's gate")
+        if ground is None:
+            missing.append("ground: no rail with capacitor returns")
+        if input_net is None:
+            missing.append("input rail: cannot tell which rail feeds the switch")
+        if output_net is None:
+            missing.append("output rail")
+
+        # capacitors
+        switch_input_pads = self._switch_input_pads(switch_el, stage)
+        named: set[str] = set()
+        for key in _REF_KEYS + _LIST_KEYS:
+            v = fixed.get(key)
+            named |= set(v) if isinstance(v, list) else ({v} if v else set())
+        in_caps = self._caps("input_caps", input_net, ground, switch_input_pads, fixed, exclude=named,
+                             what="the switch")
+        for i, (cap, conf, ev) in enumerate(in_caps):
+            roles.append(Role("input_cap", cap.ref, cap.terminals_on(input_net) + cap.terminals_on(ground),
+                              conf, ev))
+        if not in_caps and input_net and ground:
+            missing.append(f"input capacitor: no capacitor between {input_net} and {ground}")
+        out_ref_pads = (rect_el.part.pads_on(rect_el.rail) if (topology != "buck" and rect_el is not None
+                        and rect_el.rail) else inductor.pads_on(x_net))
+        # a floating buck's load capacitor sits across the load, from the output to the input side
+        out_return = self._across if self._floating else ground
+        out_caps = self._caps("output_caps", output_net, out_return, out_ref_pads, fixed,
+                              exclude=named | {c.ref for c, _, _ in in_caps},
+                              what="the rectifier" if topology != "buck" else "the inductor")
+        for cap, conf, ev in out_caps:
+            roles.append(Role("output_cap", cap.ref, cap.terminals_on(output_net) + cap.terminals_on(out_return),
+                              conf, ev))
+        if not out_caps and output_net and out_return:
+            missing.append(f"output capacitor: no capacitor between {output_net} and {out_return}")
+
+        # sense resistor
+        power_nets = {n for n in [x_net, x_rail, input_net, output_net, ground, self._across] if n}
+        for e in transistors + diodes:
+            power_nets |= {n for n in (e.rail, e.rail_pin_net) if n}
+        series = [v for v in [x_via] + [e.rail_via for e in transistors + diodes] if v is not None]
+        sense = self._sense(controller, power_nets, series, fixed, stage, exclude=named)
+        if sense is not None:
+            roles.append(sense)
+        # controller decoupling
+        taken = {r.ref for r in roles if r.name not in ("input_cap", "output_cap")} | (
+            named - set(fixed.get("input_caps", [])) - set(fixed.get("output_caps", [])))
+        dec = self._decoupling(controller, stage, fixed, taken)
+        if dec is not None:
+            roles.append(dec)
+        elif controller is not None:
+            missing.append(f"controller decoupling: no capacitor from a {controller.ref} pin to {ground}")
+
+        stage.roles = roles
+        stage.missing = missing
+        stage.hot_loop = self._hot_loop(stage, switch_el, rect_el, roles, sense)
+        if not stage.hot_loop:
+            stage.missing.append("hot loop: needs the switch, the rectifier and a "
+                                 + ("output" if topology == "boost" else "input") + " capacitor")
+        core = [r.confidence for r in roles if r.name in ("switch", "rectifier", "inductor")]
+        conf = min(core + [g_conf if ground else 0.0, topo_conf]) if core else 0.0
+        # usual names raise confidence a little; they are never needed
+        if conf and SWITCH_NODE_NAMES.search(sw):
+            conf += 0.05
+        if conf and ground and GROUND_NAMES.match(ground):
+            conf += 0.05
+        stage.confidence = round(min(conf, 1.0), 2)
+        stage_ev = "; ".join(sw_evidence + ([f"topology {stage.topology}: {topo_ev}"] if topo_ev else []))
+        self.messages.append(f"{name}: {stage.topology} ({switching}) at switch node {sw}: {stage_ev}")
+        return stage
+
+    def run(self) -> list[Stage]:
+        nl = self.nl
+        specs = list(self.project.stages)
+        fixed_by_spec = {s.name: _validate_spec(s, nl, self.project) for s in specs}
+        cands = self.candidates()
+        stages: list[Stage] = []
+        used_specs: set[str] = set()
+        # match each spec to a candidate, or build one from its named roles
+        assigned: dict[int, str] = {}
+        for spec in specs:
+            f = fixed_by_spec[spec.name]
+            for i, (sw, ind, kind, score, ev) in enumerate(cands):
+                if i in assigned:
+                    continue
+                if (f.get("switch_node") == sw or f.get("inductor") == ind.ref
+                        or any(f.get(k) and f.get(k) in [p.ref for p in nl.on(sw)] for k in ("switch", "rectifier"))):
+                    assigned[i] = spec.name
+                    break
+        # specs with no identifying role: by name ("stage1") or, with one of each, to the one found
+        unassigned_specs = [s for s in specs if s.name not in assigned.values()]
+        free = [i for i in range(len(cands)) if i not in assigned]
+        for spec in list(unassigned_specs):
+            f = fixed_by_spec[spec.name]
+            if any(k in f for k in ("switch_node", "inductor", "switch", "rectifier")):
+                continue
+            idx = None
+            for i in free:
+                if f"stage{i + 1}" == spec.name:
+                    idx = i
+            if idx is None and len(free) == 1 and len(unassigned_specs) == 1:
+                idx = free[0]
+            if idx is not None:
+                assigned[idx] = spec.name
+                free.remove(idx)
+                unassigned_specs.remove(spec)
+        for i, (sw, ind, kind, score, ev) in enumerate(cands):
+            name = assigned.get(i, f"stage{i + 1}")
+            fixed = fixed_by_spec.get(name, {}) if i in assigned else {}
+            if "switch_node" in fixed:
+                sw = fixed["switch_node"]
+            if "inductor" in fixed:
+                ind = nl.parts[fixed["inductor"]]
+            stages.append(self.build(name, sw, ind, kind, ev, fixed))
+            used_specs.add(name)
+        for spec in unassigned_specs:
+            f = fixed_by_spec[spec.name]
+            sw, ind = f.get("switch_node"), f.get("inductor")
+            ind_part = nl.parts[ind] if ind else None
+            if sw is None and ind_part is not None:
+                for key in ("switch", "rectifier"):
+                    if f.get(key):
+                        common = ind_part.nets & nl.parts[f[key]].nets
+                        if common:
+                            sw = sorted(common)[0]
+            if ind_part is None and sw is not None:
+                inds = nl.on(sw, "inductor")
+                if not inds:
+                    raise _project_error(self.project, f"stages.{spec.name}.switch_node",
+                                         f"stages.{spec.name}.switch_node: net {sw!r} joins no inductor "
+                                         "(name the inductor too)")
+                ind_part = inds[0]
+            if sw is None or ind_part is None:
+                self.messages.append(
+                    f"[stages.{spec.name}] in loopcheck.toml matches no stage found on the board; name its "
+                    "switch_node and inductor to define it")
+                continue
+            if sw not in ind_part.nets:
+                raise _project_error(self.project, f"stages.{spec.name}.switch_node",
+                                     f"stages.{spec.name}.switch_node: net {sw!r} does not touch the inductor "
+                                     f"{ind_part.ref}")
+            stages.append(self.build(spec.name, sw, ind_part, "", ["named in loopcheck.toml"], f))
+        return stages
+

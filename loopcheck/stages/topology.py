@@ -1,0 +1,303 @@
+"""Topology: which nets are switch nodes, which part switches and which rectifies, which rail is
+ground, input and output, and whether the stage is a buck, a boost or an inverting buck-boost.
+Each decision keeps its evidence (see :mod:`loopcheck.stages.evidence` for the clues)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from ..board import Pad
+from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
+
+# --------------------------------------------------------------------------------------------
+# Detection
+
+
+@dataclass
+class _Element:
+    """A part with a pin on the switch node acting as switch or rectifier."""
+
+    part: Part
+    kind: str                         # "transistor" | "diode" | "ic"
+    sw_pads: list[Pad]
+    rail: str | None = None           # its other power net
+    rail_via: Part | None = None      # a series (sense) resistor between its pin and the rail
+    rail_pin_net: str | None = None   # the net its own power pin is on (before the series resistor)
+    gate_net: str | None = None
+    evidence: list[str] = field(default_factory=list)
+    confidence: float = 0.8
+
+
+class TopologyMixin:
+    """Switch-node candidates and topology decisions (mixed into the Detector)."""
+
+    def _sw_score(self, net: str) -> tuple[float, str, list[str]]:
+        """How much a net looks like a switch node, its switching kind, and the evidence."""
+        nl = self.nl
+        transistors = [p for p in nl.on(net, "transistor") if len(p.nets) >= 2]
+        diodes = [p for p in nl.on(net, "diode") if len(p.nets) == 2]
+        ics = nl.on(net, "ic")
+        ev: list[str] = []
+        score = 0.0
+        if len(transistors) >= 2:
+            kind = "synchronous"
+            score += 3
+            ev.append(f"two transistors ({', '.join(p.ref for p in transistors)}) on the net")
+        elif transistors and diodes:
+            kind = "discrete"
+            score += 3
+            ev.append(f"transistor {transistors[0].ref} and diode {diodes[0].ref} on the net")
+        elif ics and (diodes or transistors):
+            kind = "integrated"
+            score += 2
+            ev.append(f"{ics[0].ref} pins and {(diodes or transistors)[0].ref} on the net")
+        elif ics:
+            kind = "integrated"
+            score += 1
+            ev.append(f"{ics[0].ref} pins on the net (switch inside the IC)")
+        else:
+            return 0.0, "", []
+        # a switch node carries no capacitor to a rail (a bootstrap capacitor to an IC pin is fine)
+        caps = nl.on(net, "capacitor")
+        boot = [c for c in caps if len(c.nets) == 2 and self._bootstrap_net(next(iter(c.nets - {net})), c)]
+        if boot:
+            score += 0.5
+            ev.append(f"bootstrap-like capacitor {boot[0].ref} to an IC pin")
+        rail_caps = [c for c in caps if c not in boot and len(c.nets) == 2
+                     and (len(nl.on(next(iter(c.nets - {net})), "capacitor")) >= 2
+                          or nl.on(next(iter(c.nets - {net})), "connector"))]
+        if rail_caps:
+            # a capacitor straight to a rail (ground): this net is a rail, not a switch node
+            return 0.0, "", []
+        if len(caps) - len(boot) > 0:
+            score -= 1.5 * (len(caps) - len(boot))
+        if nl.on(net, "connector"):
+            score -= 2
+        if SWITCH_NODE_NAMES.search(net):
+            score += 1
+            ev.append(f"net name {net!r} is a usual switch-node name")
+        return score, kind, ev
+
+    def _bootstrap_net(self, net: str, cap: Part) -> bool:
+        """The far net of a bootstrap capacitor: only that capacitor, IC pins and perhaps a diode."""
+        parts = self.nl.on(net)
+        return (any(p.kind == "ic" for p in parts) and
+                all(p is cap or p.kind in ("ic", "diode", "resistor") for p in parts))
+
+    def candidates(self) -> list[tuple[str, Part, str, float, list[str]]]:
+        """(switch node, inductor, switching kind, score, evidence) per inductor, best end."""
+        out = []
+        for ind in sorted((p for p in self.nl.parts.values() if p.kind == "inductor"), key=lambda p: p.ref):
+            if len(ind.nets) != 2:
+                continue
+            best = None
+            for net in sorted(ind.nets):
+                score, kind, ev = self._sw_score(net)
+                if score > 0 and (best is None or score > best[3]):
+                    best = (net, ind, kind, score, ev)
+            if best is not None:
+                # the inductor's other end must reach a rail (capacitors or a connector)
+                other = next(iter(ind.nets - {best[0]}))
+                rail, _ = self._resolve_rail(other, {best[0]})
+                if self.nl.is_railish(rail):
+                    out.append(best)
+        # a net where a transistor meets only IC pins is not a switch node when that transistor
+        # already switches at another candidate with its rectifier (an input filter's inductor)
+        switching = {p.ref for net, _, kind, _, _ in out if kind in ("discrete", "synchronous")
+                     for p in self.nl.on(net) if p.kind in ("transistor", "diode")}
+        kept = []
+        for cand in out:
+            net, ind, kind = cand[0], cand[1], cand[2]
+            if kind == "integrated" and any(p.ref in switching for p in self.nl.on(net, "transistor")):
+                self.messages.append(f"{ind.ref}: net {net} is not taken as a switch node: its transistor "
+                                     "switches at another switch node")
+                continue
+            kept.append(cand)
+        return kept
+
+    # -- helpers ------------------------------------------------------------------------------
+    def _resolve_rail(self, net: str, exclude: set[str]) -> tuple[str, Part | None]:
+        """Follow a net with no capacitor or connector through one series resistor to a rail."""
+        nl = self.nl
+        if nl.is_railish(net):
+            return net, None
+        for r in nl.on(net, "resistor"):
+            if len(r.nets) != 2:
+                continue
+            other = next(iter(r.nets - {net}))
+            if other in exclude:
+                continue
+            if nl.is_railish(other):
+                return other, r
+        return net, None
+
+    def _gate_and_rail(self, t: Part, sw: str) -> tuple[str | None, str | None, list[str]]:
+        """Split a transistor's other nets into gate and power rail."""
+        ev: list[str] = []
+        others = sorted(t.nets - {sw})
+        named = {self._pin_name(p.pin): p.net for p in t.pads}
+        if "G" in named and named["G"] != sw:
+            gate = named["G"]
+            rail = next((n for n in others if n != gate), None)
+            ev.append(f"{t.ref} pin named G is the gate")
+            return gate, rail, ev
+        if len(others) == 1:
+            return None, others[0], [f"{t.ref} has only two nets: no gate pin in the netlist"]
+        if len(others) > 2:
+            others = sorted(others, key=lambda n: -len(t.pads_on(n)))[:2]
+
+        def gateness(n: str) -> tuple:
+            # gate: one transistor pin, no capacitor/connector, reaches an IC (directly or through a resistor)
+            reaches_ic = bool(self.nl.on(n, "ic")) or any(
+                self.nl.on(m, "ic") for r in self.nl.on(n, "resistor") if len(r.nets) == 2 for m in r.nets - {n})
+            return (
+                len(t.pads_on(n)) == 1,
+                not self.nl.is_railish(n),
+                reaches_ic,
+                -self.nl.pad_count(n),
+                t.pads_on(n)[0].pin == "1",
+            )
+
+        a, b = others
+        ga, gb = gateness(a), gateness(b)
+        gate, rail = (a, b) if ga > gb else (b, a)
+        g = gateness(gate)
+        if g[1] and not gateness(rail)[1]:
+            ev.append(f"{t.ref}: net {gate} carries no capacitor or connector, {rail} does: {gate} is the gate")
+        elif g[0] and not gateness(rail)[0]:
+            ev.append(f"{t.ref}: one pin on {gate}, several on {rail}: {gate} is the gate")
+        elif g[2]:
+            ev.append(f"{t.ref}: net {gate} reaches an IC pin: the gate drive")
+        else:
+            ev.append(f"{t.ref}: assumed pin 1 ({gate}) is the gate (no net evidence)")
+        return gate, rail, ev
+
+    @staticmethod
+    def _pin_name(pin: str) -> str:
+        p = pin.upper()
+        return {"GATE": "G", "SOURCE": "S", "DRAIN": "D", "B": "G", "BASE": "G", "E": "S", "EMITTER": "S",
+                "C": "D", "COLLECTOR": "D", "K": "K", "CATHODE": "K", "KA": "K", "A": "A", "ANODE": "A",
+                "AN": "A", "CA": "K"}.get(p, p)
+
+    def _element(self, part: Part, sw: str, kind: str | None = None) -> _Element:
+        kind = kind or part.kind
+        el = _Element(part, kind, part.pads_on(sw))
+        if kind == "transistor":
+            gate, pin_net, ev = self._gate_and_rail(part, sw)
+            el.gate_net = gate
+            el.evidence += ev
+        elif kind == "diode":
+            pin_net = next(iter(part.nets - {sw}))
+        else:
+            pin_net = None
+        if pin_net is not None:
+            el.rail_pin_net = pin_net
+            el.rail, el.rail_via = self._resolve_rail(pin_net, {sw})
+            if el.rail_via is not None:
+                el.evidence.append(f"{part.ref} reaches {el.rail} through {el.rail_via.ref}")
+        return el
+
+    def _diode_cathode(self, part: Part) -> tuple[str | None, str]:
+        """The net of a two-net diode's cathode from its pin names (K/A), else the pin 1 = cathode
+        convention; and which of the two told."""
+        names = {"K": "K", "C": "K", "CATHODE": "K", "KA": "K", "CA": "K", "A": "A", "AN": "A", "ANODE": "A"}
+        for p in part.pads:
+            if names.get(p.pin.upper()) == "K":
+                return p.net, "pin names"
+        for p in part.pads:
+            if names.get(p.pin.upper()) == "A":
+                others = [q.net for q in part.pads if q.net != p.net]
+                return (others[0] if others else None), "pin names"
+        pin1 = next((p for p in part.pads if p.pin == "1"), None)
+        return (pin1.net if pin1 is not None else None), "the pin 1 = cathode convention"
+
+    def _load_across(self, x_rail: str, diode_rail: str | None, ground: str | None) -> str | None:
+        """In a low-side (floating) buck the inductor's far end carries capacitors to the input
+        (directly or past a series sense resistor), none to ground. The net they go to, or None."""
+        if diode_rail is None:
+            return None
+        caps = self.nl.on(x_rail, "capacitor")
+        if not caps or any(c.nets == {x_rail, ground} for c in caps):
+            return None
+        near = {diode_rail} | {n for r in self.nl.on(diode_rail, "resistor") if len(r.nets) == 2
+                               for n in r.nets - {diode_rail}}
+        for c in caps:
+            if len(c.nets) == 2 and next(iter(c.nets - {x_rail})) in near:
+                return next(iter(c.nets - {x_rail}))
+        return None
+
+    def _ground_of(self, nets: list[str], named: str | None,
+                   avoid: set[str] = frozenset()) -> tuple[str | None, float, list[str]]:
+        """Ground among candidate rails: a usual ground name (with capacitor returns), else not a
+        rectifier diode's cathode side, then the rail most capacitors return to."""
+        nl = self.nl
+        if named:
+            return named, 1.0, ["named in loopcheck.toml"]
+        nets = [n for n in dict.fromkeys(nets) if n]
+        if not nets:
+            return None, 0.0, []
+        scores = {}
+        for n in nets:
+            returns = sum(1 for c in nl.on(n, "capacitor") if len(c.nets) == 2
+                          and next(iter(c.nets - {n})) in nets)
+            all_caps = len(nl.on(n, "capacitor"))
+            # a usual ground name decides among rails with capacitor returns; else the count does
+            scores[n] = (returns > 0 and bool(GROUND_NAMES.match(n)), n not in avoid, all_caps, returns,
+                         nl.pad_count(n), n)
+        best = max(nets, key=lambda n: scores[n])
+        ev = [f"{scores[best][2]} capacitors return to it"]
+        conf = 0.7
+        ranked = sorted((v[2] for v in scores.values()), reverse=True)
+        if len(ranked) > 1 and scores[best][2] == ranked[0] and ranked[0] > ranked[1]:
+            conf = 0.85
+        if avoid & set(nets) and not scores[best][0]:
+            ev.append(f"not {', '.join(sorted(avoid & set(nets)))}: a rectifier's cathode side")
+        if GROUND_NAMES.match(best):
+            conf = min(1.0, conf + 0.1)
+            ev.append(f"net name {best!r} is a usual ground name")
+        return best, conf, ev
+
+    def _input_likeness(self, net: str) -> tuple:
+        nl = self.nl
+        return (bool(INPUT_NAMES.search(net)) and not OUTPUT_NAMES.search(net),
+                bool(nl.on(net, "ic")), bool(nl.on(net, "connector")), -bool(OUTPUT_NAMES.search(net)), net)
+
+    def _buck_or_boost(self, x_rail: str, other_rails: list[str], sw: str) -> tuple[str, str, float]:
+        """A synchronous pair (or integrated switches) cannot tell buck from boost by topology:
+        decide from the operating point, then net names, then which rail feeds other ICs (the
+        loads hang on the output)."""
+        other = other_rails[0] if other_rails else None
+        op = self.project.operating_point or {}
+        vout = op.get("vout_v")
+        vin = op.get("vin_v")
+        if isinstance(vout, (int, float)) and vin is not None:
+            vmin = min(vin) if isinstance(vin, list) else vin
+            vmax = max(vin) if isinstance(vin, list) else vin
+            if vout > vmax:
+                return "boost", f"vout_v {vout} above vin_v in loopcheck.toml", 0.9
+            if vout < vmin:
+                return "buck", f"vout_v {vout} below vin_v in loopcheck.toml", 0.9
+        if OUTPUT_NAMES.search(x_rail) or (other and INPUT_NAMES.search(other) and not OUTPUT_NAMES.search(other)):
+            return "buck", f"net names: inductor to {x_rail}, switch from {other}", 0.8
+        if INPUT_NAMES.search(x_rail) or (other and OUTPUT_NAMES.search(other)):
+            return "boost", f"net names: inductor from {x_rail}, rectifier to {other}", 0.8
+        own = {p.ref for p in self.nl.on(sw, "ic")}
+        gate_ics = set()
+        for t in self.nl.on(sw, "transistor"):
+            for n in t.nets - {sw}:
+                gate_ics |= {p.ref for p in self.nl.on(n, "ic")}
+        own |= gate_ics
+
+        def loads(net):
+            return {p.ref for p in self.nl.on(net, "ic")} - own
+
+        if other and len(loads(x_rail)) != len(loads(other)):
+            if len(loads(x_rail)) > len(loads(other)):
+                return "buck", (f"{x_rail} (the inductor's far end) feeds {len(loads(x_rail))} other IC(s), "
+                                f"{other} {len(loads(other))}: the loads hang on the output"), 0.7
+            return "boost", (f"{other} feeds {len(loads(other))} other IC(s), {x_rail} (the inductor's far end) "
+                             f"{len(loads(x_rail))}: the loads hang on the output"), 0.7
+        if other and self.nl.on(other, "ic") and not self.nl.on(x_rail, "ic"):
+            return "buck", f"{other} feeds an IC pin, {x_rail} does not", 0.6
+        return "buck", ("assumed buck: a synchronous pair or switches inside an IC read the same as a "
+                        "boost from the netlist; name topology in loopcheck.toml to be sure"), 0.5
