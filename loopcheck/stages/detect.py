@@ -9,6 +9,7 @@ from ..board import Board
 from ..powerstage import Role, Stage
 from ..project import Project
 from .loops import LoopsMixin
+from .evidence import bootstrap_nets
 from .netlist import GROUND_NAMES, SWITCH_NODE_NAMES, Netlist, Part
 from .roles import _LIST_KEYS, _REF_KEYS, RolesMixin, _project_error, _validate_spec
 from .topology import TopologyMixin, _Element
@@ -58,7 +59,8 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
         ic_rails: list[str] = []
         if switching == "integrated":
             ic = ics[0].part
-            ic_rails = sorted(n for n in ic.nets - {sw} if nl.is_railish(n))
+            # a bootstrap capacitor's IC pin is never a rail (it rides on the switch node)
+            ic_rails = sorted(n for n in ic.nets - {sw} - bootstrap_nets(nl, sw) if nl.is_railish(n))
         rails = [x_rail] + [e.rail for e in transistors + diodes if e.rail] + ic_rails
         cathode_sides = set()
         for e in diodes:
@@ -104,7 +106,8 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
                     topology, topo_ev = "boost", (f"transistor {t.part.ref} to ground and diode "
                                                   f"{d.part.ref} to the output")
                 else:
-                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw)
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw,
+                                                                              ground)
             if topology == "buck" and floating:
                 switch_el = by_ref(fixed["switch"]) if "switch" in fixed else low_t
                 rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else up_d
@@ -152,23 +155,23 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
                 elif ext is not None and ext.rail is not None:
                     topology, topo_ev = "boost", f"{ext.part.ref} from the switch node to {ext.rail}"
                 else:
-                    others = [n for n in ic_rails if n not in (ground, x_rail)]
-                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, others, sw)
+                    power = self._power_rail(ic, [n for n in ic_rails if n not in (ground, x_rail)]) if ic else None
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [power] if power else [], sw, ground)
             switch_el = ic_el
             if ext is not None and (ext.rail == ground or topology != "buck"):
                 rect_el = ext
             else:
                 rect_el = ic_el
             others = [n for n in ic_rails if n not in (ground, x_rail, sw)]
+            power = self._power_rail(ic, others) if ic is not None else None
             if topology == "buck":
                 output_net = x_rail
-                input_net = fixed.get("input_net") or (max(others, key=self._input_likeness) if others else None)
+                input_net = fixed.get("input_net") or power
             elif topology == "boost":
                 input_net = x_rail
-                output_net = (ext.rail if ext is not None and ext.rail else
-                              (min(others, key=self._input_likeness) if others else None))
+                output_net = ext.rail if ext is not None and ext.rail else power
             else:
-                input_net = max(others, key=self._input_likeness) if others else None
+                input_net = power
                 output_net = ext.rail if ext is not None else None
             if ic is not None and not diodes and rect_el is ic_el:
                 topo_ev += "; switches inside the IC"

@@ -20,14 +20,20 @@ from ..values import parse_value
 # --------------------------------------------------------------------------------------------
 # Component kinds and values
 
+# Reference-designator prefixes -> kind; the longest matching prefix wins (CIN before C, RSNS
+# before RS before R, CR before C, TR before T). T is a transformer, never a transistor.
 _PREFIX_KINDS = {
-    "Q": "transistor", "M": "transistor", "T": "transistor",
-    "D": "diode",
+    "Q": "transistor", "M": "transistor", "TR": "transistor",
+    "D": "diode", "CR": "diode",
+    "LED": "led",
     "L": "inductor",
-    "C": "capacitor",
-    "R": "resistor", "RS": "resistor",
-    "U": "ic", "IC": "ic",
-    "J": "connector", "P": "connector", "CN": "connector",
+    "FB": "ferrite", "FL": "ferrite",
+    "T": "transformer",
+    "C": "capacitor", "CIN": "capacitor", "COUT": "capacitor",
+    "R": "resistor", "RS": "resistor", "RSNS": "resistor", "RSENSE": "resistor", "RSEN": "resistor",
+    "U": "ic", "IC": "ic", "VR": "ic", "PS": "ic",
+    "J": "connector", "P": "connector", "CN": "connector", "X": "connector",
+    "BT": "battery",
 }
 
 NO_CONNECT = re.compile(r"^(|N/?C|NO_?CONNECT|UNCONNECTED.*)$", re.I)
@@ -45,9 +51,53 @@ def component_kind(ref: str, pad_count: int) -> str:
     letters = m.group(0).upper() if m else ""
     if letters in _PREFIX_KINDS:
         return _PREFIX_KINDS[letters]
+    # CIN1, COUT2, RSNS1: a longer designator that starts with a known prefix
+    for n in range(len(letters) - 1, 0, -1):
+        kind = _PREFIX_KINDS.get(letters[:n])
+        if kind is not None and letters[:n] in ("CIN", "COUT", "RSNS", "RSENSE", "RSEN", "RS", "CR", "TR"):
+            return kind
+    # CB1 (a bootstrap capacitor), RG2, QH1: an unknown longer prefix read by its first letter
+    # where the pin count fits (two pins for passives and diodes)
+    first = letters[:1]
+    if first in ("C", "R", "L", "D") and pad_count == 2:
+        return _PREFIX_KINDS[first]
+    if first in ("Q", "U"):
+        return _PREFIX_KINDS[first] if first == "U" or pad_count >= 3 else "other"
     if pad_count >= 5:
         return "ic"
     return "other"
+
+
+_PACKAGE = re.compile(r"(?<![0-9])(01005|0201|0402|0603|0805|1008|1206|1210|1812|2010|2512|2520|2016|1616)(?![0-9])")
+_RATING = re.compile(r"^\d+(\.\d+)?(V|A|W|%)$", re.I)
+
+
+def package_in(text: str | None) -> str | None:
+    """``C_0402_100nf_X7R`` -> ``0402``; None when the text names no chip size."""
+    m = _PACKAGE.search(text or "")
+    return m.group(1) if m else None
+
+
+def value_in(text: str | None) -> float | None:
+    """A part value in SI units from a value as written (``4u7``, ``10uF``) or a footprint-style
+    value (``L_0805_2u2`` -> 2.2e-6, ``C_0402_100nf_X7R`` -> 1e-7); ratings (``50V``) and chip
+    sizes are skipped. None when there is none.
+
+    >>> value_in("L_0805_2u2"), value_in("4.7uF 50V"), value_in("0R1")
+    (2.2e-06, 4.7e-06, 0.1)
+    """
+    if text is None:
+        return None
+    whole = parse_value(text)
+    if whole is not None:
+        return whole
+    for token in re.split(r"[\s_/,]+", str(text)):
+        if not token or _PACKAGE.fullmatch(token) or _RATING.match(token) or len(token) < 2:
+            continue
+        v = parse_value(token)
+        if v is not None:
+            return v
+    return None
 
 
 @dataclass
@@ -75,7 +125,12 @@ class Part:
 
     @property
     def value_si(self) -> float | None:
-        return parse_value(self.value)
+        return value_in(self.value)
+
+    @property
+    def package(self) -> str | None:
+        """The imperial chip size (``0402``, ``0805`` ...) its value or footprint names, if any."""
+        return package_in(self.value)
 
     @property
     def center(self) -> tuple[float, float]:

@@ -7,6 +7,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from ..board import Pad
+from .evidence import (Clue, bootstrap_caps, feedback_divider, inductor_class,
+                       is_bootstrap_net, load_only_far_end, other_ics, pin_weight, rail_sources, rail_voltage,
+                       transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
 
 # --------------------------------------------------------------------------------------------
@@ -59,7 +62,7 @@ class TopologyMixin:
             return 0.0, "", []
         # a switch node carries no capacitor to a rail (a bootstrap capacitor to an IC pin is fine)
         caps = nl.on(net, "capacitor")
-        boot = [c for c in caps if len(c.nets) == 2 and self._bootstrap_net(next(iter(c.nets - {net})), c)]
+        boot = bootstrap_caps(nl, net)
         if boot:
             score += 0.5
             ev.append(f"bootstrap-like capacitor {boot[0].ref} to an IC pin")
@@ -79,10 +82,7 @@ class TopologyMixin:
         return score, kind, ev
 
     def _bootstrap_net(self, net: str, cap: Part) -> bool:
-        """The far net of a bootstrap capacitor: only that capacitor, IC pins and perhaps a diode."""
-        parts = self.nl.on(net)
-        return (any(p.kind == "ic" for p in parts) and
-                all(p is cap or p.kind in ("ic", "diode", "resistor") for p in parts))
+        return is_bootstrap_net(self.nl, net, cap)
 
     def candidates(self) -> list[tuple[str, Part, str, float, list[str]]]:
         """(switch node, inductor, switching kind, score, evidence) per inductor, best end."""
@@ -99,6 +99,10 @@ class TopologyMixin:
                 # the inductor's other end must reach a rail (capacitors or a connector)
                 other = next(iter(ind.nets - {best[0]}))
                 rail, _ = self._resolve_rail(other, {best[0]})
+                why_not = self._not_a_converter(best[0], ind, best[2], other, rail)
+                if why_not:
+                    self.messages.append(f"{ind.ref}: net {best[0]} is not taken as a switch node: {why_not}")
+                    continue
                 if self.nl.is_railish(rail):
                     out.append(best)
         # a net where a transistor meets only IC pins is not a switch node when that transistor
@@ -114,6 +118,25 @@ class TopologyMixin:
                 continue
             kept.append(cand)
         return kept
+
+    def _not_a_converter(self, sw: str, ind: Part, kind: str, far: str, rail: str) -> str:
+        """Why an inductor on a switching net is not a buck/boost/buck-boost inductor, or ""."""
+        nl = self.nl
+        cls, why = inductor_class(nl, ind, far)
+        if cls == "rf":
+            return "; ".join(why)
+        only_ic = kind == "integrated" and not nl.on(sw, "diode") and not nl.on(sw, "transistor")
+        if cls == "unknown" and why and only_ic and not bootstrap_caps(nl, sw):
+            # a small inductor on a bare IC pin: an RF matching or filter part; a converter's
+            # inductor is larger, or its IC has a bootstrap capacitor or an external rectifier
+            return "; ".join(why) + " on a bare IC pin: an RF matching or filter inductor, not a power inductor"
+        if transformers_on(nl, sw) or transformers_on(nl, far) or transformers_on(nl, rail):
+            return ("a transformer winding on its nets: an isolated (half-bridge, resonant or flyback) "
+                    "stage, reported as such")
+        if load_only_far_end(nl, rail) and not nl.on(sw, "diode"):
+            return (f"its far end {rail} reaches a connector and no capacitor: it drives a load (a motor, "
+                    "a heater, a coil), it does not feed a converter's rail")
+        return ""
 
     # -- helpers ------------------------------------------------------------------------------
     def _resolve_rail(self, net: str, exclude: set[str]) -> tuple[str, Part | None]:
@@ -262,10 +285,87 @@ class TopologyMixin:
         return (bool(INPUT_NAMES.search(net)) and not OUTPUT_NAMES.search(net),
                 bool(nl.on(net, "ic")), bool(nl.on(net, "connector")), -bool(OUTPUT_NAMES.search(net)), net)
 
-    def _buck_or_boost(self, x_rail: str, other_rails: list[str], sw: str) -> tuple[str, str, float]:
+    def _own_parts(self, sw: str) -> set[str]:
+        """The stage's own parts seen from its switch node: what switches there and the ICs that
+        drive those switches' gates."""
+        nl = self.nl
+        own = {p.ref for p in nl.on(sw) if p.kind in ("ic", "transistor", "diode", "inductor")}
+        for t in nl.on(sw, "transistor"):
+            for n in t.nets - {sw}:
+                own |= {p.ref for p in nl.on(n, "ic")}
+        return own
+
+    def _power_rail(self, ic: Part, nets: list[str]) -> str | None:
+        """Among an IC's rails, the one its power pins sit on: the most pins, the most pad area,
+        then the most capacitors (power pins are many and wide)."""
+        if not nets:
+            return None
+        own = {ic.ref}
+        return max(nets, key=lambda n: (bool(rail_sources(self.nl, n, own)), pin_weight(ic, n),
+                                        len(self.nl.on(n, "capacitor")), self._input_likeness(n)))
+
+    def _buck_or_boost_clues(self, x_rail: str, other: str | None, sw: str, ground: str | None) -> list[Clue]:
+        """The clues that tell a buck (input ``other``, output ``x_rail``) from a boost (input
+        ``x_rail``, output ``other``) when the switches alone cannot (a synchronous pair, or
+        switches inside an IC)."""
+        nl = self.nl
+        clues: list[Clue] = []
+        if other is None:
+            return clues
+        own = self._own_parts(sw)
+        # voltages in the rail names, compared as numbers: a buck's input is the higher
+        vx, vo = rail_voltage(x_rail), rail_voltage(other)
+        if vx is not None and vo is not None and abs(vx) != abs(vo):
+            says = "buck" if abs(vo) > abs(vx) else "boost"
+            clues.append(Clue(says, 3.0, f"rail names: {other} {vo:g} V, {x_rail} (the inductor's far end) {vx:g} V"))
+        # a rail made by another stage is this stage's input
+        produced = getattr(self, "_produced", {})
+        for net, says in ((other, "buck"), (x_rail, "boost")):
+            if net in produced and produced[net] != sw:
+                clues.append(Clue(says, 2.0, f"{net} is the output of the stage at {produced[net]}: an input here"))
+        # a rail nothing else can feed (only this stage's parts, capacitors, resistors) is an output
+        for net, says in ((x_rail, "buck"), (other, "boost")):
+            if not rail_sources(nl, net, own):
+                clues.append(Clue(says, 2.0, f"nothing but this stage feeds {net}: it is the output"))
+        # the feedback divider sits on the regulated output
+        ics = [nl.parts[r] for r in sorted(own) if nl.parts[r].kind == "ic"]
+        for net, says in ((x_rail, "buck"), (other, "boost")):
+            div = next(((ic, d) for ic in ics for d in [feedback_divider(nl, net, ic, ground)] if d), None)
+            if div:
+                ic, (top, bottom) = div
+                clues.append(Clue(says, 1.5, f"feedback divider {top.ref}/{bottom.ref} from {net} to "
+                                             f"{ic.ref}: {net} is the regulated output"))
+        # a bootstrap capacitor: a high-side N-channel switch, most often a buck's
+        boot = bootstrap_caps(nl, sw)
+        if boot:
+            clues.append(Clue("buck", 1.0, f"bootstrap capacitor {boot[0].ref} from {sw} to an IC pin: a "
+                                           "high-side switch (a buck's, or a synchronous boost's rectifier)"))
+        # usual names
+        if INPUT_NAMES.search(other) and not OUTPUT_NAMES.search(other):
+            clues.append(Clue("buck", 1.5, f"net name {other!r} is a usual input name"))
+        if OUTPUT_NAMES.search(x_rail):
+            clues.append(Clue("buck", 1.5, f"net name {x_rail!r} is a usual output name"))
+        if INPUT_NAMES.search(x_rail) and not OUTPUT_NAMES.search(x_rail) and rail_voltage(x_rail) is None:
+            clues.append(Clue("boost", 1.5, f"net name {x_rail!r} is a usual input name"))
+        if OUTPUT_NAMES.search(other):
+            clues.append(Clue("boost", 1.5, f"net name {other!r} is a usual output name"))
+        # connectors bring the input; other ICs hang on the output as loads (weak: both ways happen)
+        cx, co = bool(nl.on(x_rail, "connector") or nl.on(x_rail, "battery")), bool(
+            nl.on(other, "connector") or nl.on(other, "battery"))
+        if cx != co:
+            says = "boost" if cx else "buck"
+            clues.append(Clue(says, 0.5, f"a connector or battery on {x_rail if cx else other} only: the input"))
+        lx, lo = len(other_ics(nl, x_rail, own)), len(other_ics(nl, other, own))
+        if lx != lo:
+            says = "buck" if lx > lo else "boost"
+            clues.append(Clue(says, 0.5, f"other ICs: {lx} on {x_rail}, {lo} on {other}: loads hang on the output"))
+        return clues
+
+    def _buck_or_boost(self, x_rail: str, other_rails: list[str], sw: str,
+                       ground: str | None = None) -> tuple[str, str, float]:
         """A synchronous pair (or integrated switches) cannot tell buck from boost by topology:
-        decide from the operating point, then net names, then which rail feeds other ICs (the
-        loads hang on the output)."""
+        the operating point in the project file decides; else the clues are added up
+        (:meth:`_buck_or_boost_clues`) and the confidence says by how much one side won."""
         other = other_rails[0] if other_rails else None
         op = self.project.operating_point or {}
         vout = op.get("vout_v")
@@ -277,27 +377,13 @@ class TopologyMixin:
                 return "boost", f"vout_v {vout} above vin_v in loopcheck.toml", 0.9
             if vout < vmin:
                 return "buck", f"vout_v {vout} below vin_v in loopcheck.toml", 0.9
-        if OUTPUT_NAMES.search(x_rail) or (other and INPUT_NAMES.search(other) and not OUTPUT_NAMES.search(other)):
-            return "buck", f"net names: inductor to {x_rail}, switch from {other}", 0.8
-        if INPUT_NAMES.search(x_rail) or (other and OUTPUT_NAMES.search(other)):
-            return "boost", f"net names: inductor from {x_rail}, rectifier to {other}", 0.8
-        own = {p.ref for p in self.nl.on(sw, "ic")}
-        gate_ics = set()
-        for t in self.nl.on(sw, "transistor"):
-            for n in t.nets - {sw}:
-                gate_ics |= {p.ref for p in self.nl.on(n, "ic")}
-        own |= gate_ics
-
-        def loads(net):
-            return {p.ref for p in self.nl.on(net, "ic")} - own
-
-        if other and len(loads(x_rail)) != len(loads(other)):
-            if len(loads(x_rail)) > len(loads(other)):
-                return "buck", (f"{x_rail} (the inductor's far end) feeds {len(loads(x_rail))} other IC(s), "
-                                f"{other} {len(loads(other))}: the loads hang on the output"), 0.7
-            return "boost", (f"{other} feeds {len(loads(other))} other IC(s), {x_rail} (the inductor's far end) "
-                             f"{len(loads(x_rail))}: the loads hang on the output"), 0.7
-        if other and self.nl.on(other, "ic") and not self.nl.on(x_rail, "ic"):
-            return "buck", f"{other} feeds an IC pin, {x_rail} does not", 0.6
-        return "buck", ("assumed buck: a synchronous pair or switches inside an IC read the same as a "
-                        "boost from the netlist; name topology in loopcheck.toml to be sure"), 0.5
+        clues = self._buck_or_boost_clues(x_rail, other, sw, ground)
+        buck = sum(c.weight for c in clues if c.says == "buck")
+        boost = sum(c.weight for c in clues if c.says == "boost")
+        why = "; ".join(f"{c.says} +{c.weight:g}: {c.why}" for c in clues)
+        if buck == boost:
+            return "buck", ("assumed buck: a synchronous pair or switches inside an IC read the same as a "
+                            "boost from the netlist" + (f" ({why})" if why else "")), 0.5
+        topology = "buck" if buck > boost else "boost"
+        conf = round(min(0.95, 0.5 + 0.1 * abs(buck - boost)), 2)
+        return topology, f"clues {buck:g} buck / {boost:g} boost: {why}", conf
