@@ -163,5 +163,12 @@ def analyse(board: Board, project: Any) -> Analysis:
     values, _ = component_values(board, project)
     ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None)
     for stage in analysis.stages:
-        analysis.measurements += measure_stage(ctx, stage, analysis.timings_s)
+        if stage.not_measured:      # a topology loopcheck does not model: listed, said, not measured
+            analysis.measurements += [not_made(q, stage, stage.not_measured) for q in all_quantities()]
+            continue
+        made = measure_stage(ctx, stage, analysis.timings_s)
+        if stage.unsure:            # each measurement says what it rests on
+            for m in made:
+                m.assumptions = tuple(m.assumptions) + (f"rests on an unsure stage: {'; '.join(stage.unsure)}",)
+        analysis.measurements += made
     return analysis

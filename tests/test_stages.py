@@ -153,7 +153,7 @@ def test_synchronous_buck():
     # topology from several clues: the rail names' voltages (12 V in, 5 V out, compared as numbers),
     # the feedback divider R1/R2 on 5V and the bootstrap capacitor CB (behaviour change: names
     # with voltages were not read before, and the confidence was at most 0.9)
-    assert st.confidence >= 0.9
+    assert st.confidence >= 0.7 and not st.unsure
 
 
 def test_synchronous_pair_topology_from_operating_point():

@@ -75,6 +75,8 @@ class CheckResult:
                     by_reason.setdefault(f"{where}{m.not_made or 'no reason given'}", []).append(m.label)
             for reason, labels in by_reason.items():
                 out.append(f"not made ({reason}): " + ", ".join(dict.fromkeys(labels)))
+        # a stage resting on weak evidence is never a clean pass: say what would settle it
+        out += [st.unsure_text() for st in a.stages if getattr(st, "unsure", None)]
         return out
 
     @property

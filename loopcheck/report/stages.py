@@ -35,6 +35,10 @@ def stages_data(board_name: str, search: StageSearch) -> dict[str, Any]:
                        "confidence": r.confidence, "evidence": r.evidence} for r in st.roles],
             "hot_loop": list(st.hot_loop),
             "missing": list(st.missing),
+            "evidence": list(st.evidence),
+            "unsure": list(st.unsure),
+            "confirm_lines": list(st.confirm_lines),
+            "not_measured": st.not_measured or None,
             "operating_point": {f.name: getattr(op, f.name) for f in fields(OperatingPoint) if f.name != "sources"},
             "operating_point_sources": dict(op.sources),
         })
@@ -80,6 +84,13 @@ def render_text(board_name: str, search: StageSearch) -> str:
             lines.append("  hot loop: not found")
         for m in st.missing:
             lines.append(f"  missing: {m}")
+        if st.not_measured:
+            lines.append(f"  not measured: {st.not_measured}")
+        for u in st.unsure:
+            lines.append(f"  unsure: {u}")
+        if st.confirm_lines:
+            lines.append("  confirm or correct in loopcheck.toml (stages --write-project writes these):")
+            lines += [f"    {x}" for x in st.confirm_lines]
         lines.append("  operating point: " + _op_text(st.operating_point))
     if search.messages:
         lines.append("")
@@ -148,7 +159,13 @@ def project_text(project, board, search: StageSearch, path: Path) -> str:
 
 def _stage_lines(stage: Stage) -> list[str]:
     name = _key(stage.name)
+    if stage.not_measured:
+        # a topology the project file cannot name (it is not measured): listed for the reader only
+        return [f"# {stage.name}: {stage.topology} at {stage.switch_node} "
+                f"({', '.join(r.ref for r in stage.roles)}): not measured", ""]
     out = [f"[stages.{name}]", f"topology = {_value(stage.topology)}"]
+    for u in stage.unsure:
+        out.append(f"# unsure: {u}: check it against the schematic")
     single = ("switch", "rectifier", "inductor", "sense_resistor", "controller", "controller_decoupling")
     for role in single:
         r = stage.role(role)

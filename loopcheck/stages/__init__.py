@@ -33,11 +33,12 @@ from ..powerstage import Stage
 from ..project import Project
 from ..values import parse_value
 from .detect import Detector
-from .netlist import Netlist, Part, component_kind
+from .netlist import Netlist, Part, component_kind, package_in, value_in
 from .operating import check_operating_point, operating_point, operating_point_assumptions
 
 __all__ = ["StageSearch", "find_stages", "component_values", "component_kind", "operating_point",
-           "check_operating_point", "operating_point_assumptions", "parse_value", "Part", "Netlist"]
+           "check_operating_point", "operating_point_assumptions", "parse_value", "value_in", "package_in",
+           "Part", "Netlist"]
 
 
 @dataclass
@@ -79,7 +80,7 @@ def find_stages(board: Board, project: Project) -> StageSearch:
         op = stage.operating_point
         sense = stage.role("sense_resistor")
         if sense is not None and op.vsense_v is None:
-            r = parse_value(values.get(sense.ref))
+            r = value_in(values.get(sense.ref))
             if r is not None and r > 0:
                 op.vsense_v = r * op.iout_a
                 op.sources["vsense_v"] = f"{sense.ref} value {values[sense.ref]} x iout_a"

@@ -3,16 +3,21 @@ named stages matched to what was found."""
 
 from __future__ import annotations
 
+import re
 from typing import Any
 
 from ..board import Board
 from ..powerstage import Role, Stage
 from ..project import Project
 from .loops import LoopsMixin
-from .evidence import bootstrap_nets
+from .evidence import bootstrap_nets, led_string_nets
 from .netlist import GROUND_NAMES, SWITCH_NODE_NAMES, Netlist, Part
 from .roles import _LIST_KEYS, _REF_KEYS, RolesMixin, _project_error, _validate_spec
 from .topology import TopologyMixin, _Element
+
+
+def _toml_key(name: str) -> str:
+    return name if re.fullmatch(r"[A-Za-z0-9_-]+", name) else '"' + name.replace('"', '\\"') + '"'
 
 
 class Detector(TopologyMixin, RolesMixin, LoopsMixin):
@@ -22,6 +27,7 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
         self.nl = Netlist(board, values)
         self.path = str(project.path) if project.path else None
         self.messages: list[str] = []
+        self._produced: dict[str, str] = {}   # rail -> the switch node of the stage that makes it
         self._floating = False           # the stage being built is a low-side (floating) buck
         self._across: str | None = None  # ... and its load capacitor's input-side net
 
@@ -241,6 +247,8 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
         power_nets = {n for n in [x_net, x_rail, input_net, output_net, ground, self._across] if n}
         for e in transistors + diodes:
             power_nets |= {n for n in (e.rail, e.rail_pin_net) if n}
+        # an LED string carries the output current: the nets along it are power nets too
+        power_nets |= led_string_nets(nl, [n for n in (output_net, input_net) if n])
         series = [v for v in [x_via] + [e.rail_via for e in transistors + diodes] if v is not None]
         sense = self._sense(controller, power_nets, series, fixed, stage, exclude=named)
         if sense is not None:
@@ -268,8 +276,61 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
         if conf and ground and GROUND_NAMES.match(ground):
             conf += 0.05
         stage.confidence = round(min(conf, 1.0), 2)
-        stage_ev = "; ".join(sw_evidence + ([f"topology {stage.topology}: {topo_ev}"] if topo_ev else []))
+        stage.evidence = sw_evidence + ([f"topology {stage.topology}: {topo_ev}"] if topo_ev else [])
+        stage_ev = "; ".join(stage.evidence)
         self.messages.append(f"{name}: {stage.topology} ({switching}) at switch node {sw}: {stage_ev}")
+        self._mark_unsure(stage, inductor, topo_conf, g_conf, fixed)
+        return stage
+
+    # what rests on weak evidence: below this confidence a topology or ground is "unsure"
+    SURE = 0.7
+
+    def _mark_unsure(self, stage: Stage, inductor: Part, topo_conf: float, g_conf: float,
+                     fixed: dict[str, Any]) -> None:
+        """Name what rests on weak evidence and the project-file lines that would settle it."""
+        unsure = []
+        if "topology" not in fixed and topo_conf < self.SURE:
+            unsure.append(f"topology {stage.topology} rests on weak evidence (confidence {topo_conf:.2f})")
+        if "ground_net" not in fixed and stage.ground_net and g_conf < self.SURE:
+            unsure.append(f"ground {stage.ground_net} rests on weak evidence (confidence {g_conf:.2f})")
+        if not unsure and stage.confidence < 0.6:
+            unsure.append(f"stage confidence {stage.confidence:.2f}")
+        if not unsure:
+            return
+        stage.unsure = unsure
+        lines = [f"[stages.{_toml_key(stage.name)}]", f'topology = "{stage.topology}"',
+                 f'switch_node = "{stage.switch_node}"', f'inductor = "{inductor.ref}"']
+        for key in ("input_net", "output_net", "ground_net"):
+            v = getattr(stage, key)
+            if v:
+                lines.append(f'{key} = "{v}"')
+        stage.confirm_lines = lines
+        self.messages.append(stage.unsure_text())
+
+    def build_unmeasured(self, name: str, t: Part, topology: str, sw: str, switches: list[Part],
+                         series: list[Part], evidence: list[str]) -> Stage:
+        """A transformer stage, listed with its parts and marked not measured."""
+        nl = self.nl
+        kinds = {p.kind for p in switches}
+        switching = ("integrated" if kinds == {"ic"} else "synchronous" if len(switches) >= 2 else "discrete")
+        rails = sorted({n for p in switches for n in p.nets if n != sw and nl.is_railish(n)})
+        ground, _, _ = self._ground_of(rails, None)
+        stage = Stage(name=name, topology=topology, switching=switching, switch_node=sw, input_net=None,
+                      output_net=None, ground_net=ground, confidence=0.8)
+        for i, p in enumerate(switches):
+            stage.roles.append(Role("switch" if i == 0 else "rectifier", p.ref, p.terminals_on(sw), 0.8,
+                                    f"{p.ref} has a pin on {sw}"))
+        stage.roles.append(Role("transformer", t.ref, tuple(q.terminal for q in t.pads), 0.9,
+                                f"transformer {t.ref} (T prefix) with a winding on the switching side"))
+        for p in series:
+            stage.roles.append(Role("inductor" if p.kind == "inductor" else "output_cap", p.ref,
+                                    tuple(q.terminal for q in p.pads), 0.7,
+                                    f"{p.ref} in series between {sw} and {t.ref}: the resonant tank"))
+        stage.evidence = list(evidence)
+        stage.not_measured = (f"a {topology} stage: loopcheck measures buck, boost and buck-boost stages only; "
+                              f"its parts are listed ({', '.join(r.ref for r in stage.roles)}), its loops and "
+                              "current paths were not measured")
+        self.messages.append(f"{name}: {topology} ({switching}) at {sw}: {'; '.join(evidence)}; not measured")
         return stage
 
     def run(self) -> list[Stage]:
@@ -307,15 +368,28 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
                 assigned[idx] = spec.name
                 free.remove(idx)
                 unassigned_specs.remove(spec)
-        for i, (sw, ind, kind, score, ev) in enumerate(cands):
-            name = assigned.get(i, f"stage{i + 1}")
-            fixed = fixed_by_spec.get(name, {}) if i in assigned else {}
-            if "switch_node" in fixed:
-                sw = fixed["switch_node"]
-            if "inductor" in fixed:
-                ind = nl.parts[fixed["inductor"]]
-            stages.append(self.build(name, sw, ind, kind, ev, fixed))
-            used_specs.add(name)
+        def build_all() -> list[Stage]:
+            out = []
+            for i, (sw, ind, kind, score, ev) in enumerate(cands):
+                name = assigned.get(i, f"stage{i + 1}")
+                fixed = fixed_by_spec.get(name, {}) if i in assigned else {}
+                if "switch_node" in fixed:
+                    sw = fixed["switch_node"]
+                if "inductor" in fixed:
+                    ind = nl.parts[fixed["inductor"]]
+                out.append(self.build(name, sw, ind, kind, ev, fixed))
+                used_specs.add(name)
+            return out
+
+        if len(cands) > 1:
+            # two passes: a rail that one stage surely makes is an input to the others
+            # (evidence.rail_sources and the "output of another stage" clue)
+            keep = len(self.messages)
+            first = build_all()
+            del self.messages[keep:]
+            self._produced = {st.output_net: st.switch_node for st in first
+                              if st.output_net and not st.unsure}
+        stages += build_all()
         for spec in unassigned_specs:
             f = fixed_by_spec[spec.name]
             sw, ind = f.get("switch_node"), f.get("inductor")
@@ -343,5 +417,14 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
                                      f"stages.{spec.name}.switch_node: net {sw!r} does not touch the inductor "
                                      f"{ind_part.ref}")
             stages.append(self.build(spec.name, sw, ind_part, "", ["named in loopcheck.toml"], f))
+        taken = {s.name for s in stages}
+        n = len(stages)
+        for t, topology, sw, switches, series, ev in self.isolated_candidates():
+            if any(s.switch_node == sw for s in stages):
+                continue
+            n += 1
+            while f"stage{n}" in taken:
+                n += 1
+            stages.append(self.build_unmeasured(f"stage{n}", t, topology, sw, switches, series, ev))
         return stages
 

@@ -205,6 +205,19 @@ def rail_sources(nl: Netlist, net: str, own: set[str]) -> list[str]:
     return out
 
 
+def power_connectors(nl: Netlist, net: str, ground: str | None) -> list[str]:
+    """Connectors, batteries and parts of unknown kind (a ``PWR`` jack) on ``net`` with at most
+    three connected nets, one of them ground (or only two nets): where power comes in or goes out.
+    A many-pin header that also carries the rail is an I/O header, not a power entry."""
+    out = []
+    for p in nl.on(net):
+        if p.kind not in ("connector", "battery", "other"):
+            continue
+        if len(p.nets) <= 2 or (len(p.nets) <= 3 and ground in p.nets):
+            out.append(p.ref)
+    return out
+
+
 def other_ics(nl: Netlist, net: str, own: set[str]) -> list[str]:
     """ICs with a pin on ``net`` other than the stage's own."""
     return [p.ref for p in nl.on(net, "ic") if p.ref not in own]
@@ -223,3 +236,20 @@ def load_only_far_end(nl: Netlist, far_net: str) -> bool:
 def transformers_on(nl: Netlist, net: str) -> list[Part]:
     """Transformers with a winding terminal on ``net``."""
     return nl.on(net, "transformer")
+
+
+def led_string_nets(nl: Netlist, start: list[str], limit: int = 64) -> set[str]:
+    """The nets along LED strings that hang on the ``start`` rails: LEDs (two-net parts of kind
+    "led") followed from net to net. An LED driver's sense resistor sits at the string's end."""
+    seen: set[str] = set()
+    todo = [n for n in start if n]
+    while todo and len(seen) < limit:
+        net = todo.pop()
+        for p in nl.on(net, "led"):
+            if len(p.nets) != 2:
+                continue
+            far = next(iter(p.nets - {net}))
+            if far not in seen and far not in start:
+                seen.add(far)
+                todo.append(far)
+    return seen

@@ -273,18 +273,24 @@ class RolesMixin:
         if controller is None:
             return None
         best = None
-        # only resistors on the controller's own nets can have both nets reach its pins
-        near = {r.ref: r for net in sorted(controller.nets) for r in nl.on(net, "resistor")}
-        for r in near.values():
+        # the sense resistor lies in the power path (both its nets power nets) and each of its
+        # nets reaches a controller pin, directly or through one series resistor (the RC filter
+        # of a peak-current-mode controller's sense input)
+        near = {r.ref: r for net in sorted(power_nets) for r in nl.on(net, "resistor")}
+        for r in sorted(near.values(), key=lambda p: p.ref):
             if len(r.nets) != 2 or r.ref in exclude:
                 continue
             a, b = sorted(r.nets)
-            if not (controller.terminals_on(a) and controller.terminals_on(b)):
-                continue
             if not (a in power_nets and b in power_nets):
                 continue
+            reach = {n: self._sense_reach(controller, r, n, power_nets) for n in (a, b)}
+            if not all(reach.values()):
+                continue
+            filters = {n: f for n, (_, f) in reach.items() if f is not None}
             conf, ev = 0.7, [f"resistor in the power path between {a} and {b}, both nets reach "
                              f"{controller.ref} pins"]
+            for n, f in filters.items():
+                ev.append(f"{n} reaches {controller.ref} through {f.ref} (an RC filter on the sense input)")
             if r in series:
                 conf += 0.15
                 ev.append("in series with the inductor or switch")
@@ -293,20 +299,48 @@ class RolesMixin:
                 if v <= 1.0:
                     conf += 0.1
                     ev.append(f"value {r.value} is a sense-resistor value")
+                elif v <= 10.0:
+                    ev.append(f"value {r.value} suits a low-current (LED string) sense resistor")
                 else:
                     conf -= 0.4
                     ev.append(f"value {r.value} is high for a sense resistor")
+                for f in filters.values():
+                    fv = f.value_si
+                    if fv is not None and v is not None and fv <= v:
+                        conf -= 0.2
+                        ev.append(f"the filter resistor {f.ref} ({f.value}) is not larger than it")
             if r.ref.upper().startswith("RS"):
                 conf += 0.05
-            cand = (min(conf, 1.0), r, ev)
+            cand = (min(conf, 1.0), r, ev, {n: t for n, (t, _) in reach.items()}, filters)
             if best is None or cand[0] > best[0]:
                 best = cand
         if best is None or best[0] < 0.5:
             return None
-        return self._sense_role(best[1], controller, round(best[0], 2), best[2], stage)
+        role = self._sense_role(best[1], controller, round(best[0], 2), best[2], stage, reach=best[3])
+        if best[4]:
+            role.pins["filter"] = tuple(t for f in best[4].values() for t in (p.terminal for p in f.pads))
+        return role
+
+    def _sense_reach(self, controller: Part, r: Part, net: str,
+                     power_nets: set[str]) -> tuple[tuple[str, ...], Part | None] | None:
+        """How ``net`` (one end of a sense-resistor candidate) reaches the controller: its pins on
+        the net, else through one series resistor to a signal net with a controller pin. None: not."""
+        direct = controller.terminals_on(net)
+        if direct:
+            return direct, None
+        for f in self.nl.on(net, "resistor"):
+            if f is r or len(f.nets) != 2:
+                continue
+            m = next(iter(f.nets - {net}))
+            if m in power_nets:
+                continue
+            t = controller.terminals_on(m)
+            if t:
+                return t, f
+        return None
 
     def _sense_role(self, r: Part, controller: Part | None, conf: float, ev: list[str],
-                    stage: Stage | None = None) -> Role:
+                    stage: Stage | None = None, reach: dict[str, tuple[str, ...]] | None = None) -> Role:
         a, b = sorted(r.nets)
         # order: the end the current enters first (sense+): the input rail before anything, the
         # inductor side before the output, anything before ground
@@ -325,7 +359,9 @@ class RolesMixin:
             a, b = b, a
         pins = {"sense+": (), "sense-": ()}
         if controller is not None:
-            pins = {"sense+": controller.terminals_on(a), "sense-": controller.terminals_on(b)}
+            reach = reach or {}
+            pins = {"sense+": reach.get(a) or controller.terminals_on(a),
+                    "sense-": reach.get(b) or controller.terminals_on(b)}
         return Role("sense_resistor", r.ref, r.terminals_on(a) + r.terminals_on(b), conf, "; ".join(ev),
                     pins=pins)
 

@@ -4,11 +4,12 @@ Each decision keeps its evidence (see :mod:`loopcheck.stages.evidence` for the c
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 from ..board import Pad
 from .evidence import (Clue, bootstrap_caps, feedback_divider, inductor_class,
-                       is_bootstrap_net, load_only_far_end, other_ics, pin_weight, rail_sources, rail_voltage,
+                       is_bootstrap_net, load_only_far_end, power_connectors, other_ics, pin_weight, rail_sources, rail_voltage,
                        transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
 
@@ -119,6 +120,51 @@ class TopologyMixin:
             kept.append(cand)
         return kept
 
+    def isolated_candidates(self) -> list[tuple[Part, str, str, list[Part], list[Part], list[str]]]:
+        """Switching stages with a transformer, which loopcheck reports but does not measure:
+        (transformer, topology, switch node, switches, series L/C, evidence) per transformer.
+
+        - two transistors (or IC pins) on a net that reaches a transformer winding, directly:
+          ``half-bridge``; through a series inductor or capacitor: ``resonant``;
+        - one transistor or IC on a winding net whose winding's other nets reach a rail: ``flyback``
+          (a forward converter reads the same from the netlist: the evidence says so).
+        """
+        nl = self.nl
+        out = []
+        for t in sorted((p for p in nl.parts.values() if p.kind == "transformer"), key=lambda p: p.ref):
+            if len(t.nets) < 3:
+                continue
+            best = None
+            for net in sorted(t.nets):
+                if GROUND_NAMES.match(net):
+                    continue
+                reach = [(net, [])]
+                for p in nl.on(net):
+                    if p.kind in ("inductor", "capacitor") and len(p.nets) == 2:
+                        reach.append((next(iter(p.nets - {net})), [p]))
+                for sw, series in reach:
+                    sws = [p for p in nl.on(sw, "transistor") if len(p.nets) >= 2]
+                    ics = nl.on(sw, "ic")
+                    if len(sws) >= 2 or (ics and sws):
+                        kind = "resonant" if series else "half-bridge"
+                        ev = [f"{', '.join(p.ref for p in sws + ics)} switch {sw}"
+                              + (f", which reaches the winding of {t.ref} through {series[0].ref}" if series
+                                 else f", a winding of {t.ref}") + f": a {kind} stage"]
+                        cand = (3 if not series else 2.5, t, kind, sw, sws + ics, series, ev)
+                    elif (sws or ics) and not series:
+                        kind = "flyback"
+                        who = (sws or ics)[0]
+                        ev = [f"{who.ref} switches {sw}, a winding of {t.ref}, alone: a flyback stage (or a "
+                              "forward converter: the netlist reads the same)"]
+                        cand = (1, t, kind, sw, [who], [], ev)
+                    else:
+                        continue
+                    if best is None or cand[0] > best[0]:
+                        best = cand
+            if best is not None:
+                out.append(best[1:])
+        return out
+
     def _not_a_converter(self, sw: str, ind: Part, kind: str, far: str, rail: str) -> str:
         """Why an inductor on a switching net is not a buck/boost/buck-boost inductor, or ""."""
         nl = self.nl
@@ -140,18 +186,26 @@ class TopologyMixin:
 
     # -- helpers ------------------------------------------------------------------------------
     def _resolve_rail(self, net: str, exclude: set[str]) -> tuple[str, Part | None]:
-        """Follow a net with no capacitor or connector through one series resistor to a rail."""
+        """Follow a net with no capacitor or connector through one series resistor to a rail.
+        Of several such resistors, the one to the strongest rail (most capacitors and connectors;
+        then the lowest value): a sense resistor to ground, not its RC filter to the sense pin."""
         nl = self.nl
         if nl.is_railish(net):
             return net, None
+        best = None
         for r in nl.on(net, "resistor"):
             if len(r.nets) != 2:
                 continue
             other = next(iter(r.nets - {net}))
-            if other in exclude:
+            if other in exclude or not nl.is_railish(other):
                 continue
-            if nl.is_railish(other):
-                return other, r
+            v = r.value_si
+            key = (len(nl.on(other, "capacitor")) + 2 * len(nl.on(other, "connector")),
+                   -(v if v is not None else 1.0), r.ref)
+            if best is None or key > best[0]:
+                best = (key, other, r)
+        if best is not None:
+            return best[1], best[2]
         return net, None
 
     def _gate_and_rail(self, t: Part, sw: str) -> tuple[str | None, str | None, list[str]]:
@@ -313,11 +367,17 @@ class TopologyMixin:
         if other is None:
             return clues
         own = self._own_parts(sw)
-        # voltages in the rail names, compared as numbers: a buck's input is the higher
+        # voltages in the rail names, compared as numbers: the inductor's far end is the lower
+        # rail of a buck (its output) and of a boost (its input) alike, so the numbers check the
+        # rails found rather than choose between the two
         vx, vo = rail_voltage(x_rail), rail_voltage(other)
         if vx is not None and vo is not None and abs(vx) != abs(vo):
-            says = "buck" if abs(vo) > abs(vx) else "boost"
-            clues.append(Clue(says, 3.0, f"rail names: {other} {vo:g} V, {x_rail} (the inductor's far end) {vx:g} V"))
+            if abs(vx) < abs(vo):
+                clues.append(Clue("either", 0.0, f"rail names: {other} {vo:g} V above {x_rail} (the inductor's far "
+                                                 f"end) {vx:g} V, as in a buck from {other} or a boost to it"))
+            else:
+                clues.append(Clue("neither", 0.0, f"rail names: {x_rail} (the inductor's far end) {vx:g} V above "
+                                                  f"{other} {vo:g} V: neither a buck nor a boost between them"))
         # a rail made by another stage is this stage's input
         produced = getattr(self, "_produced", {})
         for net, says in ((other, "buck"), (x_rail, "boost")):
@@ -338,23 +398,27 @@ class TopologyMixin:
         # a bootstrap capacitor: a high-side N-channel switch, most often a buck's
         boot = bootstrap_caps(nl, sw)
         if boot:
-            clues.append(Clue("buck", 1.0, f"bootstrap capacitor {boot[0].ref} from {sw} to an IC pin: a "
+            # a transistor pair already says a high-side N switch is there; an IC's BST pin less so
+            pair = len(nl.on(sw, "transistor")) >= 2
+            clues.append(Clue("buck", 0.5 if pair else 1.0, f"bootstrap capacitor {boot[0].ref} from {sw} to an IC pin: a "
                                            "high-side switch (a buck's, or a synchronous boost's rectifier)"))
-        # usual names
-        if INPUT_NAMES.search(other) and not OUTPUT_NAMES.search(other):
+        # usual names (a bare voltage such as "+12V" names no direction)
+        def bare(n: str) -> bool:
+            return bool(re.fullmatch(r"[+-]?\d+([.,]\d+)?V\d*(IN)?", re.split(r"[/:]", n)[-1], re.I))
+
+        if INPUT_NAMES.search(other) and not OUTPUT_NAMES.search(other) and not bare(other):
             clues.append(Clue("buck", 1.5, f"net name {other!r} is a usual input name"))
         if OUTPUT_NAMES.search(x_rail):
             clues.append(Clue("buck", 1.5, f"net name {x_rail!r} is a usual output name"))
-        if INPUT_NAMES.search(x_rail) and not OUTPUT_NAMES.search(x_rail) and rail_voltage(x_rail) is None:
+        if INPUT_NAMES.search(x_rail) and not OUTPUT_NAMES.search(x_rail) and not bare(x_rail):
             clues.append(Clue("boost", 1.5, f"net name {x_rail!r} is a usual input name"))
         if OUTPUT_NAMES.search(other):
             clues.append(Clue("boost", 1.5, f"net name {other!r} is a usual output name"))
         # connectors bring the input; other ICs hang on the output as loads (weak: both ways happen)
-        cx, co = bool(nl.on(x_rail, "connector") or nl.on(x_rail, "battery")), bool(
-            nl.on(other, "connector") or nl.on(other, "battery"))
+        cx, co = bool(power_connectors(nl, x_rail, ground)), bool(power_connectors(nl, other, ground))
         if cx != co:
             says = "boost" if cx else "buck"
-            clues.append(Clue(says, 0.5, f"a connector or battery on {x_rail if cx else other} only: the input"))
+            clues.append(Clue(says, 1.0, f"a connector or battery on {x_rail if cx else other} only: the input"))
         lx, lo = len(other_ics(nl, x_rail, own)), len(other_ics(nl, other, own))
         if lx != lo:
             says = "buck" if lx > lo else "boost"
@@ -380,7 +444,7 @@ class TopologyMixin:
         clues = self._buck_or_boost_clues(x_rail, other, sw, ground)
         buck = sum(c.weight for c in clues if c.says == "buck")
         boost = sum(c.weight for c in clues if c.says == "boost")
-        why = "; ".join(f"{c.says} +{c.weight:g}: {c.why}" for c in clues)
+        why = "; ".join((f"{c.says} +{c.weight:g}: " if c.weight else "") + c.why for c in clues)
         if buck == boost:
             return "buck", ("assumed buck: a synchronous pair or switches inside an IC read the same as a "
                             "boost from the netlist" + (f" ({why})" if why else "")), 0.5
