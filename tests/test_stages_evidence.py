@@ -368,3 +368,40 @@ def test_unsure_stage_says_so_and_counts_as_incomplete():
 
     result = CheckResult(Analysis(board=b, integrity=[], stages=[st]), _Eval())
     assert any(g.startswith("stage1: unsure") for g in result.gaps)
+
+
+def test_bom_footprints_and_placement_sides(tmp_path):
+    """Grouped and ranged designators, a footprint column, and a placement file's sides."""
+    from loopcheck.readers.bom import read_bom_parts
+
+    bom = tmp_path / "bom.csv"
+    bom.write_text('Designator,Footprint,Quantity,Value\n"C1, C14, C15",0402,3,100n\nL1-L3,L_0805_2012Metric,3,2u2\n')
+    parts = read_bom_parts(bom)
+    assert parts.values == {"C1": "100n", "C14": "100n", "C15": "100n", "L1": "2u2", "L2": "2u2", "L3": "2u2"}
+    assert parts.footprints["C15"] == "0402" and parts.footprints["L2"] == "L_0805_2012Metric"
+    pos = tmp_path / "positions.csv"
+    pos.write_text("Designator,Mid X,Mid Y,Rotation,Layer\nC1,1.0,2.0,90.0,top\nL1,3,4,180,bottom\n")
+    place = read_bom_parts(pos, need_value=False)
+    assert place.sides == {"C1": "top", "L1": "bottom"} and place.rotations_deg["C1"] == 90.0
+    with pytest.raises(Exception):
+        read_bom_parts(pos)                       # not a BOM: no value column
+
+
+def test_package_from_the_bom_footprint_marks_an_rf_inductor():
+    b = board(RADIO)
+    b.component_packages = {"L1": "L_0402_1005Metric", "C2": "C_0402_1005Metric"}
+    b.component_values = {"C2": "8p2", "C3": "22p"}
+    nl = Netlist(b, b.component_values)
+    assert nl.parts["L1"].package == "0402"
+    assert E.inductor_class(nl, nl.parts["L1"], "RFOUT")[0] == "rf"
+
+
+@pytest.mark.skipif(not (Path(__file__).resolve().parents[2] / "shared" / "realboards").is_dir(),
+                    reason="../shared/realboards not present")
+def test_real_board_placement_file_is_read():
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    p = load_project(Path(__file__).resolve().parents[2] / "shared" / "realboards" / "led-boost-motionlight")
+    b = load_board(p)
+    assert b.component_packages.get("C1") == "1206" and b.component_sides.get("C1") == "bottom"

@@ -106,6 +106,7 @@ class Part:
     kind: str
     pads: list[Pad]
     value: str | None = None
+    footprint: str | None = None       # from a BOM or placement file, where one gives it
 
     def __post_init__(self):
         self._by_net: dict[str, list[Pad]] = {}
@@ -130,7 +131,7 @@ class Part:
     @property
     def package(self) -> str | None:
         """The imperial chip size (``0402``, ``0805`` ...) its value or footprint names, if any."""
-        return package_in(self.value)
+        return package_in(self.value) or package_in(self.footprint)
 
     @property
     def center(self) -> tuple[float, float]:
@@ -151,7 +152,8 @@ class Netlist:
             # unconnected pins ("" or N/C in IPC-D-356) join nothing
             joined = [p for p in pads if not NO_CONNECT.match(p.net)]
             if joined:
-                self.parts[ref] = Part(ref, component_kind(ref, len(pads)), joined, values.get(ref))
+                self.parts[ref] = Part(ref, component_kind(ref, len(pads)), joined, values.get(ref),
+                                       (board.component_packages or {}).get(ref))
         self.net_parts: dict[str, list[Part]] = {}
         for part in self.parts.values():
             for net in part.nets:
