@@ -405,3 +405,26 @@ def test_real_board_placement_file_is_read():
     p = load_project(Path(__file__).resolve().parents[2] / "shared" / "realboards" / "led-boost-motionlight")
     b = load_board(p)
     assert b.component_packages.get("C1") == "1206" and b.component_sides.get("C1") == "bottom"
+
+
+def test_snubber_and_bootstrap_resistor_keep_the_switch_node():
+    """An RC snubber from SW to ground and a bootstrap capacitor reaching BST through a resistor
+    are no rail capacitors: the integrated buck is still found, and still a buck."""
+    parts = dict(INT_BUCK)
+    parts["C2"] = [(1, "BR", 12, 13), (2, "SW", 12, 11)]
+    parts["R9"] = [(1, "BR", 13, 13), (2, "BST", 14, 13)]
+    parts["C9"] = [(1, "SW", 12, 8), (2, "SN", 12, 7)]
+    parts["R8"] = [(1, "SN", 13, 7), (2, "GND", 14, 7)]
+    nl = nl_of(parts)
+    assert [c.ref for c in E.bootstrap_caps(nl, "SW")] == ["C2"] and [c.ref for c in E.snubber_caps(nl, "SW")] == ["C9"]
+    st = find_stages(board(parts), project()).stages[0]
+    assert (st.topology, st.switch_node, st.input_net, st.output_net) == ("buck", "SW", "VIN", "VOUT")
+
+
+def test_inductor_leading_to_an_antenna_is_rf():
+    parts = dict(RADIO)
+    parts["L1"] = [(1, "PA", 10, 11, 0.8, 0.9), (2, "RFOUT", 11, 11, 0.8, 0.9)]     # 0603-size pads
+    parts["AE1"] = [(1, "ANT", 18, 11)]
+    del parts["J2"]
+    search = find_stages(board(parts), project())
+    assert search.stages == [] and any("antenna AE1" in m for m in search.messages)

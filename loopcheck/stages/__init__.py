@@ -15,9 +15,28 @@ Net names (SW, LX, GND, VIN ...) and part values raise confidence but are never 
 named in the project file (``[stages.NAME]``) win over what is found; contradictions there are an
 InputError naming the key.
 
+Whether a synchronous pair or an IC's own switches make a buck or a boost is weighed from several
+clues (:mod:`.evidence`): a bootstrap capacitor, what feeds each rail, a feedback divider, power
+connectors, the other ICs on each rail, usual names; a topology resting on weak evidence is
+marked unsure and names the ``loopcheck.toml`` lines that would settle it. RF matching inductors,
+load drives (motor H-bridges) and transformer stages are never bucks or boosts; transformer
+stages (half-bridge, resonant, flyback) are reported with their parts and not measured.
+
+The package follows the steps:
+
+    netlist.py    the netlist as parts: kinds (designator prefixes), pins, nets, values, packages
+    evidence.py   the clues, each a small function
+    topology.py   switch-node candidates, switch and rectifier, ground, buck/boost/buck-boost
+    roles.py      switch, rectifier, controller, capacitors, sense resistor, decoupling; the
+                  project file's roles checked against the board
+    loops.py      the hot loop's ordered terminals
+    detect.py     the Detector that runs these for each stage, and matches [stages.NAME]
+    operating.py  the operating point of each stage
+
 Assumptions, stated in the evidence where they are used:
-- component kinds come from reference-designator prefixes (Q/M/T transistor, D diode,
-  L inductor, C capacitor, R/RS resistor, U/IC IC, J/P/CN connector), else from pin counts;
+- component kinds come from reference-designator prefixes (Q/M/TR transistor, D/CR diode,
+  L inductor, FB ferrite, T transformer, C/CIN/COUT capacitor, R/RS/RSNS/RSENSE resistor,
+  U/IC/VR/PS IC, J/P/CN connector, BT battery, LED), else from pin counts;
 - a diode with numbered pins has pin 1 = cathode (the banded end on common two-terminal
   packages) unless the topology decides, which it does whenever the diode sits on the switch node;
 - a three-terminal transistor with numbered pins and no net evidence has pin 1 = gate;

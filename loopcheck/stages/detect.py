@@ -63,6 +63,7 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
             switching = "integrated"
 
         ic_rails: list[str] = []
+        self._rail_tie = None
         if switching == "integrated":
             ic = ics[0].part
             # a bootstrap capacitor's IC pin is never a rail (it rides on the switch node)
@@ -293,6 +294,11 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
             unsure.append(f"topology {stage.topology} rests on weak evidence (confidence {topo_conf:.2f})")
         if "ground_net" not in fixed and stage.ground_net and g_conf < self.SURE:
             unsure.append(f"ground {stage.ground_net} rests on weak evidence (confidence {g_conf:.2f})")
+        tie = getattr(self, "_rail_tie", None)
+        if tie and stage.switching == "integrated" and not ({"input_net", "output_net"} & set(fixed)):
+            which = "input" if stage.topology != "boost" else "output"
+            unsure.append(f"{which} rail {tie[0]} rests on weak evidence: {inductor.ref}'s IC holds {tie[1]} "
+                          "alike (pins, pad area, what feeds it)")
         if not unsure and stage.confidence < 0.6:
             unsure.append(f"stage confidence {stage.confidence:.2f}")
         if not unsure:

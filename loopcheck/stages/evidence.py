@@ -52,11 +52,56 @@ class Clue:
 
 def is_bootstrap_net(nl: Netlist, net: str, cap: Part) -> bool:
     """The far net of a bootstrap capacitor: only that capacitor, IC pins and perhaps a diode or
-    resistor (the external bootstrap diode, a series resistor that slows the edge)."""
+    resistor (the external bootstrap diode, a series resistor that slows the edge); or only the
+    capacitor and one resistor that leads to such an IC pin (the resistor between them)."""
+    if GROUND_NAMES.match(net):
+        return False
     parts = nl.on(net)
-    return (any(p.kind == "ic" for p in parts) and
-            all(p is cap or p.kind in ("ic", "diode", "resistor") for p in parts)
-            and not GROUND_NAMES.match(net))
+    if any(p.kind == "ic" for p in parts) and all(p is cap or p.kind in ("ic", "diode", "resistor") for p in parts):
+        return True
+    others = [p for p in parts if p is not cap]
+    if len(others) == 1 and others[0].kind == "resistor" and len(others[0].nets) == 2:
+        far = next(iter(others[0].nets - {net}))
+        far_parts = [p for p in nl.on(far) if p is not others[0]]
+        return bool(far_parts) and all(p.kind in ("ic", "diode") for p in far_parts) and any(
+            p.kind == "ic" for p in far_parts) and not GROUND_NAMES.match(far)
+    return False
+
+
+def snubber_caps(nl: Netlist, sw: str) -> list[Part]:
+    """Capacitors of an RC snubber on ``sw``: the capacitor's far net holds only it and one
+    resistor, whose other end is a rail (capacitors or a connector on it)."""
+    out = []
+    for c in nl.on(sw, "capacitor"):
+        if len(c.nets) != 2:
+            continue
+        far = next(iter(c.nets - {sw}))
+        others = [p for p in nl.on(far) if p is not c]
+        if len(others) == 1 and others[0].kind == "resistor" and len(others[0].nets) == 2:
+            rail = next(iter(others[0].nets - {far}))
+            if nl.is_railish(rail) and rail != sw:
+                out.append(c)
+    return out
+
+
+def reaches_antenna(nl: Netlist, net: str, hops: int = 3) -> Part | None:
+    """An antenna (AE/ANT designator) reached from ``net`` through up to ``hops`` two-terminal
+    inductors, capacitors or connectors (an RF matching network), or None."""
+    seen = {net}
+    frontier = [net]
+    for _ in range(hops + 1):
+        nxt = []
+        for n in frontier:
+            for p in nl.on(n):
+                if p.kind == "antenna":
+                    return p
+                if p.kind in ("inductor", "capacitor", "connector") and len(p.nets) == 2:
+                    m = next(iter(p.nets - {n}))
+                    if m not in seen and not GROUND_NAMES.match(m):
+                        seen.add(m)
+                        nxt.append(m)
+        frontier = nxt
+    return None
 
 
 def bootstrap_caps(nl: Netlist, sw: str) -> list[Part]:

@@ -34,6 +34,7 @@ _PREFIX_KINDS = {
     "U": "ic", "IC": "ic", "VR": "ic", "PS": "ic",
     "J": "connector", "P": "connector", "CN": "connector", "X": "connector",
     "BT": "battery",
+    "AE": "antenna", "ANT": "antenna",
 }
 
 NO_CONNECT = re.compile(r"^(|N/?C|NO_?CONNECT|UNCONNECTED.*)$", re.I)

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 from ..board import Pad
 from .evidence import (Clue, bootstrap_caps, feedback_divider, inductor_class,
-                       is_bootstrap_net, load_only_far_end, power_connectors, other_ics, pin_weight, rail_sources, rail_voltage,
+                       is_bootstrap_net, load_only_far_end, power_connectors, reaches_antenna, snubber_caps, other_ics, pin_weight, rail_sources, rail_voltage,
                        transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
 
@@ -64,9 +64,13 @@ class TopologyMixin:
         # a switch node carries no capacitor to a rail (a bootstrap capacitor to an IC pin is fine)
         caps = nl.on(net, "capacitor")
         boot = bootstrap_caps(nl, net)
+        snub = [c for c in snubber_caps(nl, net) if c not in boot]
+        if snub:
+            ev.append(f"RC snubber {snub[0].ref} on the net")
         if boot:
             score += 0.5
             ev.append(f"bootstrap-like capacitor {boot[0].ref} to an IC pin")
+        boot = boot + snub      # neither makes the net a rail
         rail_caps = [c for c in caps if c not in boot and len(c.nets) == 2
                      and (len(nl.on(next(iter(c.nets - {net})), "capacitor")) >= 2
                           or nl.on(next(iter(c.nets - {net})), "connector"))]
@@ -171,6 +175,9 @@ class TopologyMixin:
         cls, why = inductor_class(nl, ind, far)
         if cls == "rf":
             return "; ".join(why)
+        ant = reaches_antenna(nl, far)
+        if ant is not None and not bootstrap_caps(nl, sw):
+            return f"its far end {far} leads to the antenna {ant.ref}: an RF matching inductor"
         only_ic = kind == "integrated" and not nl.on(sw, "diode") and not nl.on(sw, "transistor")
         if cls == "unknown" and why and only_ic and not bootstrap_caps(nl, sw):
             # a small inductor on a bare IC pin: an RF matching or filter part; a converter's
@@ -355,8 +362,19 @@ class TopologyMixin:
         if not nets:
             return None
         own = {ic.ref}
-        return max(nets, key=lambda n: (bool(rail_sources(self.nl, n, own)), pin_weight(ic, n),
-                                        len(self.nl.on(n, "capacitor")), self._input_likeness(n)))
+
+        def strength(n):
+            # a power rail has capacitors (a signal net reaches a header); then what feeds it,
+            # then the IC's pins and pad area on it
+            caps = len(self.nl.on(n, "capacitor"))
+            return min(caps, 2), bool(rail_sources(self.nl, n, own)), pin_weight(ic, n)
+
+        ranked = sorted(nets, key=lambda n: (strength(n), len(self.nl.on(n, "capacitor")), self._input_likeness(n)),
+                        reverse=True)
+        # two rails the IC holds alike (both fed from elsewhere, as many pins as wide): a weak pick
+        self._rail_tie = (ranked[0], ranked[1]) if len(ranked) > 1 and strength(ranked[0]) == strength(ranked[1]) \
+            else None
+        return ranked[0]
 
     def _buck_or_boost_clues(self, x_rail: str, other: str | None, sw: str, ground: str | None) -> list[Clue]:
         """The clues that tell a buck (input ``other``, output ``x_rail``) from a boost (input
