@@ -428,3 +428,56 @@ def test_inductor_leading_to_an_antenna_is_rf():
     del parts["J2"]
     search = find_stages(board(parts), project())
     assert search.stages == [] and any("antenna AE1" in m for m in search.messages)
+
+
+def _write(parts, folder, scale=2.0):
+    from loopcheck.synth import SynthBoard, SynthComponent, SynthPad, write_fab
+
+    comps = []
+    for ref, pins in parts.items():
+        pads = [SynthPad(pin=str(pin), net=net, x_mm=x * scale + 5, y_mm=y * scale + 5,
+                         w_mm=(size[0] if size else 1.0), h_mm=(size[1] if size else 1.2))
+                for pin, net, x, y, *size in pins]
+        comps.append(SynthComponent(ref=ref, value="", pads=pads))
+    write_fab(SynthBoard(name="b", width_mm=100, height_mm=80, components=comps), folder)
+
+
+def test_half_bridge_check_says_not_measured_and_incomplete(tmp_path):
+    """Through the whole pipeline: the half-bridge is listed, every measurement of it is 'not
+    made' with the reason, and the check is INCOMPLETE rather than a clean pass."""
+    from loopcheck.analysis import analyse
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+    from loopcheck.report.common import CheckResult
+    from loopcheck.rules import evaluate_all, load_deck
+
+    _write(HALF_BRIDGE, tmp_path)
+    p = load_project(tmp_path)
+    a = analyse(load_board(p), p)
+    assert [s.topology for s in a.stages] == ["half-bridge"]
+    made = a.measurements_for(a.stages[0].name)
+    assert made and all(m.value is None and "not measured" in m.not_made for m in made)
+    result = CheckResult(a, evaluate_all(a, load_deck(None, p), p))
+    assert any("half-bridge stage" in g for g in result.gaps)
+
+
+def test_stages_report_prints_the_lines_that_settle_an_unsure_stage(tmp_path):
+    from loopcheck.report.stages import project_text, render_text, stages_data
+
+    parts = {"Q1": [(1, "GA", 10, 14), (2, "N1", 12, 14), (3, "NA", 12, 16)],
+             "Q2": [(1, "GB", 10, 10), (2, "N0", 12, 10), (3, "N1", 12, 12)],
+             "L1": [(1, "N1", 14, 12), (2, "NB", 16, 12)],
+             "C1": [(1, "NA", 4, 12), (2, "N0", 4, 8)], "C2": [(1, "NB", 20, 12), (2, "N0", 20, 8)],
+             "U1": [(1, "GA", 5, 30), (2, "GB", 6, 30), (3, "N0", 7, 30), (4, "X", 8, 30), (5, "Y", 9, 30)]}
+    b = board(parts)
+    p = project()
+    search = find_stages(b, p)
+    text = render_text("t", search)
+    assert "unsure: topology buck" in text and '    topology = "buck"' in text and "--write-project" in text
+    assert stages_data("t", search)["stages"][0]["confirm_lines"][0] == "[stages.stage1]"
+    toml = project_text(p, b, search, tmp_path / "loopcheck.toml")
+    assert "# unsure: topology buck" in toml
+    hb = find_stages(board(HALF_BRIDGE), p)
+    assert "not measured: a half-bridge stage" in render_text("t", hb)
+    assert {r.name: r.ref for r in hb.stages[0].roles}["controller"] == "U1"
+    assert "# stage1: half-bridge at SW" in project_text(p, board(HALF_BRIDGE), hb, tmp_path / "x.toml")

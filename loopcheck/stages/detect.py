@@ -323,9 +323,14 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
         ground, _, _ = self._ground_of(rails, None)
         stage = Stage(name=name, topology=topology, switching=switching, switch_node=sw, input_net=None,
                       output_net=None, ground_net=ground, confidence=0.8)
-        for i, p in enumerate(switches):
+        power = [p for p in switches if p.kind != "ic"] or switches[:1]
+        for i, p in enumerate(power):
             stage.roles.append(Role("switch" if i == 0 else "rectifier", p.ref, p.terminals_on(sw), 0.8,
                                     f"{p.ref} has a pin on {sw}"))
+        for p in switches:
+            if p not in power:
+                stage.roles.append(Role("controller", p.ref, tuple(q.terminal for q in p.pads), 0.7,
+                                        f"{p.ref} has a pin on {sw} (its driver's reference)"))
         stage.roles.append(Role("transformer", t.ref, tuple(q.terminal for q in t.pads), 0.9,
                                 f"transformer {t.ref} (T prefix) with a winding on the switching side"))
         for p in series:
