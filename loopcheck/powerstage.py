@@ -20,7 +20,7 @@ ROLE_NAMES = (
 # Topologies loopcheck measures, and those it reports without measuring (their loops and paths
 # are not modelled: the stage is listed with its parts and every measurement is "not made").
 MEASURED_TOPOLOGIES = ("buck", "boost", "buck-boost")
-UNMEASURED_TOPOLOGIES = ("half-bridge", "resonant", "flyback")
+UNMEASURED_TOPOLOGIES = ("half-bridge", "resonant", "flyback", "four-switch")   # four-switch buck-boost
 
 
 @dataclass

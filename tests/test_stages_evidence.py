@@ -481,3 +481,26 @@ def test_stages_report_prints_the_lines_that_settle_an_unsure_stage(tmp_path):
     assert "not measured: a half-bridge stage" in render_text("t", hb)
     assert {r.name: r.ref for r in hb.stages[0].roles}["controller"] == "U1"
     assert "# stage1: half-bridge at SW" in project_text(p, board(HALF_BRIDGE), hb, tmp_path / "x.toml")
+
+
+def test_h_bridge_with_filter_capacitors_is_not_a_stage():
+    """Chokes and EMI capacitors at the motor connector give the far end a capacitor: the bridge
+    is known from the load's other end being switched too."""
+    parts = dict(H_BRIDGE)
+    parts["C7"] = [(1, "MA", 28, 15), (2, "GND", 28, 17)]
+    parts["C8"] = [(1, "MB", 28, 9), (2, "GND", 28, 7)]
+    search = find_stages(board(parts), project())
+    assert search.stages == []
+    assert any("a bridge (a motor H-bridge)" in m for m in search.messages)
+
+
+def test_four_switch_buck_boost_is_reported_not_measured():
+    parts = {"J1": [(1, "VBAT", 0, 10), (2, "GND", 0, 5)], "C1": [(1, "VBAT", 4, 12), (2, "GND", 4, 8)],
+             "U1": [(1, "VBAT", 8, 12), (2, "L1A", 8, 11), (3, "L1B", 8, 10), (4, "VOUT", 8, 9), (5, "GND", 9, 9),
+                    (6, "FB", 9, 10)],
+             "L1": [(1, "L1A", 12, 11), (2, "L1B", 12, 10)],
+             "C2": [(1, "VOUT", 14, 9), (2, "GND", 14, 7)],
+             "R1": [(1, "VOUT", 16, 9), (2, "FB", 16, 11)], "R2": [(1, "FB", 17, 11), (2, "GND", 17, 13)]}
+    search = find_stages(board(parts), project())
+    assert [s.topology for s in search.stages] == ["four-switch"]
+    assert "four-switch buck-boost" in search.stages[0].not_measured

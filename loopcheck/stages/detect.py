@@ -28,6 +28,7 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
         self.path = str(project.path) if project.path else None
         self.messages: list[str] = []
         self._produced: dict[str, str] = {}   # rail -> the switch node of the stage that makes it
+        self._four_switch: list = []        # (inductor, [(net, kind, evidence), (net, ...)])
         self._floating = False           # the stage being built is a low-side (floating) buck
         self._across: str | None = None  # ... and its load capacitor's input-side net
 
@@ -331,14 +332,19 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
             if p not in power:
                 stage.roles.append(Role("controller", p.ref, tuple(q.terminal for q in p.pads), 0.7,
                                         f"{p.ref} has a pin on {sw} (its driver's reference)"))
-        stage.roles.append(Role("transformer", t.ref, tuple(q.terminal for q in t.pads), 0.9,
-                                f"transformer {t.ref} (T prefix) with a winding on the switching side"))
+        if t.kind == "transformer":
+            stage.roles.append(Role("transformer", t.ref, tuple(q.terminal for q in t.pads), 0.9,
+                                    f"transformer {t.ref} (T prefix) with a winding on the switching side"))
+        else:
+            stage.roles.append(Role("inductor", t.ref, tuple(q.terminal for q in t.pads), 0.9,
+                                    f"inductor {t.ref} between two switch nodes"))
         for p in series:
             stage.roles.append(Role("inductor" if p.kind == "inductor" else "output_cap", p.ref,
                                     tuple(q.terminal for q in p.pads), 0.7,
                                     f"{p.ref} in series between {sw} and {t.ref}: the resonant tank"))
         stage.evidence = list(evidence)
-        stage.not_measured = (f"a {topology} stage: loopcheck measures buck, boost and buck-boost stages only; "
+        words = {"four-switch": "four-switch buck-boost"}.get(topology, topology)
+        stage.not_measured = (f"a {words} stage: loopcheck measures buck, boost and buck-boost stages only; "
                               f"its parts are listed ({', '.join(r.ref for r in stage.roles)}), its loops and "
                               "current paths were not measured")
         self.messages.append(f"{name}: {topology} ({switching}) at {sw}: {'; '.join(evidence)}; not measured")
@@ -437,5 +443,15 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
             while f"stage{n}" in taken:
                 n += 1
             stages.append(self.build_unmeasured(f"stage{n}", t, topology, sw, switches, series, ev))
+        for ind, ends in self._four_switch:
+            n += 1
+            while f"stage{n}" in taken:
+                n += 1
+            (sw_a, _, ev_a), (sw_b, _, _) = ends
+            switches = [p for net in (sw_a, sw_b) for p in nl.on(net) if p.kind in ("transistor", "ic")]
+            switches = list({p.ref: p for p in switches}.values())
+            stages.append(self.build_unmeasured(
+                f"stage{n}", ind, "four-switch", sw_a, switches, [],
+                ev_a + [f"{ind.ref} joins two switch nodes ({sw_a}, {sw_b}): a four-switch buck-boost"]))
         return stages
 

@@ -298,3 +298,22 @@ def led_string_nets(nl: Netlist, start: list[str], limit: int = 64) -> set[str]:
                 seen.add(far)
                 todo.append(far)
     return seen
+
+
+def bridge_partner(nl: Netlist, far_net: str, sw: str, is_switch_node) -> str | None:
+    """The other switching output of a bridge that drives the load on ``far_net``: a net reached
+    from ``far_net`` across a connector or a two-terminal load (a motor, a heater) and perhaps one
+    more inductor, that itself looks like a switch node (``is_switch_node(net)``). A motor
+    H-bridge; not a converter."""
+    reached = set()
+    for p in nl.on(far_net):
+        if p.kind in ("connector", "other", "motor") and 2 <= len(p.nets) <= 4:
+            reached |= set(p.nets) - {far_net}
+    for n in list(reached):
+        for ind in nl.on(n, "inductor"):
+            if len(ind.nets) == 2:
+                reached.add(next(iter(ind.nets - {n})))
+    for n in sorted(reached - {sw, far_net}):
+        if not GROUND_NAMES.match(n) and is_switch_node(n):
+            return n
+    return None

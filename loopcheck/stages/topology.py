@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 from ..board import Pad
 from .evidence import (Clue, bootstrap_caps, feedback_divider, inductor_class,
-                       is_bootstrap_net, load_only_far_end, power_connectors, reaches_antenna, snubber_caps, other_ics, pin_weight, rail_sources, rail_voltage,
+                       bridge_partner, is_bootstrap_net, load_only_far_end, power_connectors, reaches_antenna, snubber_caps, other_ics, pin_weight, rail_sources, rail_voltage,
                        transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
 
@@ -96,10 +96,20 @@ class TopologyMixin:
             if len(ind.nets) != 2:
                 continue
             best = None
+            switching_ends = []
             for net in sorted(ind.nets):
                 score, kind, ev = self._sw_score(net)
+                if score > 0:
+                    switching_ends.append((net, kind, ev))
                 if score > 0 and (best is None or score > best[3]):
                     best = (net, ind, kind, score, ev)
+            if len(switching_ends) == 2 and not any(
+                    self.nl.is_railish(self._resolve_rail(net, set(ind.nets) - {net})[0]) for net, _, _ in switching_ends):
+                # switches at both ends of one inductor: a four-switch buck-boost (not measured)
+                self._four_switch.append((ind, switching_ends))
+                self.messages.append(f"{ind.ref}: switches at both ends ({switching_ends[0][0]}, "
+                                     f"{switching_ends[1][0]}): a four-switch buck-boost")
+                continue
             if best is not None:
                 # the inductor's other end must reach a rail (capacitors or a connector)
                 other = next(iter(ind.nets - {best[0]}))
@@ -186,6 +196,10 @@ class TopologyMixin:
         if transformers_on(nl, sw) or transformers_on(nl, far) or transformers_on(nl, rail):
             return ("a transformer winding on its nets: an isolated (half-bridge, resonant or flyback) "
                     "stage, reported as such")
+        partner = bridge_partner(nl, rail, sw, lambda n: self._sw_score(n)[0] > 0)
+        if partner is not None and not nl.on(sw, "diode"):
+            return (f"its far end {rail} drives a load whose other end is switched at {partner}: a bridge "
+                    "(a motor H-bridge), not a converter")
         if load_only_far_end(nl, rail) and not nl.on(sw, "diode"):
             return (f"its far end {rail} reaches a connector and no capacitor: it drives a load (a motor, "
                     "a heater, a coil), it does not feed a converter's rail")
