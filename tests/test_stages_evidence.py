@@ -504,3 +504,9 @@ def test_four_switch_buck_boost_is_reported_not_measured():
     search = find_stages(board(parts), project())
     assert [s.topology for s in search.stages] == ["four-switch"]
     assert "four-switch buck-boost" in search.stages[0].not_measured
+
+
+def test_exposed_pad_raises_the_ground_confidence():
+    st = find_stages(board(INT_BUCK, rename=MEANINGLESS), project()).stages[0]
+    assert st.ground_net == MEANINGLESS["GND"]
+    assert any("exposed pad" in e for e in st.evidence)

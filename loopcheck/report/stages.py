@@ -71,6 +71,8 @@ def render_text(board_name: str, search: StageSearch) -> str:
         lines.append(f"stage {st.name}: {st.topology}, {st.switching} switching (confidence {st.confidence:.2f})")
         lines.append(f"  nets: switch node {st.switch_node}, input {st.input_net}, output {st.output_net}, "
                      f"ground {st.ground_net}")
+        for e in st.evidence:
+            lines.append(f"  why: {e}")
         for r in st.roles:
             pins = "; ".join(f"{k} {','.join(v)}" for k, v in r.pins.items() if v)
             lines.append(f"  {r.name:<22} {r.ref:<6} {r.confidence:.2f}  {' '.join(r.terminals) if len(r.terminals) <= 4 else ''}"

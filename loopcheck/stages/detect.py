@@ -75,7 +75,8 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
             k, _ = self._diode_cathode(e.part)
             if k is not None and k != sw:
                 cathode_sides.add(k)
-        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"), cathode_sides)
+        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"), cathode_sides,
+                                               [e.part for e in ics])
 
         topology = fixed.get("topology")
         topo_ev = "named in loopcheck.toml" if topology else ""
@@ -279,6 +280,8 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
             conf += 0.05
         stage.confidence = round(min(conf, 1.0), 2)
         stage.evidence = sw_evidence + ([f"topology {stage.topology}: {topo_ev}"] if topo_ev else [])
+        if ground and g_ev:
+            stage.evidence.append(f"ground {ground}: {'; '.join(g_ev)}")
         stage_ev = "; ".join(stage.evidence)
         self.messages.append(f"{name}: {stage.topology} ({switching}) at switch node {sw}: {stage_ev}")
         self._mark_unsure(stage, inductor, topo_conf, g_conf, fixed)

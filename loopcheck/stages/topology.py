@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 from ..board import Pad
 from .evidence import (Clue, bootstrap_caps, feedback_divider, inductor_class,
-                       bridge_partner, is_bootstrap_net, load_only_far_end, power_connectors, reaches_antenna, snubber_caps, other_ics, pin_weight, rail_sources, rail_voltage,
+                       bridge_partner, exposed_pad_net, is_bootstrap_net, load_only_far_end, power_connectors, reaches_antenna, snubber_caps, other_ics, pin_weight, rail_sources, rail_voltage,
                        transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
 
@@ -324,10 +324,11 @@ class TopologyMixin:
                 return next(iter(c.nets - {x_rail}))
         return None
 
-    def _ground_of(self, nets: list[str], named: str | None,
-                   avoid: set[str] = frozenset()) -> tuple[str | None, float, list[str]]:
+    def _ground_of(self, nets: list[str], named: str | None, avoid: set[str] = frozenset(),
+                   ics: list[Part] = ()) -> tuple[str | None, float, list[str]]:
         """Ground among candidate rails: a usual ground name (with capacitor returns), else not a
-        rectifier diode's cathode side, then the rail most capacitors return to."""
+        rectifier diode's cathode side, then the rail most capacitors return to, then the rail of
+        the switching IC's exposed pad (usually ground: it raises the confidence)."""
         nl = self.nl
         if named:
             return named, 1.0, ["named in loopcheck.toml"]
@@ -335,13 +336,14 @@ class TopologyMixin:
         if not nets:
             return None, 0.0, []
         scores = {}
+        pads_of_ep = {exposed_pad_net(ic) for ic in ics} - {None}
         for n in nets:
             returns = sum(1 for c in nl.on(n, "capacitor") if len(c.nets) == 2
                           and next(iter(c.nets - {n})) in nets)
             all_caps = len(nl.on(n, "capacitor"))
             # a usual ground name decides among rails with capacitor returns; else the count does
-            scores[n] = (returns > 0 and bool(GROUND_NAMES.match(n)), n not in avoid, all_caps, returns,
-                         nl.pad_count(n), n)
+            scores[n] = (returns > 0 and bool(GROUND_NAMES.match(n)), n not in avoid, all_caps,
+                         n in pads_of_ep, returns, nl.pad_count(n), n)
         best = max(nets, key=lambda n: scores[n])
         ev = [f"{scores[best][2]} capacitors return to it"]
         conf = 0.7
@@ -350,6 +352,9 @@ class TopologyMixin:
             conf = 0.85
         if avoid & set(nets) and not scores[best][0]:
             ev.append(f"not {', '.join(sorted(avoid & set(nets)))}: a rectifier's cathode side")
+        if best in pads_of_ep:
+            conf = min(1.0, conf + 0.1)
+            ev.append("the switching IC's exposed pad is on it")
         if GROUND_NAMES.match(best):
             conf = min(1.0, conf + 0.1)
             ev.append(f"net name {best!r} is a usual ground name")
