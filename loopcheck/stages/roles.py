@@ -11,7 +11,7 @@ from typing import Any
 from ..board import Pad
 from ..errors import InputError
 from ..powerstage import Role, Stage
-from ..project import Project
+from ..project import STAGE_NET_KEYS, STAGE_REF_KEYS, STAGE_REF_LIST_KEYS, TOPOLOGIES, Project
 from .netlist import SUPPLY_NAMES, Netlist, Part, _min_dist
 from .topology import _Element
 
@@ -23,11 +23,11 @@ def _project_error(project: Project, dotted: str, message: str) -> InputError:
     return project.key_error(dotted, message)
 
 
-_REF_KEYS = ("switch", "rectifier", "inductor", "sense_resistor", "controller", "controller_decoupling")
-_LIST_KEYS = ("input_caps", "output_caps")
-_NET_KEYS = ("switch_node", "input_net", "output_net", "ground_net")
+# the [stages.NAME] keys as loopcheck.project defines them (one list, there)
+_REF_KEYS = STAGE_REF_KEYS
+_LIST_KEYS = STAGE_REF_LIST_KEYS
+_NET_KEYS = STAGE_NET_KEYS
 _ROLE_KEYS = _REF_KEYS + _LIST_KEYS + _NET_KEYS + ("topology",)
-TOPOLOGIES = ("buck", "boost", "buck-boost")
 
 
 def _validate_spec(spec, nl: Netlist, project: Project) -> dict[str, Any]:
