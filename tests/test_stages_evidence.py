@@ -510,3 +510,23 @@ def test_exposed_pad_raises_the_ground_confidence():
     st = find_stages(board(INT_BUCK, rename=MEANINGLESS), project()).stages[0]
     assert st.ground_net == MEANINGLESS["GND"]
     assert any("exposed pad" in e for e in st.evidence)
+
+
+def test_signal_and_gate_drive_transformers_are_not_stages():
+    """An Ethernet PHY's transformer (the IC drives both ends of a winding) and a gate-drive
+    transformer (the winding drives a gate) switch no power."""
+    eth = {"U1": [(1, "TXP", 0, 0), (2, "TXN", 1, 0), (3, "RXP", 2, 0), (4, "RXN", 3, 0), (5, "GND", 4, 0),
+                  (6, "AVDD", 5, 0)],
+           "C1": [(1, "AVDD", 6, 0), (2, "GND", 6, 1)], "C2": [(1, "CT", 7, 0), (2, "GND", 7, 1)],
+           "T1": [(1, "TXP", 10, 0), (2, "CT", 10, 1), (3, "TXN", 10, 2), (4, "RXP", 11, 0), (5, "RXN", 11, 2),
+                  (6, "L1", 12, 0), (7, "L2", 12, 2)],
+           "J1": [(1, "L1", 14, 0), (2, "L2", 14, 2)]}
+    assert find_stages(board(eth), project()).stages == []
+    gdt = {"U1": [(1, "DRV", 0, 0), (2, "GND", 1, 0), (3, "VCC", 2, 0), (4, "X", 3, 0), (5, "Y", 4, 0)],
+           "C1": [(1, "VCC", 5, 0), (2, "GND", 5, 1)],
+           "C2": [(1, "DRV", 6, 0), (2, "P1", 6, 1)],
+           "T1": [(1, "P1", 8, 0), (2, "GND", 8, 1), (3, "G", 9, 0), (4, "S", 9, 1)],
+           "Q1": [(1, "G", 11, 0), (2, "S", 11, 1), (3, "HV", 11, 2)],
+           "C3": [(1, "HV", 12, 2), (2, "GND", 12, 3)], "R1": [(1, "S", 13, 1), (2, "LOAD", 13, 2)],
+           "J1": [(1, "HV", 14, 2), (2, "GND", 14, 3)]}
+    assert find_stages(board(gdt), project()).stages == []

@@ -157,8 +157,14 @@ class TopologyMixin:
                     if p.kind in ("inductor", "capacitor") and len(p.nets) == 2:
                         reach.append((next(iter(p.nets - {net})), [p]))
                 for sw, series in reach:
-                    sws = [p for p in nl.on(sw, "transistor") if len(p.nets) >= 2]
-                    ics = nl.on(sw, "ic")
+                    # a transistor whose gate sits on the winding is driven by it (a gate-drive
+                    # transformer), it does not switch it
+                    sws = [p for p in nl.on(sw, "transistor") if len(p.nets) >= 2
+                           and self._gate_net(p) not in t.nets]
+                    # an IC with pins on two signal ends of the windings drives them differentially
+                    # (an Ethernet or signal transformer), it does not switch power
+                    ics = [p for p in nl.on(sw, "ic")
+                           if sum(1 for n in t.nets if p.pads_on(n) and not nl.is_railish(n)) < 2]
                     if len(sws) >= 2 or (ics and sws):
                         kind = "resonant" if series else "half-bridge"
                         ev = [f"{', '.join(p.ref for p in sws + ics)} switch {sw}"
@@ -178,6 +184,17 @@ class TopologyMixin:
             if best is not None:
                 out.append(best[1:])
         return out
+
+    def _gate_net(self, t: Part) -> str | None:
+        """A transistor's gate net from its pin names (G, GATE, B ...), else pin 1 when that net
+        carries no capacitor or connector (the common SOT-23 / D-PAK numbering); None if unsure."""
+        for p in t.pads:
+            if self._pin_name(p.pin) == "G":
+                return p.net
+        pin1 = next((p for p in t.pads if p.pin == "1"), None)
+        if pin1 is not None and not self.nl.is_railish(pin1.net) and len(t.pads_on(pin1.net)) == 1:
+            return pin1.net
+        return None
 
     def _not_a_converter(self, sw: str, ind: Part, kind: str, far: str, rail: str) -> str:
         """Why an inductor on a switching net is not a buck/boost/buck-boost inductor, or ""."""
