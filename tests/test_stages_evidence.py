@@ -530,3 +530,31 @@ def test_signal_and_gate_drive_transformers_are_not_stages():
            "C3": [(1, "HV", 12, 2), (2, "GND", 12, 3)], "R1": [(1, "S", 13, 1), (2, "LOAD", 13, 2)],
            "J1": [(1, "HV", 14, 2), (2, "GND", 14, 3)]}
     assert find_stages(board(gdt), project()).stages == []
+
+
+@pytest.mark.parametrize("name", ["int_buck_meaningless", "sync_boost", "radio", "h_bridge", "half_bridge"])
+def test_classes_through_synthesized_fab_outputs(tmp_path, name):
+    """Each class read back from Gerber X2 + Excellon + IPC-D-356 written by synth.py, with the
+    same result as from the Pad lists above (the netlist reader's view, not the test's)."""
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    parts, values = {
+        "int_buck_meaningless": ({r: [(pn, MEANINGLESS.get(n, n), *rest) for pn, n, *rest in pins]
+                                  for r, pins in INT_BUCK.items()}, {}),
+        "sync_boost": (SYNC_BOOST_NAMED, {}),
+        "radio": (RADIO, {}),
+        "h_bridge": (H_BRIDGE, {}),
+        "half_bridge": (HALF_BRIDGE, {}),
+    }[name]
+    _write(parts, tmp_path)
+    p = load_project(tmp_path)
+    got = [(s.topology, s.switch_node, s.input_net, s.output_net) for s in find_stages(load_board(p), p).stages]
+    want = {
+        "int_buck_meaningless": [("buck", MEANINGLESS["SW"], MEANINGLESS["VIN"], MEANINGLESS["VOUT"])],
+        "sync_boost": [("boost", "SW", "+5V", "+12V")],
+        "radio": [],
+        "h_bridge": [],
+        "half_bridge": [("half-bridge", "SW", None, None)],
+    }[name]
+    assert got == want
