@@ -12,6 +12,7 @@ from ..board import Pad
 from ..errors import InputError
 from ..powerstage import Role, Stage
 from ..project import STAGE_NET_KEYS, STAGE_REF_KEYS, STAGE_REF_LIST_KEYS, TOPOLOGIES, Project
+from .evidence import bootstrap_caps
 from .netlist import SUPPLY_NAMES, Netlist, Part, _min_dist
 from .topology import _Element
 
@@ -236,8 +237,7 @@ class RolesMixin:
             return "N", f"{part.ref} value {part.value!r} says N-channel"
         if not high_side:
             return "N", f"{part.ref} low side: assumed N-channel"
-        boot = [c for c in self.nl.on(sw, "capacitor")
-                if len(c.nets) == 2 and self._bootstrap_net(next(iter(c.nets - {sw})), c)]
+        boot = bootstrap_caps(self.nl, sw)
         if boot:
             return "N", f"{part.ref} high side with bootstrap capacitor {boot[0].ref}: N-channel"
         if stage.switching == "discrete":

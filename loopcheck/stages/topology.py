@@ -8,9 +8,9 @@ import re
 from dataclasses import dataclass, field
 
 from ..board import Pad
-from .evidence import (Clue, bootstrap_caps, feedback_divider, inductor_class,
-                       bridge_partner, exposed_pad_net, is_bootstrap_net, load_only_far_end, power_connectors, reaches_antenna, snubber_caps, other_ics, pin_weight, rail_sources, rail_voltage,
-                       transformers_on)
+from .evidence import (Clue, bootstrap_caps, bridge_partner, exposed_pad_net, feedback_divider, inductor_class,
+                       load_only_far_end, other_ics, pin_weight, power_connectors, rail_sources, rail_voltage,
+                       reaches_antenna, snubber_caps, transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
 
 # --------------------------------------------------------------------------------------------
@@ -86,9 +86,6 @@ class TopologyMixin:
             ev.append(f"net name {net!r} is a usual switch-node name")
         return score, kind, ev
 
-    def _bootstrap_net(self, net: str, cap: Part) -> bool:
-        return is_bootstrap_net(self.nl, net, cap)
-
     def candidates(self) -> list[tuple[str, Part, str, float, list[str]]]:
         """(switch node, inductor, switching kind, score, evidence) per inductor, best end."""
         out = []
@@ -103,8 +100,9 @@ class TopologyMixin:
                     switching_ends.append((net, kind, ev))
                 if score > 0 and (best is None or score > best[3]):
                     best = (net, ind, kind, score, ev)
-            if len(switching_ends) == 2 and not any(
-                    self.nl.is_railish(self._resolve_rail(net, set(ind.nets) - {net})[0]) for net, _, _ in switching_ends):
+            both_bare = not any(self.nl.is_railish(self._resolve_rail(net, set(ind.nets) - {net})[0])
+                                for net, _, _ in switching_ends)
+            if len(switching_ends) == 2 and both_bare:
                 # switches at both ends of one inductor: a four-switch buck-boost (not measured)
                 self._four_switch.append((ind, switching_ends))
                 self.messages.append(f"{ind.ref}: switches at both ends ({switching_ends[0][0]}, "
@@ -454,8 +452,9 @@ class TopologyMixin:
         if boot:
             # a transistor pair already says a high-side N switch is there; an IC's BST pin less so
             pair = len(nl.on(sw, "transistor")) >= 2
-            clues.append(Clue("buck", 0.5 if pair else 1.0, f"bootstrap capacitor {boot[0].ref} from {sw} to an IC pin: a "
-                                           "high-side switch (a buck's, or a synchronous boost's rectifier)"))
+            clues.append(Clue("buck", 0.5 if pair else 1.0,
+                              f"bootstrap capacitor {boot[0].ref} from {sw} to an IC pin: a "
+                              "high-side switch (a buck's, or a synchronous boost's rectifier)"))
         # usual names (a bare voltage such as "+12V" names no direction)
         def bare(n: str) -> bool:
             return bool(re.fullmatch(r"[+-]?\d+([.,]\d+)?V\d*(IN)?", re.split(r"[/:]", n)[-1], re.I))
