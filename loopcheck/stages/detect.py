@@ -10,10 +10,10 @@ from ..board import Board
 from ..powerstage import Role, Stage
 from ..project import Project
 from .loops import LoopsMixin
-from .evidence import bootstrap_nets, led_string_nets
+from .evidence import led_string_nets
 from .netlist import GROUND_NAMES, SWITCH_NODE_NAMES, Netlist, Part
 from .roles import _LIST_KEYS, _REF_KEYS, RolesMixin, _project_error, _validate_spec
-from .topology import TopologyMixin, _Element
+from .topology import TopologyMixin
 
 
 def _toml_key(name: str) -> str:
@@ -37,156 +37,11 @@ class Detector(TopologyMixin, RolesMixin, LoopsMixin):
               fixed: dict[str, Any]) -> Stage:
         nl = self.nl
         missing: list[str] = []
-        x_net = next(iter(inductor.nets - {sw}))
-        x_rail, x_via = self._resolve_rail(x_net, {sw})
-        elements = [self._element(p, sw) for p in nl.on(sw) if p.kind in ("transistor", "diode", "ic")
-                    and p.ref != inductor.ref and (p.kind != "transistor" or len(p.nets) >= 2)]
-        # a named switch or rectifier must be among them
-        for key in ("switch", "rectifier"):
-            if key in fixed and fixed[key] not in [e.part.ref for e in elements]:
-                part = nl.parts[fixed[key]]
-                kind = part.kind
-                if kind not in ("transistor", "diode", "ic"):
-                    # a part of unknown kind named as a switch: by its connections
-                    kind = "transistor" if len(part.nets) >= 3 else "diode"
-                    self.messages.append(f"{name}: {part.ref} (named {key}) taken as a {kind} from its "
-                                         f"{len(part.nets)} connected nets")
-                elements.append(self._element(part, sw, kind))
-        transistors = [e for e in elements if e.kind == "transistor"]
-        diodes = [e for e in elements if e.kind == "diode"]
-        ics = [e for e in elements if e.kind == "ic"]
-        if fixed.get("switch") and nl.parts[fixed["switch"]].kind == "ic":
-            transistors = [e for e in transistors if e.part.ref == fixed.get("rectifier")]
-        if transistors:
-            # two transistors switch synchronously, also with a Schottky across the low side
-            switching = "synchronous" if len(transistors) >= 2 else "discrete"
-        elif ics:
-            switching = "integrated"
-
-        ic_rails: list[str] = []
-        self._rail_tie = None
-        if switching == "integrated":
-            ic = ics[0].part
-            # a bootstrap capacitor's IC pin is never a rail (it rides on the switch node)
-            ic_rails = sorted(n for n in ic.nets - {sw} - bootstrap_nets(nl, sw) if nl.is_railish(n))
-        rails = [x_rail] + [e.rail for e in transistors + diodes if e.rail] + ic_rails
-        cathode_sides = set()
-        for e in diodes:
-            k, _ = self._diode_cathode(e.part)
-            if k is not None and k != sw:
-                cathode_sides.add(k)
-        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"), cathode_sides,
-                                               [e.part for e in ics])
-
-        topology = fixed.get("topology")
-        topo_ev = "named in loopcheck.toml" if topology else ""
-        topo_conf = 1.0 if topology else 0.8
-        switch_el: _Element | None = None
-        rect_el: _Element | None = None
-        input_net = output_net = None
-
-        def by_ref(ref):
-            return next((e for e in elements if e.part.ref == ref), None)
-
-        on_ground = [e for e in transistors + diodes if e.rail == ground]
-        off_ground = [e for e in transistors + diodes if e.rail != ground]
-        # a low-side (floating) buck, common in LED drivers: switch from the switch node to ground,
-        # diode up to the input, the load (and its capacitor) between the input and the inductor
-        low_t = next((e for e in on_ground if e.kind == "transistor"), None)
-        up_d = next((e for e in off_ground if e.kind == "diode"), None)
-        across = (self._load_across(x_rail, up_d.rail, ground) if low_t is not None and up_d is not None
-                  and ground != x_rail and topology in (None, "buck") else None)
-        floating = across is not None
-        self._floating, self._across = floating, across
-        if switching in ("discrete", "synchronous"):
-            if topology is None:
-                if ground == x_rail:
-                    topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
-                elif any(e.kind == "diode" for e in on_ground) and any(e.kind == "transistor" for e in off_ground):
-                    d = next(e for e in on_ground if e.kind == "diode")
-                    topology, topo_ev = "buck", f"diode {d.part.ref} from the switch node to ground"
-                elif floating:
-                    topology, topo_ev = "buck", (
-                        f"low-side (floating) buck: transistor {low_t.part.ref} to ground, diode {up_d.part.ref} "
-                        f"up to {up_d.rail}, the load capacitor between {across} and {x_rail}")
-                elif any(e.kind == "transistor" for e in on_ground) and any(e.kind == "diode" for e in off_ground):
-                    t = next(e for e in on_ground if e.kind == "transistor")
-                    d = next(e for e in off_ground if e.kind == "diode")
-                    topology, topo_ev = "boost", (f"transistor {t.part.ref} to ground and diode "
-                                                  f"{d.part.ref} to the output")
-                else:
-                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw,
-                                                                              ground)
-            if topology == "buck" and floating:
-                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else low_t
-                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else up_d
-                input_net = rect_el.rail if rect_el else None
-                output_net = x_rail
-            elif topology == "buck":
-                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
-                    next((e for e in off_ground if e.kind == "transistor"), None))
-                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
-                    next((e for e in on_ground if e is not switch_el), None))
-                input_net = switch_el.rail if switch_el else None
-                output_net = x_rail
-            elif topology == "boost":
-                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
-                    next((e for e in on_ground if e.kind == "transistor"), None))
-                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
-                    next((e for e in off_ground if e is not switch_el), None))
-                input_net = x_rail
-                output_net = rect_el.rail if rect_el else None
-            else:  # inverting buck-boost: switch SW-input, rectifier SW-output
-                cands = [e for e in transistors + diodes if e.rail != ground]
-                if "switch" in fixed:
-                    switch_el = by_ref(fixed["switch"])
-                else:
-                    ts = [e for e in cands if e.kind == "transistor"]
-                    if len(ts) == 1 or not ts:
-                        switch_el = ts[0] if ts else None
-                    else:
-                        switch_el = max(ts, key=lambda e: self._input_likeness(e.rail))
-                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
-                    next((e for e in cands if e is not switch_el), None))
-                input_net = switch_el.rail if switch_el else None
-                output_net = rect_el.rail if rect_el else None
-        else:  # integrated
-            ic_el = ics[0] if ics else None
-            ext = diodes[0] if diodes else (transistors[0] if transistors else None)
-            if "rectifier" in fixed:
-                ext = by_ref(fixed["rectifier"])
-            ic = ic_el.part if ic_el else None
-            if topology is None:
-                if ground == x_rail:
-                    topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
-                elif ext is not None and ext.rail == ground:
-                    topology, topo_ev = "buck", f"{ext.part.ref} from the switch node to ground"
-                elif ext is not None and ext.rail is not None:
-                    topology, topo_ev = "boost", f"{ext.part.ref} from the switch node to {ext.rail}"
-                else:
-                    power = self._power_rail(ic, [n for n in ic_rails if n not in (ground, x_rail)]) if ic else None
-                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [power] if power else [], sw, ground)
-            switch_el = ic_el
-            if ext is not None and (ext.rail == ground or topology != "buck"):
-                rect_el = ext
-            else:
-                rect_el = ic_el
-            others = [n for n in ic_rails if n not in (ground, x_rail, sw)]
-            power = self._power_rail(ic, others) if ic is not None else None
-            if topology == "buck":
-                output_net = x_rail
-                input_net = fixed.get("input_net") or power
-            elif topology == "boost":
-                input_net = x_rail
-                output_net = ext.rail if ext is not None and ext.rail else power
-            else:
-                input_net = power
-                output_net = ext.rail if ext is not None else None
-            if ic is not None and not diodes and rect_el is ic_el:
-                topo_ev += "; switches inside the IC"
-        input_net = fixed.get("input_net") or input_net
-        output_net = fixed.get("output_net") or output_net
-
+        d = self._decide(name, sw, inductor, switching, fixed)
+        (x_net, x_rail, x_via, transistors, diodes, switching, ground, g_conf,
+         g_ev, topology, topo_ev, topo_conf, switch_el, rect_el, input_net, output_net) = (
+            d.x_net, d.x_rail, d.x_via, d.transistors, d.diodes, d.switching, d.ground, d.g_conf,
+            d.g_ev, d.topology, d.topo_ev, d.topo_conf, d.switch_el, d.rect_el, d.input_net, d.output_net)
         stage = Stage(name=name, topology=topology or "buck", switching=switching, switch_node=sw,
                       input_net=input_net, output_net=output_net, ground_net=ground)
         roles: list[Role] = []

@@ -6,9 +6,10 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
+from typing import Any
 
 from ..board import Pad
-from .evidence import (Clue, bootstrap_caps, bridge_partner, exposed_pad_net, feedback_divider, inductor_class,
+from .evidence import (Clue, bootstrap_caps, bootstrap_nets, bridge_partner, exposed_pad_net, feedback_divider, inductor_class,
                        load_only_far_end, other_ics, pin_weight, power_connectors, rail_sources, rail_voltage,
                        reaches_antenna, snubber_caps, transformers_on)
 from .netlist import (GROUND_NAMES, INPUT_NAMES, OUTPUT_NAMES, SWITCH_NODE_NAMES, Part)
@@ -30,6 +31,28 @@ class _Element:
     gate_net: str | None = None
     evidence: list[str] = field(default_factory=list)
     confidence: float = 0.8
+
+
+@dataclass
+class TopologyDecision:
+    """What the topology step decided for one stage, with its evidence and confidence."""
+
+    x_net: str                         # the inductor's far net
+    x_rail: str                        # ... and the rail it reaches (through a series resistor)
+    x_via: Part | None
+    transistors: list[_Element]
+    diodes: list[_Element]
+    switching: str
+    ground: str | None
+    g_conf: float
+    g_ev: list[str]
+    topology: str | None
+    topo_ev: str
+    topo_conf: float
+    switch_el: _Element | None
+    rect_el: _Element | None
+    input_net: str | None
+    output_net: str | None
 
 
 class TopologyMixin:
@@ -504,3 +527,162 @@ class TopologyMixin:
         topology = "buck" if buck > boost else "boost"
         conf = round(min(0.95, 0.5 + 0.1 * abs(buck - boost)), 2)
         return topology, f"clues {buck:g} buck / {boost:g} boost: {why}", conf
+
+    def _decide(self, name: str, sw: str, inductor: Part, switching: str,
+                fixed: dict[str, Any]) -> TopologyDecision:
+        """The topology step of one stage: its switching elements, ground, topology, switch and
+        rectifier, input and output rails (roles named in the project file win)."""
+        nl = self.nl
+        x_net = next(iter(inductor.nets - {sw}))
+        x_rail, x_via = self._resolve_rail(x_net, {sw})
+        elements = [self._element(p, sw) for p in nl.on(sw) if p.kind in ("transistor", "diode", "ic")
+                    and p.ref != inductor.ref and (p.kind != "transistor" or len(p.nets) >= 2)]
+        # a named switch or rectifier must be among them
+        for key in ("switch", "rectifier"):
+            if key in fixed and fixed[key] not in [e.part.ref for e in elements]:
+                part = nl.parts[fixed[key]]
+                kind = part.kind
+                if kind not in ("transistor", "diode", "ic"):
+                    # a part of unknown kind named as a switch: by its connections
+                    kind = "transistor" if len(part.nets) >= 3 else "diode"
+                    self.messages.append(f"{name}: {part.ref} (named {key}) taken as a {kind} from its "
+                                         f"{len(part.nets)} connected nets")
+                elements.append(self._element(part, sw, kind))
+        transistors = [e for e in elements if e.kind == "transistor"]
+        diodes = [e for e in elements if e.kind == "diode"]
+        ics = [e for e in elements if e.kind == "ic"]
+        if fixed.get("switch") and nl.parts[fixed["switch"]].kind == "ic":
+            transistors = [e for e in transistors if e.part.ref == fixed.get("rectifier")]
+        if transistors:
+            # two transistors switch synchronously, also with a Schottky across the low side
+            switching = "synchronous" if len(transistors) >= 2 else "discrete"
+        elif ics:
+            switching = "integrated"
+
+        ic_rails: list[str] = []
+        self._rail_tie = None
+        if switching == "integrated":
+            ic = ics[0].part
+            # a bootstrap capacitor's IC pin is never a rail (it rides on the switch node)
+            ic_rails = sorted(n for n in ic.nets - {sw} - bootstrap_nets(nl, sw) if nl.is_railish(n))
+        rails = [x_rail] + [e.rail for e in transistors + diodes if e.rail] + ic_rails
+        cathode_sides = set()
+        for e in diodes:
+            k, _ = self._diode_cathode(e.part)
+            if k is not None and k != sw:
+                cathode_sides.add(k)
+        ground, g_conf, g_ev = self._ground_of(rails, fixed.get("ground_net"), cathode_sides,
+                                               [e.part for e in ics])
+
+        topology = fixed.get("topology")
+        topo_ev = "named in loopcheck.toml" if topology else ""
+        topo_conf = 1.0 if topology else 0.8
+        switch_el: _Element | None = None
+        rect_el: _Element | None = None
+        input_net = output_net = None
+
+        def by_ref(ref):
+            return next((e for e in elements if e.part.ref == ref), None)
+
+        on_ground = [e for e in transistors + diodes if e.rail == ground]
+        off_ground = [e for e in transistors + diodes if e.rail != ground]
+        # a low-side (floating) buck, common in LED drivers: switch from the switch node to ground,
+        # diode up to the input, the load (and its capacitor) between the input and the inductor
+        low_t = next((e for e in on_ground if e.kind == "transistor"), None)
+        up_d = next((e for e in off_ground if e.kind == "diode"), None)
+        across = (self._load_across(x_rail, up_d.rail, ground) if low_t is not None and up_d is not None
+                  and ground != x_rail and topology in (None, "buck") else None)
+        floating = across is not None
+        self._floating, self._across = floating, across
+        if switching in ("discrete", "synchronous"):
+            if topology is None:
+                if ground == x_rail:
+                    topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
+                elif any(e.kind == "diode" for e in on_ground) and any(e.kind == "transistor" for e in off_ground):
+                    d = next(e for e in on_ground if e.kind == "diode")
+                    topology, topo_ev = "buck", f"diode {d.part.ref} from the switch node to ground"
+                elif floating:
+                    topology, topo_ev = "buck", (
+                        f"low-side (floating) buck: transistor {low_t.part.ref} to ground, diode {up_d.part.ref} "
+                        f"up to {up_d.rail}, the load capacitor between {across} and {x_rail}")
+                elif any(e.kind == "transistor" for e in on_ground) and any(e.kind == "diode" for e in off_ground):
+                    t = next(e for e in on_ground if e.kind == "transistor")
+                    d = next(e for e in off_ground if e.kind == "diode")
+                    topology, topo_ev = "boost", (f"transistor {t.part.ref} to ground and diode "
+                                                  f"{d.part.ref} to the output")
+                else:
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [e.rail for e in off_ground], sw,
+                                                                              ground)
+            if topology == "buck" and floating:
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else low_t
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else up_d
+                input_net = rect_el.rail if rect_el else None
+                output_net = x_rail
+            elif topology == "buck":
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
+                    next((e for e in off_ground if e.kind == "transistor"), None))
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
+                    next((e for e in on_ground if e is not switch_el), None))
+                input_net = switch_el.rail if switch_el else None
+                output_net = x_rail
+            elif topology == "boost":
+                switch_el = by_ref(fixed["switch"]) if "switch" in fixed else (
+                    next((e for e in on_ground if e.kind == "transistor"), None))
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
+                    next((e for e in off_ground if e is not switch_el), None))
+                input_net = x_rail
+                output_net = rect_el.rail if rect_el else None
+            else:  # inverting buck-boost: switch SW-input, rectifier SW-output
+                cands = [e for e in transistors + diodes if e.rail != ground]
+                if "switch" in fixed:
+                    switch_el = by_ref(fixed["switch"])
+                else:
+                    ts = [e for e in cands if e.kind == "transistor"]
+                    if len(ts) == 1 or not ts:
+                        switch_el = ts[0] if ts else None
+                    else:
+                        switch_el = max(ts, key=lambda e: self._input_likeness(e.rail))
+                rect_el = by_ref(fixed["rectifier"]) if "rectifier" in fixed else (
+                    next((e for e in cands if e is not switch_el), None))
+                input_net = switch_el.rail if switch_el else None
+                output_net = rect_el.rail if rect_el else None
+        else:  # integrated
+            ic_el = ics[0] if ics else None
+            ext = diodes[0] if diodes else (transistors[0] if transistors else None)
+            if "rectifier" in fixed:
+                ext = by_ref(fixed["rectifier"])
+            ic = ic_el.part if ic_el else None
+            if topology is None:
+                if ground == x_rail:
+                    topology, topo_ev = "buck-boost", f"the inductor returns to ground ({ground})"
+                elif ext is not None and ext.rail == ground:
+                    topology, topo_ev = "buck", f"{ext.part.ref} from the switch node to ground"
+                elif ext is not None and ext.rail is not None:
+                    topology, topo_ev = "boost", f"{ext.part.ref} from the switch node to {ext.rail}"
+                else:
+                    power = self._power_rail(ic, [n for n in ic_rails if n not in (ground, x_rail)]) if ic else None
+                    topology, topo_ev, topo_conf = self._buck_or_boost(x_rail, [power] if power else [], sw, ground)
+            switch_el = ic_el
+            if ext is not None and (ext.rail == ground or topology != "buck"):
+                rect_el = ext
+            else:
+                rect_el = ic_el
+            others = [n for n in ic_rails if n not in (ground, x_rail, sw)]
+            power = self._power_rail(ic, others) if ic is not None else None
+            if topology == "buck":
+                output_net = x_rail
+                input_net = fixed.get("input_net") or power
+            elif topology == "boost":
+                input_net = x_rail
+                output_net = ext.rail if ext is not None and ext.rail else power
+            else:
+                input_net = power
+                output_net = ext.rail if ext is not None else None
+            if ic is not None and not diodes and rect_el is ic_el:
+                topo_ev += "; switches inside the IC"
+        input_net = fixed.get("input_net") or input_net
+        output_net = fixed.get("output_net") or output_net
+
+        return TopologyDecision(x_net=x_net, x_rail=x_rail, x_via=x_via, transistors=transistors, diodes=diodes, switching=switching,
+                                ground=ground, g_conf=g_conf, g_ev=g_ev, topology=topology, topo_ev=topo_ev,
+                                topo_conf=topo_conf, switch_el=switch_el, rect_el=rect_el, input_net=input_net, output_net=output_net)
