@@ -223,6 +223,9 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
     n_bom = 0
     packages: dict[str, str] = {}
     sides: dict[str, str] = {}
+    for _, _, gl in raw_layers:
+        for ref, fp in (getattr(gl, "component_footprints", None) or {}).items():
+            packages.setdefault(ref, fp)
     if fab.bom is not None:
         inputs[fab.relname(fab.bom)] = "BOM / placement list"
         try:

@@ -558,3 +558,18 @@ def test_classes_through_synthesized_fab_outputs(tmp_path, name):
         "half_bridge": [("half-bridge", "SW", None, None)],
     }[name]
     assert got == want
+
+
+def test_x3_footprint_attribute_gives_the_package(tmp_path):
+    """A Gerber X3 %TO.CFtp% component attribute on a copper pad reaches Board.component_packages."""
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    _write(RADIO, tmp_path)
+    top = next(tmp_path.glob("*copper-L1-top.gbr"))
+    text = top.read_text()
+    marker = "%TO.C,L1*%"
+    assert marker in text
+    top.write_text(text.replace(marker, marker + "\n%TO.CFtp,L_0402_1005Metric*%", 1))
+    b = load_board(load_project(tmp_path))
+    assert b.component_packages.get("L1") == "L_0402_1005Metric"
