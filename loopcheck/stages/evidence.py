@@ -84,14 +84,17 @@ def snubber_caps(nl: Netlist, sw: str) -> list[Part]:
     return out
 
 
-def reaches_antenna(nl: Netlist, net: str, hops: int = 3) -> Part | None:
+def reaches_antenna(nl: Netlist, net: str, hops: int = 3, small: int = 5) -> Part | None:
     """An antenna (AE/ANT designator) reached from ``net`` through up to ``hops`` two-terminal
-    inductors, capacitors or connectors (an RF matching network), or None."""
+    inductors, capacitors or connectors (an RF matching network), or None. Only small nets (at
+    most ``small`` parts) are crossed: a matching network's nets are; rails and ground are not."""
     seen = {net}
     frontier = [net]
     for _ in range(hops + 1):
         nxt = []
         for n in frontier:
+            if len(nl.on(n)) > small:
+                continue
             for p in nl.on(n):
                 if p.kind == "antenna":
                     return p
