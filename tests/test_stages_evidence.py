@@ -573,3 +573,13 @@ def test_x3_footprint_attribute_gives_the_package(tmp_path):
     top.write_text(text.replace(marker, marker + "\n%TO.CFtp,L_0402_1005Metric*%", 1))
     b = load_board(load_project(tmp_path))
     assert b.component_packages.get("L1") == "L_0402_1005Metric"
+
+
+def test_clue_power_connectors():
+    nl = nl_of({"J1": [(1, "VIN", 0, 0), (2, "GND", 0, 1)],
+                "J2": [(1, "VCC", 2, 0), (2, "GND", 2, 1), (3, "SDA", 2, 2), (4, "SCL", 2, 3), (5, "INT", 2, 4)],
+                "J3": [("A4", "VBUS", 4, 0), ("B4", "VBUS", 4, 1), ("A1", "GND", 4, 2), ("B1", "GND", 4, 3),
+                       ("A6", "DP", 4, 4), ("A7", "DN", 4, 5), ("A5", "CC1", 4, 6)]})
+    assert E.power_connectors(nl, "VIN", "GND") == ["J1"]
+    assert E.power_connectors(nl, "VCC", "GND") == []           # an I/O header that also carries VCC
+    assert E.power_connectors(nl, "VBUS", "GND") == ["J3"]       # USB-C: VBUS and GND on several pins

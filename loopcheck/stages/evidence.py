@@ -261,7 +261,9 @@ def power_connectors(nl: Netlist, net: str, ground: str | None) -> list[str]:
     for p in nl.on(net):
         if p.kind not in ("connector", "battery", "other"):
             continue
-        if len(p.nets) <= 2 or (len(p.nets) <= 3 and ground in p.nets):
+        if len(p.nets) <= 2 or (len(p.nets) <= 3 and ground in p.nets) or (
+                ground in p.nets and len(p.pads_on(net)) >= 2 and len(p.pads_on(ground)) >= 2):
+            # ... or a rail on several pins beside several ground pins (a USB-C receptacle's VBUS)
             out.append(p.ref)
     return out
 
