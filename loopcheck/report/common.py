@@ -92,6 +92,8 @@ class CheckResult:
                 n = len(g.labels)
                 out.append(f"{where}{g.module}: {n} measurement{'s' if n != 1 else ''} not made: "
                            f"{g.reason}")
+        # a stage resting on weak evidence is never a clean pass: say what would settle it
+        out += [st.unsure_text() for st in a.stages if getattr(st, "unsure", None)]
         return out
 
     @property
