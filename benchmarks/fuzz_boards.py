@@ -1016,10 +1016,14 @@ def judge(run: Running, status: int, rusage, keep: Path | None, timeout: float) 
         if len(lines) != 1 or not lines[0].startswith("loopcheck: "):
             failures.append("exit-2-message")
     if rc in (0, 1) and case.command == "check" and not run.timed_out:
+        # one report, or one per board when the folder holds several (report-NAME.json)
+        stem, suffix = run.out.stem, run.out.suffix
+        reports = [n for n in outs if n == run.out.name or (n.startswith(stem + "-") and n.endswith(suffix))]
         try:
-            json.loads(run.out.read_text())
-            if outs != [run.out.name]:
-                failures.append("no-report")      # stray files beside the report
+            for n in reports:
+                json.loads((run.out.parent / n).read_text())
+            if not reports or sorted(outs) != sorted(reports):
+                failures.append("no-report")      # none, or stray files beside the reports
         except (OSError, ValueError):
             failures.append("no-report")
     verdict = failures[0] if failures else ("exit-3-internal" if rc == 3 else f"exit-{rc}")
