@@ -20,7 +20,8 @@ with a time limit, and judges the run by the bad-input contract:
 - nothing written, changed or removed beside the inputs (every file's kind, size and SHA-256,
   and every link's target, are compared before and after; the working folder stays empty);
 - no temporary files left behind (TMPDIR is a folder of the case, empty afterwards);
-- on exit 2: no report file, and stderr is one line ``loopcheck: ...``;
+- on exit 2: no report file, and stderr is one line ``loopcheck: ...`` (one per refused board
+  when the folder holds several boards);
 - on exit 0 or 1 of ``check``: the report is there and is JSON.
 
 A case is reproducible from the seed and its number alone: ``--seed S --only N``.
@@ -1013,7 +1014,9 @@ def judge(run: Running, status: int, rusage, keep: Path | None, timeout: float) 
         if outs:
             failures.append("report-on-exit-2")
         lines = stderr.strip("\n").split("\n")
-        if len(lines) != 1 or not lines[0].startswith("loopcheck: "):
+        # one line, or one per refused board when the folder holds several
+        if not lines or not all(line.startswith("loopcheck: ") for line in lines) or (
+                len(lines) > 1 and not all(line.startswith("loopcheck: board ") for line in lines)):
             failures.append("exit-2-message")
     if rc in (0, 1) and case.command == "check" and not run.timed_out:
         # one report, or one per board when the folder holds several (report-NAME.json)
