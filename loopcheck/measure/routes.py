@@ -30,7 +30,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import ndimage
-from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import dijkstra
 from shapely.geometry import LineString
 from shapely.geometry.base import BaseGeometry
@@ -161,16 +160,24 @@ class NetRaster:
         return w
 
     def graph(self, attract: np.ndarray | None = None):
-        """The weighted graph (CSR); its structure is built once, only the weights change."""
+        """The weighted graph (CSR); its structure is built once, only the weights change.
+
+        The CSR arrays are built here from the (deduplicated, see ``unique_edges``) edge list, each
+        stored entry's edge id kept beside it, so the weights never depend on how a sparse-matrix
+        conversion orders or sums entries."""
         if getattr(self, "_csr", None) is None:
+            from scipy.sparse import csr_matrix
             N = len(self.nodes)
-            # both directions stored: dijkstra(directed=True) then needs no transpose per call
             E = len(self.edge_a)
-            order = np.concatenate([np.arange(1, E + 1), np.arange(1, E + 1)]).astype(float)
-            g = coo_matrix((order, (np.concatenate([self.edge_a, self.edge_b]),
-                                    np.concatenate([self.edge_b, self.edge_a]))), shape=(N, N)).tocsr()
-            self._perm = g.data.astype(np.int64) - 1
-            self._csr = g
+            # both directions stored: dijkstra(directed=True) then needs no transpose per call
+            rows = np.concatenate([self.edge_a, self.edge_b]).astype(np.int64)
+            cols = np.concatenate([self.edge_b, self.edge_a]).astype(np.int64)
+            eid = np.concatenate([np.arange(E), np.arange(E)]).astype(np.int64)
+            order = np.lexsort((cols, rows))
+            indptr = np.zeros(N + 1, dtype=np.int64)
+            np.cumsum(np.bincount(rows, minlength=N), out=indptr[1:])
+            self._perm = eid[order]
+            self._csr = csr_matrix((np.ones(len(order)), cols[order], indptr), shape=(N, N))
         if attract is None and getattr(self, "_plain", None) is not None:
             return self._plain
         g = self._csr.copy()
@@ -178,6 +185,25 @@ class NetRaster:
         if attract is None:
             self._plain = g
         return g
+
+
+def unique_edges(a: np.ndarray, b: np.ndarray, length: np.ndarray,
+                 is_via: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The undirected edge list with self-loops dropped and each node pair once, at its least
+    length (two via records in one raster cell, a via that is also a plated pad, stitching vias
+    give the same pair twice). A pair's via flag is that of its kept (shortest) record."""
+    a = np.asarray(a, dtype=np.int64)
+    b = np.asarray(b, dtype=np.int64)
+    length = np.asarray(length, dtype=float)
+    is_via = np.asarray(is_via, dtype=bool)
+    keep = a != b
+    a, b, length, is_via = a[keep], b[keep], length[keep], is_via[keep]
+    lo, hi = np.minimum(a, b), np.maximum(a, b)
+    order = np.lexsort((length, hi, lo))          # per pair, the shortest first
+    lo, hi, length, is_via = lo[order], hi[order], length[order], is_via[order]
+    first = np.ones(len(lo), dtype=bool)
+    first[1:] = (lo[1:] != lo[:-1]) | (hi[1:] != hi[:-1])
+    return lo[first], hi[first], length[first], is_via[first]
 
 
 def choose_pitch(area_mm2: float, min_width_mm: float | None = None) -> float:
@@ -258,6 +284,7 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     is_via = np.zeros(len(edge_a), dtype=bool)
     if via_a:
         is_via[-len(via_a):] = True
+    edge_a, edge_b, edge_len, is_via = unique_edges(edge_a, edge_b, edge_len, is_via)
     e = edt[masks]
     base = 1.0 + ALPHA * p / np.maximum(e, p)
     out = NetRaster(net, grid, layers, masks, edt, index, nodes, edge_a, edge_b, edge_len, is_via, base, z)
