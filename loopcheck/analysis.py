@@ -100,6 +100,10 @@ def measure_stage(ctx, stage: Stage, timings: dict[str, float] | None = None) ->
     ]
     import time
 
+    from .measure.loopcap import settle_loop_capacitor
+
+    # the loop's capacitor is chosen once, before the measurements that use it
+    settle_loop_capacitor(ctx, stage)
     out: list[Measurement] = []
     for name, fn in modules:
         t0 = time.perf_counter()

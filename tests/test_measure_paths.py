@@ -11,6 +11,7 @@ from loopcheck.board import Pad
 from loopcheck.measure.current import measure_paths, rms_currents
 from loopcheck.measure.decoupling import measure_controller_decoupling, measure_input_cap
 from loopcheck.measure.netcopper import MeasureContext
+from loopcheck.measure.routes import route
 from loopcheck.measure.switchnode import measure_switch_node
 from loopcheck.powerstage import OperatingPoint, Role, Stage
 
@@ -104,8 +105,13 @@ def test_input_caps_ranked_by_copper_path():
     assert p.value == pytest.approx(3.0, abs=0.1)
     rank = p.detail["ranking"]
     assert [r["ref"] for r in rank] == ["C1", "C2"]
-    # centreline 23 mm; the route may cut each of the two corners inside the 0.5 mm trace
-    assert 23 - 2 * 0.5 <= rank[1]["path_length_mm"] <= 23.1
+    assert rank[0]["rail_path_mm"] == pytest.approx(3.0, abs=0.1)
+    # C2 is farther in a straight line (rail + ground) than C1 by copper: not routed, and said so
+    assert rank[1]["path_length_mm"] is None and "straight line" in rank[1]["not_routed"]
+    # its copper path: centreline 23 mm; the route may cut each of the two corners inside the 0.5 mm trace
+    b = decoupling_board()
+    r2 = route(MeasureContext(b), b.terminals["C2.1"], b.terminals["Q1.3"])
+    assert 23 - 2 * 0.5 <= r2.length_mm <= 23.1
     assert ms["input_cap.straight_distance"].value == pytest.approx(3.0)
     assert p.detail["ground_path_mm"] == pytest.approx(5.0, abs=0.1)      # C1.2 (7, 2) to D1.2 (12, 2)
     L = ms["input_cap.inductance"]

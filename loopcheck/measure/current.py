@@ -27,7 +27,7 @@ from ..findings import Measurement
 from ..powerstage import Stage
 from . import path_quantity
 from .common import duty_cycle, measurement, not_made, op_assumptions, point, polyline
-from .dcnet import pad_contact, sheets_and_vias
+from .dcnet import pad_contact, sheets_and_vias, solve_window, window_note
 from .netcopper import MeasureContext, dielectric_between, layer_thickness_m
 from .routes import RouteError, narrowest_point, route
 
@@ -152,6 +152,25 @@ def _plane_distance_m(ctx: MeasureContext, layer: int, x: float, y: float) -> fl
     return best
 
 
+def dc_pitch_mm(layers, neck_mm: float, pads: list[Pad], cells_across: float = 6.0) -> float:
+    """Raster pitch [mm] of a path's DC solve: six cells across the narrowest copper the path's
+    route passes (measured on the geometry, ``routes.narrowest_point``) and three across its
+    smallest end pad, no finer than ``DC_MAX_CELLS`` allow over the solved copper's box (the rule of
+    ``physics.dcsolve.choose_pitch_mm``, with the neck taken from the route rather than found by
+    eroding the whole copper, which is slow on large pours)."""
+    b = [l.geometry.bounds for l in layers if not l.geometry.is_empty]
+    minx, miny = min(x[0] for x in b), min(x[1] for x in b)
+    maxx, maxy = max(x[2] for x in b), max(x[3] for x in b)
+    extent = max(maxx - minx, maxy - miny)
+    area = (maxx - minx) * (maxy - miny)
+    floor_h = math.sqrt(max(area, extent * extent / DC_MAX_CELLS) * len(b) / DC_MAX_CELLS)
+    h = min(extent / 100.0, neck_mm / cells_across)
+    sizes = [min(d for d in (p.width_mm, p.height_mm) if d) for p in pads if p.width_mm or p.height_mm]
+    if sizes:
+        h = min(h, min(sizes) / 3.0)
+    return float(max(h, floor_h))
+
+
 def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
     from ..physics import copper
 
@@ -206,10 +225,12 @@ def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
                                        "plane_distance_mm": pd * 1e3 if pd else None}, **base, **loc))
         temp = op.ambient_c + min(rise, MAX_RISE_FOR_RESISTANCE_K)
         try:
-            layers, vias, ix = sheets_and_vias(ctx, net, temp)
+            win = solve_window([(x_, y_) for x_, y_, _ in r.points] + [(p.x_mm, p.y_mm) for p in frm + to])
+            layers, vias, ix = sheets_and_vias(ctx, net, temp, win)
             ca = pad_contact(ctx, "a", frm, ix, potential_v=1.0)
             cb = pad_contact(ctx, "b", to, ix, potential_v=0.0)
-            R = float(two_terminal_resistance(layers, ca, cb, vias, max_cells=DC_MAX_CELLS))
+            h = dc_pitch_mm(layers, w_mm, frm + to)
+            R = float(two_terminal_resistance(layers, ca, cb, vias, pitch_mm=h, max_cells=DC_MAX_CELLS))
         except Exception as exc:       # the solver's errors name the problem; the other paths go on
             out.append(not_made(path_quantity(name, "resistance"), stage, f"DC solve failed: {exc}", **base))
             out.append(not_made(path_quantity(name, "loss"), stage, f"DC solve failed: {exc}", **base))
@@ -217,7 +238,8 @@ def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
             continue
         r_notes = common + [f"copper at {temp:.1f} C: ambient {op.ambient_c:g} C plus the narrowest point's "
                             "IPC-2221 rise (the whole path taken as warm as its hottest point)",
-                            "DC solve of the net's copper between the path's end pads (equipotential pads)"]
+                            "DC solve of the net's copper between the path's end pads (equipotential pads)",
+                            window_note(win)]
         out.append(measurement(path_quantity(name, "resistance"), R * 1e3, stage, drawings=draw[:1],
                                assumptions=r_notes, detail={"temperature_c": temp, "path_length_mm": r.length_mm},
                                **base, **loc))

@@ -166,18 +166,22 @@ class NetRaster:
         stored entry's edge id kept beside it, so the weights never depend on how a sparse-matrix
         conversion orders or sums entries."""
         if getattr(self, "_csr", None) is None:
-            from scipy.sparse import csr_matrix
+            from scipy.sparse import coo_matrix
             N = len(self.nodes)
             E = len(self.edge_a)
-            # both directions stored: dijkstra(directed=True) then needs no transpose per call
-            rows = np.concatenate([self.edge_a, self.edge_b]).astype(np.int64)
-            cols = np.concatenate([self.edge_b, self.edge_a]).astype(np.int64)
-            eid = np.concatenate([np.arange(E), np.arange(E)]).astype(np.int64)
-            order = np.lexsort((cols, rows))
-            indptr = np.zeros(N + 1, dtype=np.int64)
-            np.cumsum(np.bincount(rows, minlength=N), out=indptr[1:])
-            self._perm = eid[order]
-            self._csr = csr_matrix((np.ones(len(order)), cols[order], indptr), shape=(N, N))
+            # both directions stored: dijkstra(directed=True) then needs no transpose per call.
+            # Each stored entry carries its edge's id + 1 as its value, so the weights are put back
+            # by id whatever order the conversion leaves; the pairs are unique (``unique_edges``),
+            # and a conversion that merged entries (summing ids) is refused rather than used
+            ids = np.arange(1, E + 1, dtype=np.float64)
+            g = coo_matrix((np.concatenate([ids, ids]),
+                            (np.concatenate([self.edge_a, self.edge_b]),
+                             np.concatenate([self.edge_b, self.edge_a]))), shape=(N, N)).tocsr()
+            if g.nnz != 2 * E:
+                raise ValueError(f"route graph of net {self.net}: {2 * E - g.nnz} repeated node pairs "
+                                 "(edges must be unique)")
+            self._perm = g.data.astype(np.int64) - 1
+            self._csr = g
         if attract is None and getattr(self, "_plain", None) is not None:
             return self._plain
         g = self._csr.copy()
@@ -284,7 +288,15 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     is_via = np.zeros(len(edge_a), dtype=bool)
     if via_a:
         is_via[-len(via_a):] = True
-    edge_a, edge_b, edge_len, is_via = unique_edges(edge_a, edge_b, edge_len, is_via)
+    if via_a:
+        # the in-layer edges are unique by construction (one per cell pair and offset); via
+        # records can repeat a pair: those are made unique here
+        va, vb, vl, vv = unique_edges(edge_a[is_via], edge_b[is_via], edge_len[is_via], is_via[is_via])
+        keep = ~is_via
+        edge_a = np.concatenate([edge_a[keep], va])
+        edge_b = np.concatenate([edge_b[keep], vb])
+        edge_len = np.concatenate([edge_len[keep], vl])
+        is_via = np.concatenate([is_via[keep], vv])
     e = edt[masks]
     base = 1.0 + ALPHA * p / np.maximum(e, p)
     out = NetRaster(net, grid, layers, masks, edt, index, nodes, edge_a, edge_b, edge_len, is_via, base, z)
@@ -561,10 +573,26 @@ def cast_width(copper: BaseGeometry, x: float, y: float, ux: float, uy: float,
     return None
 
 
+def _route_copper(ctx: MeasureContext, r: Route) -> dict[int, BaseGeometry]:
+    """The net's copper on the route's layers, clipped to the route's box grown by the cast reach
+    (a cut across the route never reaches farther; cutting a whole pour each time is slow)."""
+    import shapely
+
+    xs = [p[0] for p in r.points]
+    ys = [p[1] for p in r.points]
+    m = CAST_REACH_MM + 0.1
+    out = {}
+    for layer in {p[2] for p in r.points}:
+        g = ctx.net_copper(r.net).get(layer)
+        if g is not None:
+            out[layer] = shapely.clip_by_rect(g, min(xs) - m, min(ys) - m, max(xs) + m, max(ys) + m)
+    return out
+
+
 def segment_widths(ctx: MeasureContext, r: Route) -> list[float]:
     """Per-segment copper width [mm] measured on the geometry at each in-layer segment's midpoint
     (the raster width where the cut misses the copper, and for via crossings)."""
-    copper = ctx.net_copper(r.net)
+    copper = _route_copper(ctx, r)
     out = []
     for w, a, b in zip(r.widths_mm, r.points[:-1], r.points[1:]):
         L = math.hypot(b[0] - a[0], b[1] - a[1])
@@ -588,10 +616,10 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
     (it spreads around, and so does the heat)."""
     from shapely.geometry import Point
 
-    copper = ctx.net_copper(r.net)
     segs = [(a, b) for a, b in zip(r.points[:-1], r.points[1:]) if a[2] == b[2] and (a[0], a[1]) != (b[0], b[1])]
     if not segs:
         return r.narrowest()
+    copper = _route_copper(ctx, r)
     total = sum(math.hypot(b[0] - a[0], b[1] - a[1]) for a, b in segs)
     step = max(step_mm, total / max_casts)
     skip = []
@@ -604,9 +632,14 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
     def width_at(g, x, y, ux, uy):
         return cast_width(g, x, y, ux, uy)
 
+    # the raster already knows each segment's width within a pitch or two: cut only the segments
+    # that can hold the narrowest point (casts across large pours are slow)
+    raster_w = {(a, b): w for w, a, b in zip(r.widths_mm, r.points[:-1], r.points[1:])}
+    w_min = min(raster_w.get(sg, math.inf) for sg in segs)
+    near_neck = w_min * 1.5 + 2 * r.pitch_mm
     for a, b in segs:
         g = copper.get(a[2])
-        if g is None:
+        if g is None or raster_w.get((a, b), 0.0) > near_neck:
             continue
         L = math.hypot(b[0] - a[0], b[1] - a[1])
         ux, uy = (b[0] - a[0]) / L, (b[1] - a[1]) / L

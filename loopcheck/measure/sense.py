@@ -25,7 +25,7 @@ from ..findings import Measurement
 from ..powerstage import Stage
 from ..values import parse_value
 from .common import measurement, not_made, op_assumptions, point, polygon, polyline
-from .dcnet import pad_contact, sheets_and_vias
+from .dcnet import pad_contact, sheets_and_vias, solve_window, window_note
 from .hotloop import enclosed_area
 from .netcopper import MeasureContext
 from .routes import Route, RouteError, route
@@ -141,13 +141,25 @@ def _kelvin(ctx, stage, role, pa, pb, tap_a, tap_b, base) -> Measurement:
     if not in_a or not out_b:
         net = pa[0].net if not in_a else pb[0].net
         return not_made(q, stage, f"no terminal carries the load current on {net}", **base)
+    def window(pads: list[Pad], fr: Pad, taps: list[Pad], to: list[Pad]):
+        # the contacts and the copper paths between them (a sense trace may wander)
+        pts = [(p.x_mm, p.y_mm) for p in pads]
+        for ends in (taps, to):
+            try:
+                pts += route(ctx, fr, ends).xy
+            except RouteError:
+                pass
+        return solve_window(pts)
+
+    win_a = window(in_a + pa + tap_a, pa[0], tap_a, in_a)
+    win_b = window(out_b + pb + tap_b, pb[0], tap_b, out_b)
     try:
-        layers, vias, ix = sheets_and_vias(ctx, pa[0].net, temp)
+        layers, vias, ix = sheets_and_vias(ctx, pa[0].net, temp, win_a)
         sol = solve_dc(layers, [pad_contact(ctx, "in", in_a, ix, current_a=current),
                                 pad_contact(ctx, "rs", pa, ix, potential_v=0.0),
                                 pad_contact(ctx, "tap", tap_a, ix)], vias, max_cells=DC_MAX_CELLS)
         e_a = sol.contact_potential("tap") - sol.contact_potential("rs")
-        layers, vias, ix = sheets_and_vias(ctx, pb[0].net, temp)
+        layers, vias, ix = sheets_and_vias(ctx, pb[0].net, temp, win_b)
         sol_b = solve_dc(layers, [pad_contact(ctx, "rs", pb, ix, current_a=current),
                                   pad_contact(ctx, "out", out_b, ix, potential_v=0.0),
                                   pad_contact(ctx, "tap", tap_b, ix)], vias, max_cells=DC_MAX_CELLS)
@@ -162,7 +174,8 @@ def _kelvin(ctx, stage, role, pa, pb, tap_a, tap_b, base) -> Measurement:
     notes += [f"load current enters {pa[0].net} at {why_a} and leaves {pb[0].net} at {why_b}",
               f"copper at {temp:g} C (ambient); sense pins are floating taps (no current)",
               "resistor body lumped between its pads; ideal drop I R between the resistor's own pads",
-              "DC solve of each sense net's copper (finite differences on a raster)"] + \
+              "DC solve of each sense net's copper (finite differences on a raster)",
+              window_note(win_a)] + \
         op_assumptions(op, ("iout_a", "ambient_c"))
     tp = tap_a[0]
     return measurement(q, abs(pct), stage, drawings=[point(tp.x_mm, tp.y_mm), point(tap_b[0].x_mm, tap_b[0].y_mm)],

@@ -584,7 +584,15 @@ def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
     if not np.any(pick):
         m = np.where(act, cov, 0.0)
         if m.max() <= 0:
-            raise ValueError(f"{what} lies outside the copper (no grid cell; try a finer pitch_mm)")
+            # a region smaller than a cell on copper that is not a whole cell wide (a small pad at
+            # a thin trace's end on a coarse grid): the copper cell nearest its centre, within
+            # 1.5 pitches, else it cannot be placed on this grid
+            c = geom.centroid
+            near = _nearest_active(grid, active, float(c.x), float(c.y))
+            if near < 0:
+                raise ValueError(f"{what} lies outside the copper (no grid cell; try a finer pitch_mm)")
+            cells = np.array([near], dtype=np.int64)
+            return cells, cells, np.ones(1)
         pick = m >= m.max() * (1 - 1e-9)
     ii, jj = np.nonzero(pick)
     cells = (ii + i0) * grid.nx + (jj + j0)
