@@ -62,13 +62,17 @@ def sheets_and_vias(ctx: MeasureContext, net: str, temperature_c: float,
         layers.append(SheetLayer(cu[k], rs, board.layers[k].name))
     z = layer_z_mm(board)
     vias = []
+    barrel: dict[tuple[float, float], float] = {}     # (height, drill) -> resistance: vias repeat
     for x, y, drill, vl in ctx.via_sites(net):
         if window is not None and not (window[0] < x < window[2] and window[1] < y < window[3]):
             continue
         vl = tuple(l for l in vl if l in index)
         for a, b in zip(vl[:-1], vl[1:]):
             h = abs(z[a] - z[b]) * 1e-3
-            r = float(copper.via_resistance(h, drill * 1e-3, PLATING_M, temperature_c, rho20=rho20))
+            if (h, drill) not in barrel:
+                barrel[(h, drill)] = float(copper.via_resistance(h, drill * 1e-3, PLATING_M, temperature_c,
+                                                                 rho20=rho20))
+            r = barrel[(h, drill)]
             if a in index and b in index:
                 vias.append(ViaLink(x, y, index[a], index[b], r, radius_mm=drill / 2))
     return layers, vias, index

@@ -220,8 +220,10 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
                window: tuple[float, float, float, float] | None = None) -> NetRaster:
     """The net's copper (within ``window`` [mm], if given) as a raster graph (cached in the context)."""
     key = ("raster", net, pitch_mm, window)
-    if key in ctx.cache:
-        return ctx.cache[key]
+    kept = _raster_cache(ctx)
+    if key in kept:
+        kept.move_to_end(key)
+        return kept[key]
     copper = ctx.net_copper(net)
     if not copper:
         raise RouteError(f"net {net} has no copper on any layer")
@@ -244,7 +246,7 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     grid = grid_covering((minx, miny, maxx, maxy), p)
     masks = np.stack([rasterise(copper[l], grid) for l in layers])
     edt = np.stack([(ndimage.distance_transform_edt(m) * p).astype(np.float32) for m in masks])
-    index = -np.ones(masks.shape, dtype=np.int64)
+    index = -np.ones(masks.shape, dtype=np.int32)
     nodes = np.argwhere(masks)
     index[masks] = np.arange(len(nodes))
     ea, eb, el = [], [], []
@@ -300,8 +302,25 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     e = edt[masks]
     base = 1.0 + ALPHA * p / np.maximum(e, p)
     out = NetRaster(net, grid, layers, masks, edt, index, nodes, edge_a, edge_b, edge_len, is_via, base, z)
-    ctx.cache[key] = out
+    kept[key] = out
+    while len(kept) > RASTERS_KEPT:
+        kept.popitem(last=False)
     return out
+
+
+RASTERS_KEPT = 3      # net rasters kept per board (the routes traced on them are kept apart)
+
+
+def _raster_cache(ctx: MeasureContext):
+    """The few net rasters last used (least recently used dropped first): a raster with its graph
+    is up to a couple of hundred MB, and each route window makes its own, so keeping them all
+    grows without bound on a board with many stages (routes themselves are cached in full)."""
+    from collections import OrderedDict
+
+    kept = ctx.cache.get("rasters")
+    if kept is None:
+        kept = ctx.cache["rasters"] = OrderedDict()
+    return kept
 
 
 def _attraction(nr: NetRaster, attract_to: BaseGeometry) -> np.ndarray:

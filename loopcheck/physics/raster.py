@@ -98,6 +98,8 @@ def polygonal(geometry: BaseGeometry) -> BaseGeometry:
         return shapely.Polygon()
     if not geometry.is_valid:
         geometry = shapely.make_valid(geometry)
+    elif geometry.geom_type in ("Polygon", "MultiPolygon"):
+        return geometry          # valid: its parts do not overlap already (a union would change nothing)
     parts = [g for g in shapely.get_parts(geometry) if g.geom_type in ("Polygon", "MultiPolygon")]
     parts = [p for p in parts if not p.is_empty and p.area > 0]
     if not parts:
