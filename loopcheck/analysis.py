@@ -165,7 +165,8 @@ def analyse(board: Board, project: Any) -> Analysis:
             analysis.measurements += [not_made(q, stage, analysis.measurement_stopped) for q in all_quantities()]
         return analysis
     values, _ = component_values(board, project)
-    ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None)
+    ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None,
+                         stages=list(analysis.stages))
     for stage in analysis.stages:
         analysis.measurements += measure_stage(ctx, stage, analysis.timings_s)
     return analysis
