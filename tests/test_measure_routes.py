@@ -8,7 +8,7 @@ from shapely.ops import unary_union
 
 from loopcheck.board import Pad
 from loopcheck.measure.netcopper import MeasureContext
-from loopcheck.measure.raster import grid_covering, rasterise
+from loopcheck.physics.raster import grid_covering, rasterise
 from loopcheck.measure.routes import Route, RouteError, narrowest_point, route
 
 from measure_boards import make_board, smd, square_pad, trace

@@ -18,7 +18,7 @@ from shapely.ops import unary_union
 from shapely import affinity
 
 from ..board import Board, Pad
-from .raster import polygons_of
+from ..readers.fast_union import polygons_of
 
 DEFAULT_PAD_MM = 0.6            # pad size assumed where the netlist gives none
 

@@ -36,7 +36,7 @@ from shapely.geometry.base import BaseGeometry
 
 from ..board import Pad
 from .netcopper import MeasureContext, layer_z_mm
-from .raster import RasterGrid, cell_centre, grid_covering, rasterise
+from ..physics.raster import RasterGrid, cell_centre, grid_covering, rasterise
 
 ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
 MIN_PITCH_MM = 0.05
