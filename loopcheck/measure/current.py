@@ -75,7 +75,7 @@ def path_ends(ctx: MeasureContext, stage: Stage) -> dict[str, tuple[list[Pad], l
                                                     if t in ctx.board.terminals]
     src = main_source(net_flow(ctx, vin, stage), to[0]) if vin and to else None
     if src is not None and src.pads:
-        out["input"] = ([src.pads[0]], to, f"from {src.evidence} ({src.pads[0].terminal}) to "
+        out["input"] = (src.pads, to, f"from {src.evidence} ({src.pads[0].terminal}) to "
                         f"{', '.join(p.terminal for p in to)}", [src.evidence + " (assumed)"] if src.assumed else [])
     else:
         out["input"] = "where the input current enters the input rail (a connector or an upstream stage) " \
@@ -93,7 +93,7 @@ def path_ends(ctx: MeasureContext, stage: Stage) -> dict[str, tuple[list[Pad], l
         start = _pads_of(ctx, stage, "inductor", vout) or _pads_of(ctx, stage, "sense_resistor", vout)
     sink = main_sink(net_flow(ctx, vout, stage), start[0]) if vout and start else None
     if sink is not None and sink.pads:
-        out["output"] = (start, [sink.pads[0]], f"from {', '.join(p.terminal for p in start)} to {sink.evidence} "
+        out["output"] = (start, sink.pads, f"from {', '.join(p.terminal for p in start)} to {sink.evidence} "
                          f"({sink.pads[0].terminal})", [sink.evidence + " (assumed)"] if sink.assumed else [])
     else:
         out["output"] = "the output rail's source terminal or its load (a connector, LED, downstream stage or IC) " \
