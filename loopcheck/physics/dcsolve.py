@@ -562,7 +562,8 @@ def _nearest_active(grid: RasterGrid, active: np.ndarray, x: float, y: float, re
 
 def _disk_cells(grid: RasterGrid, active: np.ndarray, x: float, y: float, radius_mm: float) -> np.ndarray:
     """Flat indices (within the layer) of the active cells whose centres lie in the disk (a via's
-    land), or the active cell nearest its centre when none does (a land smaller than a cell).
+    land); when none does (a land smaller than a cell), the cell holding the centre if active,
+    else the active cell nearest the centre within 1.5 pitches, else the centre's own cell.
 
     The same cells as "at least half inside" up to the cells the disk's edge cuts near their
     centres, computed from the cell centres alone (vias are many: rasterising each land's
@@ -578,8 +579,12 @@ def _disk_cells(grid: RasterGrid, active: np.ndarray, x: float, y: float, radius
     inside = ((cx - x) ** 2 + (cy - y) ** 2 <= radius_mm ** 2) & active[i0:i1, j0:j1]
     if inside.any():
         return (ii[inside] * grid.nx + jj[inside]).astype(np.int64)
+    if active[i, j]:
+        return np.array([i * grid.nx + j], dtype=np.int64)
     near = _nearest_active(grid, active, x, y)
-    return np.array([near] if near >= 0 else [], dtype=np.int64)
+    # else the land is on an island smaller than a cell: its own cell becomes a node (the merger
+    # keeps it), joined by the via and by a contact in the same cell
+    return np.array([near if near >= 0 else i * grid.nx + j], dtype=np.int64)
 
 
 def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
@@ -606,14 +611,15 @@ def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
     if not np.any(pick):
         m = np.where(act, cov, 0.0)
         if m.max() <= 0:
-            # a region smaller than a cell on copper that is not a whole cell wide (a small pad at
-            # a thin trace's end on a coarse grid): the copper cell nearest its centre, within
-            # 1.5 pitches, else it cannot be placed on this grid
-            c = geom.centroid
-            near = _nearest_active(grid, active, float(c.x), float(c.y))
-            if near < 0:
+            # the region lies on copper that crosses no cell face: an island smaller than a cell
+            # (a pad joined to the rest of its net by a via in the pad, on a coarse grid). The
+            # cell under the region's centre stands for it: as an equipotential contact it
+            # becomes a node of its own, joined to the rest by the vias that land in it
+            if not weights:
                 raise ValueError(f"{what} lies outside the copper (no grid cell; try a finer pitch_mm)")
-            cells = np.array([near], dtype=np.int64)
+            c = geom.centroid
+            i, j = grid.cell_of(float(c.x), float(c.y))
+            cells = np.array([i * grid.nx + j], dtype=np.int64)
             return cells, cells, np.ones(1)
         pick = m >= m.max() * (1 - 1e-9)
     ii, jj = np.nonzero(pick)
