@@ -35,7 +35,7 @@ from ..powerstage import Stage
 from .netcopper import MeasureContext
 
 CONNECTOR = re.compile(r"^(J|P|CN|X|CON|TB|USB|BT|BAT)\d", re.I)   # connectors and batteries: current from off the board
-CAPACITOR = re.compile(r"^C(?!ON|N|R)[A-Z]*\d", re.I)
+CAPACITOR = re.compile(r"^C(?!ON|N|R)[A-Z]*\d", re.I)    # C12, CIN3, COUT1 (not CON, CN: connectors; CR: diodes)
 LED = re.compile(r"^(LED|D)\d", re.I)
 IC = re.compile(r"^(U|IC)\d", re.I)
 

@@ -19,15 +19,14 @@ exceeds the best copper path found (the choice is the same as routing them all).
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
 
 from ..board import Pad
 from ..powerstage import Role, Stage
+from .dcflow import CAPACITOR
 from .netcopper import MeasureContext
 from .routes import Route, RouteError, route
 
-_CAPACITOR = re.compile(r"^C(?!ON|N|R)[A-Z]*\d", re.I)   # C12, CIN3, COUT1 (not CON, CN: connectors; CR: diodes)
 
 
 @dataclass
@@ -126,7 +125,7 @@ def candidates(ctx: MeasureContext, stage: Stage, rail: str, ground: str, role_n
     gnd_refs = {p.ref for p in ctx.board.nets.get(ground, []) if p.ref}
     for ref in sorted(rail_refs & gnd_refs):
         pads = ctx.board.components.get(ref, [])
-        if ref in out or not _CAPACITOR.match(ref) or len({p.net for p in pads}) != 2:
+        if ref in out or not CAPACITOR.match(ref) or len({p.net for p in pads}) != 2:
             continue
         out[ref] = CapCandidate(ref, "across the rails")
     return list(out.values())
