@@ -85,7 +85,6 @@ def _module_quantities(name: str) -> list[str]:
                                ("resistance", "temperature_rise", "temperature_rise_ipc2152", "loss")] + ["copper_loss"],
         "switch node": ["switch_node.area", "switch_node.capacitance"],
         "layout loss": ["layout_loss"],
-        "loop capacitor": [],
     }[name]
 
 
@@ -103,13 +102,15 @@ MODULE_NAMES = ("hot loop", "input capacitor", "controller decoupling", "sense r
                 "high-current paths", "switch node", "layout loss")
 
 
-def _settle_loop_capacitor(ctx, stage: Stage) -> list[Measurement]:
-    """The loop's capacitor, chosen once before the measurements that use it (measure.loopcap):
-    the hot loop closes through it and the input-capacitor measurement names it. Measures nothing."""
+def _with_loop_capacitor(measure_hot_loop: Callable[..., list[Measurement]]) -> Callable[..., list[Measurement]]:
+    """The hot-loop module, preceded by the choice of the loop's capacitor (measure.loopcap):
+    the hot loop closes through it and the input-capacitor measurement (next) names it."""
     from .measure.loopcap import settle_loop_capacitor
 
-    settle_loop_capacitor(ctx, stage)
-    return []
+    def hot_loop(ctx, stage: Stage) -> list[Measurement]:
+        settle_loop_capacitor(ctx, stage)
+        return measure_hot_loop(ctx, stage)
+    return hot_loop
 
 
 def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
@@ -120,8 +121,7 @@ def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
     from .measure.switchnode import measure_switch_node
 
     return [
-        ("loop capacitor", _settle_loop_capacitor),
-        ("hot loop", measure_hot_loop),
+        ("hot loop", _with_loop_capacitor(measure_hot_loop)),
         ("input capacitor", measure_input_cap),
         ("controller decoupling", measure_controller_decoupling),
         ("sense resistor", measure_sense),
