@@ -87,6 +87,7 @@ class MeasureContext:
     connectivity: Any = None       # a connectivity.ConnectivityResult: its copper groups give the nets' copper
     cache: dict[Any, Any] = field(default_factory=dict)
     stages: list[Any] = field(default_factory=list)   # every stage of the board (dcflow: where current enters a rail)
+    inductance_method: str = "field"   # hot-loop inductance: "field" (field solve) or "fast" (path sum)
 
     def value_of(self, ref: str) -> str | None:
         return self.values.get(ref) or self.board.component_values.get(ref)
