@@ -202,7 +202,7 @@ def test_loop_basis_keeps_parallel_branches_apart():
 
     from loopcheck.physics.loopsolve import loop_basis
 
-    branches = np.array([[0, 1], [0, 1], [1, 2], [2, 0]])
+    branches = np.array([[1, 2], [2, 0], [0, 1], [0, 1]])
     C = loop_basis(3, branches).toarray()
     assert C.shape == (4, 2)
     assert np.linalg.matrix_rank(C) == 2
