@@ -387,12 +387,7 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
 def _resistivity(board) -> float:
     from ..physics.copper import resistivity
     rho = board.stackup.resistivity_ohm_m
-    if rho:
-        return float(rho)
-    try:
-        return float(resistivity(20.0))
-    except TypeError:
-        return 1.7241e-8
+    return float(rho) if rho else float(resistivity(20.0))
 
 
 def _centroid_legs(ctx: MeasureContext, loop, mesh, mag, legs):
