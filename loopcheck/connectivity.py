@@ -36,6 +36,7 @@ from .findings import Finding
 RULE_OPEN = "netlist-open"
 RULE_SHORT = "netlist-short"
 RULE_ALIGNMENT = "netlist-alignment"
+RULE_X2 = "netlist-x2-mismatch"
 
 ALIGNED_MIN_FRACTION = 0.5      # below this share of pads on copper the netlist is misaligned
 HINT_MIN_FRACTION = 0.9         # a transform is named when it lands at least this share ...
@@ -123,6 +124,12 @@ class ConnectivityResult:
     pad_islands: list[list[tuple[int, int]]] = field(default_factory=list)   # per board.pads index
     pad_group: list[int | None] = field(default_factory=list)
     landed_fraction: float = 1.0
+    # what the check decided that is not a finding (a net tie's own copper set aside, pads that
+    # need no copper), in plain words for the reports
+    notes: list[str] = field(default_factory=list)
+    # (pad index, layer index, X2 net names of the copper under the pad): the copper's own X2
+    # net attribute names another net than the netlist does
+    x2_disagreements: list[tuple[int, int, tuple[str, ...]]] = field(default_factory=list)
     _pad_index: dict[Pad, int] = field(default_factory=dict, repr=False)
 
     def copper_group_of_pad(self, pad: Pad) -> int | None:
@@ -205,7 +212,8 @@ class _UnionFind:
 class _Copper:
     """Islands and their STRtrees per layer, for point and shape queries."""
 
-    def __init__(self, board: Board):
+    def __init__(self, board: Board, islands: dict[int, list[Polygon]] | None = None):
+        self.board = board
         self.layers = [layer.index for layer in board.layers]
         self.islands: dict[int, list[Polygon]] = {}
         self.trees: dict[int, shapely.STRtree] = {}
@@ -213,7 +221,7 @@ class _Copper:
         self.arrays: dict[int, np.ndarray] = {}
         n = 0
         for layer in board.layers:
-            polys = _polygons(layer.geometry)
+            polys = _polygons(layer.geometry) if islands is None else islands[layer.index]
             self.islands[layer.index] = polys
             arr = np.array(polys, dtype=object)
             # a plane island can have 10^5 vertices: prepare it once, so that each point or hole
@@ -224,6 +232,23 @@ class _Copper:
             self.offset[layer.index] = n
             n += len(polys)
         self.count = n
+
+    def without(self, bridges: list["_Bridge"]) -> "_Copper":
+        """The same copper with each bridge's piece cut out of its island."""
+        cut: dict[tuple[int, int], list[BaseGeometry]] = {}
+        for b in bridges:
+            cut.setdefault((b.layer, b.island), []).append(b.piece)
+        islands = {}
+        for lay in self.layers:
+            polys = []
+            for k, poly in enumerate(self.islands[lay]):
+                if (lay, k) in cut:
+                    rest = poly.difference(shapely.union_all(cut[(lay, k)]).buffer(1e-4))
+                    polys.extend(_polygons(rest))
+                else:
+                    polys.append(poly)
+            islands[lay] = polys
+        return _Copper(self.board, islands)
 
     def node(self, layer: int, k: int) -> int:
         return self.offset[layer] + k
@@ -267,6 +292,31 @@ def _pad_shape(pad: Pad) -> BaseGeometry | None:
 def check_connectivity(board: Board) -> ConnectivityResult:
     """Copper groups against the netlist: opens, shorts and misalignment. See the module docstring."""
     copper = _Copper(board)
+    x2 = _X2Nets(board)
+    result = _build(board, copper, x2)
+    if not board.pads:
+        result.checked = False
+        result.not_checked_reason = "no netlist pads (no IPC-D-356 netlist and no X2 pin attributes)"
+        return result
+    reason = _why_x2_pads_cannot_be_checked(board)
+    if reason:
+        result.checked = False
+        result.not_checked_reason = reason
+        return result
+    # a part whose own copper joins two of its nets on purpose (a net tie, a printed antenna):
+    # that copper is set aside and the board judged again without it
+    bridges = _part_bridges(board, result, copper, x2)
+    if bridges:
+        cut = copper.without(bridges)
+        again = _build(board, cut, x2)
+        if len(_shorts(board, again, cut)) < len(_shorts(board, result, copper)):
+            copper, result = cut, again
+            result.notes.extend(b.note for b in bridges)
+    return _judge(board, result, copper, x2)
+
+
+def _build(board: Board, copper: "_Copper", x2: "_X2Nets") -> ConnectivityResult:
+    """Pads on islands, islands joined into copper groups (no findings yet)."""
     pads = board.pads
     result = ConnectivityResult(findings=[], checked=bool(pads), islands=copper.islands)
     result._pad_index = {}
@@ -274,25 +324,13 @@ def check_connectivity(board: Board) -> ConnectivityResult:
         result._pad_index.setdefault(p, i)
     uf = _UnionFind(copper.count)
 
-    # pads -> islands under them
-    pad_islands: list[list[tuple[int, int]]] = [[] for _ in pads]
-    if pads:
-        xs = np.array([p.x_mm for p in pads])
-        ys = np.array([p.y_mm for p in pads])
-        for lay in copper.layers:
-            on = [i for i, p in enumerate(pads) if lay in p.layers]
-            if not on:
-                continue
-            hit = copper.points_on(lay, xs[on], ys[on])
-            for i, k in zip(on, hit):
-                if k >= 0:
-                    pad_islands[i].append((lay, int(k)))
-                else:
-                    k2 = _island_under_shape(copper, lay, pads[i])
-                    if k2 is not None:
-                        pad_islands[i].append((lay, k2))
-    # a pad joins all islands under it (a through pad: across the layers, by its plating)
-    for isl in pad_islands:
+    pad_islands, x2_disagree = _match_pads(board, copper, x2)
+    result.x2_disagreements = x2_disagree
+    # a plated drilled pad joins the islands under it on every layer (by its plating); a surface
+    # pad lands on one island; an unplated hole joins nothing
+    for i, isl in enumerate(pad_islands):
+        if _kind(pads[i]) != "drilled":
+            continue
         for (la, ka), (lb, kb) in zip(isl, isl[1:]):
             uf.union(copper.node(la, ka), copper.node(lb, kb))
 
@@ -336,25 +374,30 @@ def check_connectivity(board: Board) -> ConnectivityResult:
     result.pad_islands = pad_islands
     result.pad_group = pad_group
 
-    if not pads:
-        result.checked = False
-        result.not_checked_reason = "no netlist pads (no IPC-D-356 netlist and no X2 pin attributes)"
-        return result
-    reason = _why_x2_pads_cannot_be_checked(board)
-    if reason:
-        result.checked = False
-        result.not_checked_reason = reason
-        return result
+    return result
 
+
+def _judge(board: Board, result: ConnectivityResult, copper: "_Copper", x2: "_X2Nets") -> ConnectivityResult:
+    """Findings from the groups: alignment first, then opens, shorts and X2 disagreements."""
+    pads = board.pads
     # alignment: pads on no copper, or so many opens and shorts that the netlist may simply sit
-    # in the wrong place (on a board of planes and pours a shifted pad still lands on copper)
-    unlanded = [i for i, g in enumerate(pad_group) if g is None]
-    landed_fraction = 1.0 - len(unlanded) / len(pads)
+    # in the wrong place (on a board of planes and pours a shifted pad still lands on copper).
+    # Unplated holes and pads with neither net nor pin number (mounting holes, shell and
+    # mechanical pads) need no copper: they are not counted.
+    optional = [i for i, p in enumerate(pads) if _optional(p)]
+    counted = len(pads) - len(optional)
+    optional_set = set(optional)
+    unlanded = [i for i, g in enumerate(result.pad_group) if g is None and i not in optional_set]
+    landed_fraction = 1.0 - len(unlanded) / counted if counted else 1.0
     result.landed_fraction = landed_fraction
+    off = sum(1 for i in optional if result.pad_group[i] is None)
+    if off:
+        result.notes.append(f"{off} unplated holes or pads with no net and no pin number (mounting holes, "
+                            "connector shells) land on no copper; they need none")
     opens = _opens(board, result)
     shorts = _shorts(board, result, copper)
     named_nets = sum(1 for n in board.nets if n)
-    suspicious = (len(unlanded) / len(pads) >= SEARCH_MIN_UNLANDED
+    suspicious = (counted and len(unlanded) / counted >= SEARCH_MIN_UNLANDED
                   or len(opens) + len(shorts) >= max(2, SEARCH_MIN_UNLANDED * named_nets))
     found = search_alignment(board, copper) if suspicious else None
     if (found is not None and not found.is_identity and found.landed_fraction >= HINT_MIN_FRACTION
@@ -365,7 +408,7 @@ def check_connectivity(board: Board) -> ConnectivityResult:
                                  f"copper of their own net (as given: {found.baseline_fraction:.0%})")
         skipped = len(opens) + len(shorts)
         result.findings.append(_alignment_finding(board, unlanded, landed_fraction, result.alignment_hint,
-                                                  stopped=True, skipped=skipped))
+                                                  stopped=True, skipped=skipped, counted=counted))
         return result
     result.aligned = landed_fraction >= ALIGNED_MIN_FRACTION
     if unlanded:
@@ -376,11 +419,13 @@ def check_connectivity(board: Board) -> ConnectivityResult:
             result.alignment_hint = hint
         result.findings.append(_alignment_finding(board, unlanded, landed_fraction, hint,
                                                   stopped=not result.aligned,
-                                                  skipped=0 if result.aligned else len(opens) + len(shorts)))
+                                                  skipped=0 if result.aligned else len(opens) + len(shorts),
+                                                  counted=counted))
     if not result.aligned:
         return result
     result.findings.extend(opens)
     result.findings.extend(shorts)
+    result.findings.extend(_x2_findings(board, result, x2))
     return result
 
 
@@ -402,15 +447,365 @@ def _why_x2_pads_cannot_be_checked(board: Board) -> str | None:
     return None
 
 
-def _island_under_shape(copper: _Copper, lay: int, pad: Pad) -> int | None:
-    shape = _pad_shape(pad)
+def _kind(pad: Pad) -> str:
+    """``"unplated"`` (a hole without plating: joins nothing), ``"drilled"`` (a plated hole: joins
+    its layers) or ``"surface"`` (no hole: one island on one outer layer)."""
+    if pad.hole_mm and pad.hole_mm > 0:
+        return "drilled" if pad.plated else "unplated"
+    return "surface"
+
+
+def _unnumbered(pin: str) -> bool:
+    """A pin field that names no pin: blank, or only punctuation (``-``, ``""``, ``~``)."""
+    return not any(ch.isalnum() for ch in (pin or ""))
+
+
+def _optional(pad: Pad) -> bool:
+    """A pad that needs no copper: an unplated hole, or a pad with neither net nor pin number
+    (IPC-D-356 writes mounting holes, shells and other mechanical pads so)."""
+    if pad.is_via:
+        return False
+    return _kind(pad) == "unplated" or (not pad.net and _unnumbered(pad.pin))
+
+
+def _x2_key(name: str) -> str:
+    """A net name as both files can be compared: case folded, and the characters that netlist
+    writers put for a space (``?``, ``_``) made one."""
+    return name.upper().replace("?", " ").replace("_", " ")
+
+
+class _X2Nets:
+    """The copper's own net names (Gerber X2 ``.N``) matched to the netlist's names.
+
+    The IPC-D-356 net field holds 14 characters: a writer cuts a longer name to its last 14 and
+    upper-cases it; a netlist name matches the X2 names equal to it or, when it fills the field,
+    ending in it (all of them, when a cut name is shared: any then agrees).
+    """
+
+    NO_NET = {"", "N/C"}
+
+    def __init__(self, board: Board):
+        self.layers: dict[int, tuple[list[str], np.ndarray, shapely.STRtree]] = {}
+        names: set[str] = set()
+        for layer in board.layers:
+            nc = {n: g for n, g in (layer.net_copper or {}).items()
+                  if n not in self.NO_NET and g is not None and not g.is_empty}
+            if not nc:
+                continue
+            keys = sorted(nc)
+            geoms = np.array([nc[k] for k in keys], dtype=object)
+            shapely.prepare(geoms)
+            self.layers[layer.index] = (keys, geoms, shapely.STRtree(geoms))
+            names.update(keys)
+        by_key: dict[str, set[str]] = {}
+        for n in names:
+            by_key.setdefault(_x2_key(n), set()).add(n)
+        self._by_key = by_key
+        self._cache: dict[str, frozenset[str]] = {}
+
+    def __bool__(self) -> bool:
+        return bool(self.layers)
+
+    def names_for(self, net: str) -> frozenset[str]:
+        """The X2 names that stand for a netlist net (empty: X2 does not know it)."""
+        if net in self._cache:
+            return self._cache[net]
+        key = _x2_key(net)
+        found = set(self._by_key.get(key, ()))
+        if not found and len(net) >= 14:
+            for k, ns in self._by_key.items():
+                if k.endswith(key):
+                    found |= ns
+        self._cache[net] = frozenset(found)
+        return self._cache[net]
+
+    def nets_at(self, lay: int, x: np.ndarray, y: np.ndarray) -> list[list[str]]:
+        """For each point, the X2 nets whose copper covers it on the layer."""
+        out: list[list[str]] = [[] for _ in range(len(x))]
+        entry = self.layers.get(lay)
+        if entry is None or len(x) == 0:
+            return out
+        keys, geoms, tree = entry
+        pts = shapely.points(np.asarray(x, float), np.asarray(y, float))
+        pi, gi = tree.query(pts)
+        if len(pi):
+            ok = shapely.intersects(geoms[gi], pts[pi])
+            for a, g in zip(pi[ok].tolist(), gi[ok].tolist()):
+                out[a].append(keys[g])
+        return out
+
+    def copper_of(self, lay: int, names: frozenset[str]) -> list[BaseGeometry]:
+        entry = self.layers.get(lay)
+        if entry is None:
+            return []
+        keys, geoms, _ = entry
+        return [geoms[k] for k, n in enumerate(keys) if n in names]
+
+
+def _match_pads(board: Board, copper: _Copper, x2: _X2Nets):
+    """Each pad's islands, and the pads where X2 names another net for the copper under them.
+
+    - a plated drilled pad: on each of its layers the island under its centre; where no copper
+      is under the centre (an inner layer whose unused pad was removed), the island its drilled
+      hole touches (the plating meets it), never one that only its netlist size reaches (that size
+      is its outer pad's, or its mask opening's);
+    - an unplated hole: the island under its centre, if any (it needs none);
+    - a surface pad: one island on one layer. Its record's layer first; an access code of both
+      sides or of an inner layer (no surface pad is there) is read as the outer layer the pad
+      lands on. Where its centre misses copper (a pad drawn off its anchor), the island its
+      netlist size touches that is nearest the centre.
+    Where the copper carries X2 net attributes and the island under the centre is another net's
+    while the pad's own net's copper lies within its netlist size, that copper is taken.
+    """
+    pads = board.pads
+    n_layers = len(copper.layers)
+    outer = {copper.layers[0], copper.layers[-1]} if copper.layers else set()
+    kinds = [_kind(p) for p in pads]
+    cand: list[list[int]] = []
+    for p, kind in zip(pads, kinds):
+        lays = [lay for lay in p.layers if lay in copper.islands]
+        if kind == "surface" and (len(lays) > 1 or (lays and lays[0] not in outer)) and n_layers > 1:
+            stated = lays
+            lays = [lay for lay in copper.layers if lay in outer]
+            # the record's own outer layer first, then the other
+            lays.sort(key=lambda lay: (lay not in stated, lay != copper.layers[-1]))
+        cand.append(lays)
+
+    xs = np.array([p.x_mm for p in pads]) if pads else np.zeros(0)
+    ys = np.array([p.y_mm for p in pads]) if pads else np.zeros(0)
+    found: dict[tuple[int, int], int] = {}          # (pad, layer) -> island
+    x2_here: dict[tuple[int, int], list[str]] = {}
+    for lay in copper.layers:
+        on = [i for i in range(len(pads)) if lay in cand[i]]
+        if not on:
+            continue
+        hit = copper.points_on(lay, xs[on], ys[on])
+        if x2 and lay in x2.layers:
+            named = [i for i in on if pads[i].net]
+            for i, nets in zip(named, x2.nets_at(lay, xs[named], ys[named])):
+                x2_here[(i, lay)] = nets
+        for i, k in zip(on, hit.tolist()):
+            kind = kinds[i]
+            p = pads[i]
+            if k >= 0:
+                if x2 and p.net and kind != "unplated":
+                    k = _x2_prefer(copper, x2, lay, p, k, x2_here.get((i, lay), []))
+                found[(i, lay)] = k
+                continue
+            if kind == "unplated":
+                continue
+            if kind == "drilled":
+                shape = Point(p.x_mm, p.y_mm).buffer(p.hole_mm / 2, 16)
+            else:
+                shape = _pad_shape(p)
+            k2 = _island_near(copper, x2, lay, p, shape)
+            if k2 is not None:
+                found[(i, lay)] = k2
+
+    pad_islands: list[list[tuple[int, int]]] = [[] for _ in pads]
+    disagree: list[tuple[int, int, tuple[str, ...]]] = []
+    for i, p in enumerate(pads):
+        lays = [lay for lay in cand[i] if (i, lay) in found]
+        if kinds[i] == "surface" and len(lays) > 1:
+            lays = [_best_layer(copper, x2, p, lays, found, i, x2_here)]
+        pad_islands[i] = [(lay, found[(i, lay)]) for lay in lays]
+        if x2 and p.net and kinds[i] != "unplated":
+            own = x2.names_for(p.net)
+            for lay in lays:
+                here = x2_here.get((i, lay))
+                if here and not (own & set(here)) and not _x2_own_within(copper, x2, lay, p, found[(i, lay)], own):
+                    disagree.append((i, lay, tuple(sorted(here))))
+    return pad_islands, disagree
+
+
+def _best_layer(copper, x2, p, lays, found, i, x2_here) -> int:
+    """Of the outer layers a surface pad lands on, the one whose copper X2 names its net, else
+    the first (the record's own side)."""
+    if x2 and p.net:
+        own = x2.names_for(p.net)
+        for lay in lays:
+            if own & set(x2_here.get((i, lay), [])):
+                return lay
+    return lays[0]
+
+
+def _x2_own_within(copper, x2, lay, p, k, own) -> bool:
+    island = copper.islands[lay][k]
+    shape = _pad_shape(p) or Point(p.x_mm, p.y_mm).buffer(0.05)
+    return any(g.intersects(shape) and g.intersects(island) for g in x2.copper_of(lay, own))
+
+
+def _x2_prefer(copper: _Copper, x2: _X2Nets, lay: int, p: Pad, k: int, here: list[str]) -> int:
+    """The island under the centre, unless X2 says it is another net's and the pad's own net's
+    copper lies within the pad's netlist size: then the island of that copper."""
+    own = x2.names_for(p.net)
+    if not own or not here or own & set(here):
+        return k
+    shape = _pad_shape(p)
+    if shape is None:
+        return k
+    best, best_area = k, 0.0
+    for g in x2.copper_of(lay, own):
+        part = g.intersection(shape)
+        if part.is_empty:
+            continue
+        for k2 in copper.hits(lay, np.array([part], dtype=object))[1].tolist():
+            area = copper.islands[lay][k2].intersection(part).area
+            if area > best_area:
+                best, best_area = int(k2), area
+    return best
+
+
+def _island_near(copper: _Copper, x2: _X2Nets, lay: int, p: Pad, shape: BaseGeometry | None) -> int | None:
+    """The island a pad's shape touches when its centre misses copper: the one carrying the
+    pad's own X2 net, else the one nearest the centre (not the one it overlaps most: a netlist
+    size larger than the copper reaches over the neighbours of a fine-pitch part)."""
     if shape is None or not copper.islands[lay]:
         return None
     _, cand = copper.hits(lay, np.array([shape], dtype=object))
     if len(cand) == 0:
         return None
-    best = max(cand, key=lambda k: copper.islands[lay][int(k)].intersection(shape).area)
-    return int(best)
+    cand = [int(c) for c in cand]
+    if len(cand) == 1:
+        return cand[0]
+    if x2 and p.net:
+        own = x2.copper_of(lay, x2.names_for(p.net))
+        mine = [c for c in cand if any(g.intersects(copper.islands[lay][c]) and
+                                       g.intersects(shape) for g in own)]
+        if len(mine) == 1:
+            return mine[0]
+        if mine:
+            cand = mine
+    centre = Point(p.x_mm, p.y_mm)
+    dist = shapely.distance(copper.arrays[lay][cand], centre)
+    return cand[int(np.argmin(dist))]
+
+
+# --- a part's own copper that joins its nets on purpose ------------------------------------
+
+# designator letters of parts made to join two nets with their own copper: net ties, printed
+# antennas (feed and ground on one shape), solder jumpers closed by copper (common practice)
+JOINING_PREFIXES = ("NT", "NETTIE", "AE", "ANT", "JP", "SJ")
+PAD_CUT_MARGIN_MM = 0.05
+
+
+@dataclass
+class _Bridge:
+    """Copper of one part, joining pads of that part on different nets and nothing else."""
+
+    ref: str
+    layer: int
+    island: int
+    piece: BaseGeometry
+    nets: tuple[str, ...]
+    evidence: str
+
+    @property
+    def note(self) -> str:
+        return (f"{self.ref}'s own copper joins {' and '.join(self.nets)} ({self.evidence}): a net tie or "
+                "printed antenna, set aside; the nets are judged without it")
+
+
+def _ref_prefix(ref: str) -> str:
+    return "".join(ch for ch in ref if ch.isalpha()).upper()
+
+
+def _part_bridges(board: Board, result: ConnectivityResult, copper: _Copper, x2: _X2Nets) -> list[_Bridge]:
+    """Copper that joins two nets only through one part's own pads.
+
+    For each island holding pads of two or more nets of one part: cut that part's pads (their
+    netlist size and a small margin) out of the island. A piece left over that touches the part's
+    pads of two nets, and no other pad, via or plated hole, is the part's own copper. It is taken
+    as joining the nets on purpose when the layer's X2 attributes give it no net (footprint copper,
+    not a trace or pour of a net), or, without X2, when the part's designator marks a net tie,
+    antenna or copper-closed jumper. Everything else stays a short.
+    """
+    pads = board.pads
+    out: list[_Bridge] = []
+    by_island: dict[tuple[int, int], list[int]] = {}
+    for i, isl in enumerate(result.pad_islands):
+        for key in isl:
+            by_island.setdefault(key, []).append(i)
+    for key, idxs in by_island.items():
+        nets = {pads[i].net for i in idxs if pads[i].net}
+        if len(nets) < 2:
+            continue
+        parts: dict[str, list[int]] = {}
+        for i in idxs:
+            if pads[i].ref and not pads[i].is_via:
+                parts.setdefault(pads[i].ref, []).append(i)
+        lay, k = key
+        for ref, mine in parts.items():
+            own_nets = {pads[i].net for i in mine if pads[i].net}
+            if len(own_nets) < 2:
+                continue
+            shapes = [_pad_shape(pads[i]) for i in mine]
+            if any(sh is None for sh in shapes):
+                continue
+            grown = [sh.buffer(PAD_CUT_MARGIN_MM, join_style="mitre") for sh in shapes]
+            island = copper.islands[lay][k]
+            pieces = _polygons(island.difference(shapely.union_all(grown)))
+            others = [i for i in idxs if pads[i].ref != ref or pads[i].is_via]
+            other_pts = [Point(pads[i].x_mm, pads[i].y_mm) for i in others]
+            holes = [Point(h.x_mm, h.y_mm).buffer(max(h.diameter_mm / 2, 1e-3), 8)
+                     for h in board.holes if h.plated]
+            for piece in pieces:
+                touched = {pads[i].net for i, g in zip(mine, grown) if pads[i].net
+                           and piece.distance(g.exterior) < 2 * PAD_CUT_MARGIN_MM}
+                if len(touched) < 2:
+                    continue
+                if any(piece.intersects(pt) for pt in other_pts):
+                    continue
+                if any(piece.intersects(h) for h in holes if h.bounds[0] <= piece.bounds[2]
+                       and h.bounds[2] >= piece.bounds[0] and h.bounds[1] <= piece.bounds[3]
+                       and h.bounds[3] >= piece.bounds[1]):
+                    continue
+                evidence = _bridge_evidence(x2, lay, ref, piece)
+                if evidence:
+                    out.append(_Bridge(ref, lay, k, piece, tuple(sorted(touched)), evidence))
+    return out
+
+
+def _bridge_evidence(x2: _X2Nets, lay: int, ref: str, piece: BaseGeometry) -> str | None:
+    """Why a part's own copper is taken as joining nets on purpose, or None."""
+    entry = x2.layers.get(lay) if x2 else None
+    if entry is not None:
+        _, geoms, tree = entry
+        named = sum(geoms[g].intersection(piece).area for g in tree.query(piece).tolist())
+        if named < 0.5 * piece.area:
+            return "its copper carries no X2 net attribute: footprint copper"
+        return None
+    prefix = _ref_prefix(ref)
+    if prefix in JOINING_PREFIXES:
+        return f"designator {prefix}: a net tie, antenna or jumper; no X2 net attributes to confirm"
+    return None
+
+
+def _x2_findings(board: Board, result: ConnectivityResult, x2: _X2Nets) -> list[Finding]:
+    """One finding per netlist net whose pads sit on copper that X2 gives to another net."""
+    if not result.x2_disagreements:
+        return []
+    by_net: dict[str, list[tuple[int, int, tuple[str, ...]]]] = {}
+    for i, lay, here in result.x2_disagreements:
+        by_net.setdefault(board.pads[i].net, []).append((i, lay, here))
+    out = []
+    for net, rows in sorted(by_net.items()):
+        i, lay, _ = rows[0]
+        p = board.pads[i]
+        copper_nets = sorted({n for _, _, here in rows for n in here})
+        idxs = sorted({r[0] for r in rows})
+        known = "" if x2.names_for(net) else f" (X2 names no net {net})"
+        out.append(Finding(
+            rule=RULE_X2, severity="warning",
+            message=(f"the netlist puts {_terminal_list(board, idxs, 6)} on net {net}, but the Gerber's X2 "
+                     f"net attributes give the copper under {'it' if len(idxs) == 1 else 'them'} to "
+                     f"{', '.join(copper_nets[:4])}{known}: one of the two files is from another "
+                     "revision or a net was renamed; connectivity is judged from the netlist"),
+            x_mm=round(p.x_mm, 4), y_mm=round(p.y_mm, 4), layer=_layer_name(board, lay),
+            nets=tuple([net] + copper_nets[:4]),
+            terminals=tuple(sorted({board.pads[j].terminal for j in idxs
+                                    if board.pads[j].ref and not board.pads[j].is_via}))))
+    return out
 
 
 # --- findings ------------------------------------------------------------------------------
@@ -442,9 +837,29 @@ def _opens(board: Board, result: ConnectivityResult) -> list[Finding]:
         if not p.net or g is None:
             continue
         by_net.setdefault(p.net, {}).setdefault(g, []).append(i)
+    # pads of one terminal (ref and pin number) at several places are joined inside the part
+    # (a push button's two pins "2", a connector's twin shell tabs): their groups count as one
+    terminal_groups: dict[tuple[str, str, str], set[int]] = {}
+    for i, p in enumerate(board.pads):
+        g = result.pad_group[i]
+        if g is not None and p.net and p.ref and not p.is_via and not _unnumbered(p.pin):
+            terminal_groups.setdefault((p.net, p.ref, p.pin), set()).add(g)
     for net, parts in sorted(by_net.items()):
         if len(parts) < 2:
             continue
+        joined = _UnionFind(len(parts))
+        index = {g: k for k, g in enumerate(parts)}
+        for (tn, _, _), gs in terminal_groups.items():
+            if tn == net and len(gs) > 1:
+                gs = sorted(gs)
+                for a in gs[1:]:
+                    joined.union(index[gs[0]], index[a])
+        merged: dict[int, list[int]] = {}
+        for g, idxs in parts.items():
+            merged.setdefault(joined.find(index[g]), []).extend(idxs)
+        if len(merged) < 2:
+            continue
+        parts = {k: sorted(v) for k, v in merged.items()}
         ordered = sorted(parts.values(), key=lambda idxs: (-len(idxs), min(idxs)))
         desc = "; ".join(f"[{_terminal_list(board, idxs)}]" for idxs in ordered)
         stray = ordered[-1]
@@ -541,8 +956,8 @@ def _meeting_point(board: Board, result: ConnectivityResult, group: CopperGroup,
 
 
 def _alignment_finding(board: Board, unlanded: list[int], landed_fraction: float, hint: str | None,
-                       stopped: bool, skipped: int) -> Finding:
-    n = len(board.pads)
+                       stopped: bool, skipped: int, counted: int | None = None) -> Finding:
+    n = len(board.pads) if counted is None else counted
     if unlanded:
         examples = []
         for i in unlanded[:5]:
@@ -585,7 +1000,8 @@ def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int =
     if not pads:
         return None
     rng = np.random.default_rng(seed)
-    idx = np.arange(len(pads))
+    # pads that need no copper (unplated holes, mechanical pads) say nothing about alignment
+    idx = np.array([i for i, p in enumerate(pads) if not _optional(p)] or list(range(len(pads))))
     if len(idx) > MAX_SAMPLE:
         idx = np.sort(rng.choice(idx, MAX_SAMPLE, replace=False))
     sample = [pads[i] for i in idx]
