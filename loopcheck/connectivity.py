@@ -567,8 +567,10 @@ def _match_pads(board: Board, copper: _Copper, x2: _X2Nets):
         if kind == "surface" and (len(lays) > 1 or (lays and lays[0] not in outer)) and n_layers > 1:
             stated = lays
             lays = [lay for lay in copper.layers if lay in outer]
-            # the record's own outer layer first, then the other
-            lays.sort(key=lambda lay: (lay not in stated, lay != copper.layers[-1]))
+            if any(lay in outer for lay in stated):      # both sides: the primary side first
+                lays.sort(key=lambda lay: (lay not in stated, lay))
+            else:                                        # an inner layer: read as the secondary side
+                lays.sort(key=lambda lay: -lay)
         cand.append(lays)
 
     xs = np.array([p.x_mm for p in pads]) if pads else np.zeros(0)
