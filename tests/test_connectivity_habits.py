@@ -297,3 +297,40 @@ def test_x2_names_cut_to_fourteen_characters_match():
     pads = [smd("VERTER/BUCK_SW", "L1", "1", 10, 20), smd("VERTER/BUCK_SW", "U1", "3", 30, 20)]
     b = make_board(top, pads=pads, net_copper={0: {"/Power/Converter/Buck_SW": top}})
     assert check_connectivity(b).findings == []
+
+
+# --- the same habits read from files -------------------------------------------------------
+
+def _kicad_npth_record(ref: str, x_mm: float, y_mm: float, d_mm: float) -> str:
+    """A test record as one design program writes an unplated hole (from a real board's netlist:
+    ``367N/C              J8          D0256UA00X+050174Y-035262X0256Y0000R090S0``), CUST 1."""
+    d = round(d_mm * 1000)
+    return (f"367{'N/C':<14}   {ref:<6}      D{d:04d}UA00X{round(x_mm * 1000):+07d}"
+            f"Y{round(y_mm * 1000):+07d}X{d:04d}Y0000R000S0")
+
+
+def test_unplated_and_unnumbered_records_in_a_netlist_file(tmp_path):
+    """The demo 4-layer board with an unplated 3 mm hole whose size reaches VOUT and GND copper
+    on top and the GND planes inside, and a mechanical pad (no net, no pin) off the copper."""
+    import shutil
+    from pathlib import Path
+
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    demo = Path(__file__).parents[1] / "boards" / "sync-buck-4layer"
+    if not (demo / "loopcheck.toml").is_file():
+        import pytest
+        pytest.skip("demo board not generated")
+    folder = tmp_path / "board"
+    shutil.copytree(demo, folder)
+    netlist = folder / "sync-buck-4layer-netlist.ipc"
+    lines = netlist.read_text().splitlines()
+    shell = f"327{'N/C':<14}   {'J9':<6}            A01X+008000Y+005000X1000Y1500R000S1"
+    lines[-1:-1] = [_kicad_npth_record("H1", 40.0, 5.0, 3.0), shell]
+    netlist.write_text("\n".join(lines) + "\n")
+    b = load_board(load_project(folder))
+    hole = next(p for p in b.pads if p.ref == "H1")
+    assert hole.pin == "" and hole.plated is False and hole.layers == (0, 1, 2, 3)
+    r = check_connectivity(b)
+    assert r.findings == [] and r.aligned
