@@ -303,6 +303,19 @@ def check_connectivity(board: Board) -> ConnectivityResult:
         result.checked = False
         result.not_checked_reason = reason
         return result
+    # a surface part whose records are mirrored (a footprint not flipped for the bottom side)
+    # or name the other side: read the way that puts its pads on their own nets' copper
+    readings, why = _part_readings(board, result, copper, x2)
+    if readings:
+        # the pads are replaced on the board itself: every later step (stages, measurements)
+        # must use the positions that agree with the copper
+        for i, pad in readings.items():
+            board.pads[i] = pad
+        for cached in ("nets", "components", "terminals"):
+            board.__dict__.pop(cached, None)
+        result = _build(board, copper, x2)
+        result.notes.extend(why)
+        board.assumptions.extend(why)
     # a part whose own copper joins two of its nets on purpose (a net tie, a printed antenna):
     # that copper is set aside and the board judged again without it
     bridges = _part_bridges(board, result, copper, x2)
@@ -681,6 +694,106 @@ def _island_near(copper: _Copper, x2: _X2Nets, lay: int, p: Pad, shape: BaseGeom
     centre = Point(p.x_mm, p.y_mm)
     dist = shapely.distance(copper.arrays[lay][cand], centre)
     return cand[int(np.argmin(dist))]
+
+
+# --- parts whose records are mirrored or on the other side -----------------------------------
+
+READING_MIN_PADS = 2
+
+
+def _part_readings(board: Board, result: ConnectivityResult, copper: _Copper,
+                   x2: _X2Nets) -> tuple[dict[int, Pad], list[str]]:
+    """Surface parts whose pads land on other nets' copper, read another way when that way puts
+    every pad on copper of its own net.
+
+    A pad's evidence: the copper group it lands on holds pads of other parts; "own" when one of
+    them is on its net (or X2 names its net there), "other" when none is. A part with at least
+    two "other" pads (each a short, if the records are right) is tried mirrored in x or y about its centre,
+    turned 180 degrees, and on the other outer side (a footprint not flipped for the bottom
+    side, a record of the wrong side). A reading is taken only when it leaves no pad on other
+    nets' copper and lands more pads on their own nets than the records as given.
+    """
+    pads = board.pads
+    if len(copper.layers) < 1 or not result.groups:
+        return {}, []
+    group_nets: dict[int, dict[str, int]] = {}
+    for i, g in enumerate(result.pad_group):
+        if g is not None and pads[i].net:
+            d = group_nets.setdefault(g, {})
+            d[pads[i].net] = d.get(pads[i].net, 0) + 1
+    parts: dict[str, list[int]] = {}
+    for i, p in enumerate(pads):
+        if p.ref and not p.is_via and _kind(p) == "surface" and p.net and len(p.layers) == 1:
+            parts.setdefault(p.ref, []).append(i)
+    top, bottom = copper.layers[0], copper.layers[-1]
+    out: dict[int, Pad] = {}
+    notes: list[str] = []
+    for ref, idxs in parts.items():
+        if len(idxs) < READING_MIN_PADS or len({pads[i].layers[0] for i in idxs}) != 1:
+            continue
+        own_counts: dict[tuple[int, str], int] = {}
+        for i in idxs:
+            g = result.pad_group[i]
+            if g is not None:
+                own_counts[(g, pads[i].net)] = own_counts.get((g, pads[i].net), 0) + 1
+
+        def evidence(layer: int, xs: np.ndarray, ys: np.ndarray) -> tuple[int, int]:
+            hit = copper.points_on(layer, xs, ys)
+            x2_here = x2.nets_at(layer, xs, ys) if x2 and layer in x2.layers else None
+            own = other = 0
+            for n, (i, k) in enumerate(zip(idxs, hit.tolist())):
+                net = pads[i].net
+                if x2_here is not None and x2_here[n]:
+                    if x2.names_for(net) & set(x2_here[n]):
+                        own += 1
+                    else:
+                        other += 1
+                    continue
+                if k < 0:
+                    continue
+                g = result.island_group[(layer, k)]
+                nets = dict(group_nets.get(g, {}))
+                for (gg, nn), c in own_counts.items():      # leave the part's own pads out
+                    if gg == g:
+                        nets[nn] = nets.get(nn, 0) - c
+                nets = {nn: c for nn, c in nets.items() if c > 0}
+                if not nets:
+                    continue
+                if net in nets:
+                    own += 1
+                else:
+                    other += 1
+            return own, other
+
+        xs = np.array([pads[i].x_mm for i in idxs])
+        ys = np.array([pads[i].y_mm for i in idxs])
+        layer = pads[idxs[0]].layers[0]
+        own0, other0 = evidence(layer, xs, ys)
+        if other0 < READING_MIN_PADS:
+            continue
+        cx, cy = (xs.min() + xs.max()) / 2, (ys.min() + ys.max()) / 2
+        flipped = bottom if layer == top else top
+        tries = []
+        for side in ([layer, flipped] if flipped != layer else [layer]):
+            for name, tx, ty in (("as given", xs, ys), ("mirrored in x", 2 * cx - xs, ys),
+                                 ("mirrored in y", xs, 2 * cy - ys), ("turned 180 degrees", 2 * cx - xs, 2 * cy - ys)):
+                if side == layer and name == "as given":
+                    continue
+                own, other = evidence(side, tx, ty)
+                if other == 0 and own > own0 and own >= max(READING_MIN_PADS, len(idxs) // 2):
+                    tries.append((own, -len(tries), side, name, tx, ty))
+        if not tries:
+            continue
+        own, _, side, name, tx, ty = max(tries)
+        for n, i in enumerate(idxs):
+            out[i] = dataclasses.replace(pads[i], x_mm=float(tx[n]), y_mm=float(ty[n]), layers=(side,))
+        side_text = "on the other side, " if side != layer else ""
+        how = "as written" if name == "as given" else name
+        notes.append(f"{ref}: its netlist records put {other0} of its {len(idxs)} pads on other nets' "
+                     f"copper; read {side_text}{how} about the part's centre they put {own} on their own "
+                     "nets' copper (a footprint not flipped for the bottom side, or a record of the "
+                     "wrong side), and were read so")
+    return out, notes
 
 
 # --- a part's own copper that joins its nets on purpose ------------------------------------

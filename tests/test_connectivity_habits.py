@@ -334,3 +334,51 @@ def test_unplated_and_unnumbered_records_in_a_netlist_file(tmp_path):
     assert hole.pin == "" and hole.plated is False and hole.layers == (0, 1, 2, 3)
     r = check_connectivity(b)
     assert r.findings == [] and r.aligned
+
+
+# --- bottom-side parts whose records are mirrored or on the other side ------------------------
+
+def bottom_ic(read=lambda x, y: (x, y), record_layer=1, bridge=False):
+    """A bottom-side IC U1 (pins 1-4 at x = 20..23 mm: GND, /3V3, EN, FB), each pin routed to a
+    capacitor on the bottom; a top GND pour over the whole part, joined to pin 1 by a via."""
+    xs = [20.0, 21.0, 22.0, 23.0]
+    nets = ["GND", "/3V3", "EN", "FB"]
+    cu = []
+    pads = []
+    for k, (x, net) in enumerate(zip(xs, nets)):
+        cu += [sq(x, 20, 0.6, 1.2), trace([(x, 20), (x, 18), (20 + 5 * k, 10)], 0.3), sq(20 + 5 * k, 10, 1)]
+        px, py = read(x, 20.0)
+        pads.append(smd(net, "U1", str(k + 1), px, py, layer=record_layer, w=0.6, h=1.2))
+        pads.append(smd(net, f"C{k + 1}", "1", 20 + 5 * k, 10, layer=1))
+    if bridge:
+        cu.append(box(21.0, 19.9, 22.0, 20.1))
+    top = box(15, 15, 30, 25)
+    pads.append(smd("GND", "C9", "2", 28, 24, layer=0))
+    pads.append(Pad(net="GND", ref="", pin="", x_mm=20, y_mm=16, layers=(0, 1), hole_mm=0.3, is_via=True))
+    cu.append(Point(20, 16).buffer(0.3))
+    return make_board(top, shapely.union_all(cu), pads=pads, holes=[Hole(20, 16, 0.3, plated=True)])
+
+
+def test_bottom_ic_with_mirrored_records_is_read_mirrored():
+    """A writer that did not flip the footprint for the bottom: pin n's record sits where pin
+    5 - n is. Before: pins on other pins' copper, false shorts /3V3-EN and GND-FB."""
+    b = bottom_ic(read=lambda x, y: (43.0 - x, y))
+    r = check_connectivity(b)
+    assert r.findings == []
+    assert b.terminals["U1.1"].x_mm == 20.0                      # the pads now agree with the copper
+    assert any("U1" in a and "mirrored in x" in a for a in b.assumptions)
+
+
+def test_bottom_ic_recorded_on_the_top_side_is_read_on_the_bottom():
+    # records of the top side (access 01) for a bottom part: before, every pin on the top GND pour
+    b = bottom_ic(record_layer=0)
+    r = check_connectivity(b)
+    assert r.findings == []
+    assert b.terminals["U1.2"].layers == (1,)
+
+
+def test_bottom_ic_with_a_real_bridge_is_still_a_short():
+    b = bottom_ic(bridge=True)
+    r = check_connectivity(b)
+    assert rules(r) == ["netlist-short"] and r.findings[0].nets == ("/3V3", "EN")
+    assert not any("U1" in a for a in b.assumptions)
