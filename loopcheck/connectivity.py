@@ -1,21 +1,43 @@
 """Copper islands against the netlist: which pads the copper really joins.
 
-Copper islands are the polygons of each layer's geometry. Plated holes (drills) and through pads
-and vias of the netlist join the islands they pierce on every layer; each netlist pad joins the
-island under it on its own layers. The joined islands form copper groups (union-find).
+Copper islands are the polygons of each layer's geometry. Plated holes (drills) and plated
+drilled pads of the netlist join the islands they pierce on every layer; the joined islands form
+copper groups (union-find). How a netlist pad is put on an island depends on its kind, because
+a record's size is not always its copper's (it may be the outer pad, the mask or paste opening):
 
-Findings (rule names from RULES.md, severity "error"):
+- a plated drilled pad: the island under its centre on each layer; where no copper is under
+  the centre (an inner layer whose unused pad was removed), only an island its hole touches;
+- an unplated hole: joins nothing, and needs no copper; nor does a pad with neither net nor
+  pin number (the way IPC-D-356 writers give mounting holes, connector shells, mechanical pads);
+- a surface pad: one island on one outer layer (a record that says both sides, or an inner
+  layer, is read on the outer layer it lands on); off copper, the island its size touches that
+  is nearest its centre (not the one it overlaps most: at fine pitch that is the neighbour's).
 
-- ``netlist-open``: one net's pads fall in more than one copper group;
-- ``netlist-short``: one copper group holds pads of two or more nets;
-- ``netlist-alignment``: netlist pads land on no copper, or on copper of the wrong nets. The
+Where the copper carries Gerber X2 net attributes (``.N``) they are a second opinion: a pad whose
+centre is on another net's copper while its own net's copper lies within its size is put on its
+own; where X2 still names another net, that is a finding of its own (``netlist-x2-mismatch``,
+a warning). A surface part whose records put two or more pads on other nets' copper is read
+mirrored, turned or on the other side when that puts every pad on its own net's copper (a
+footprint not flipped for the bottom); the board's pads are replaced and an assumption says so.
+A part's own copper that joins two of its nets on purpose (a net tie, a printed antenna's feed
+and ground) is cut out and the board judged without it, when X2 gives that copper no net or,
+without X2, its designator marks it; pads of one terminal at several places (a button's twin
+pins) are joined by the part.
+
+Findings (rule names from RULES.md):
+
+- ``netlist-open`` (error): one net's pads fall in more than one copper group;
+- ``netlist-short`` (error): one copper group holds pads of two or more nets;
+- ``netlist-alignment`` (error): netlist pads land on no copper, or on copper of the wrong nets. The
   offset, inch/mm scale or mirror that would align them is searched for and named; a transform is
   judged by the share of pads it puts on copper of their own net (on each island, the pads of its
   most common net count), because on a board of planes and pours a shifted pad still lands on
   *some* copper. When such a transform is found, or most pads land on no copper, opens and shorts
-  are not judged (they would be noise) and ``aligned`` is False: measurement must stop.
+  are not judged (they would be noise) and ``aligned`` is False: measurement must stop;
+- ``netlist-x2-mismatch`` (warning): the netlist and the copper's X2 net names disagree.
 
 Pads with no net name (blank or N/C in the netlist) join copper but are never an open or a short.
+What was decided without a finding is in ``ConnectivityResult.notes``.
 """
 
 from __future__ import annotations
@@ -306,7 +328,8 @@ def check_connectivity(board: Board) -> ConnectivityResult:
     # a surface part whose records are mirrored (a footprint not flipped for the bottom side)
     # or name the other side: read the way that puts its pads on their own nets' copper
     readings, why = _part_readings(board, result, copper, x2)
-    if readings:
+    # many parts that fit only another way: the netlist as a whole does not fit (alignment judges it)
+    if readings and len(why) <= max(READING_MAX_PARTS, READING_MAX_SHARE * len(board.components)):
         # the pads are replaced on the board itself: every later step (stages, measurements)
         # must use the positions that agree with the copper
         for i, pad in readings.items():
@@ -322,7 +345,7 @@ def check_connectivity(board: Board) -> ConnectivityResult:
     if bridges:
         cut = copper.without(bridges)
         again = _build(board, cut, x2)
-        if len(_shorts(board, again, cut)) < len(_shorts(board, result, copper)):
+        if _mixed_groups(board, again) < _mixed_groups(board, result):
             copper, result = cut, again
             result.notes.extend(b.note for b in bridges)
     return _judge(board, result, copper, x2)
@@ -699,6 +722,8 @@ def _island_near(copper: _Copper, x2: _X2Nets, lay: int, p: Pad, shape: BaseGeom
 # --- parts whose records are mirrored or on the other side -----------------------------------
 
 READING_MIN_PADS = 2
+READING_MAX_PARTS = 3          # parts re-read on any board ...
+READING_MAX_SHARE = 0.1        # ... or this share of its parts, whichever is more
 
 
 def _part_readings(board: Board, result: ConnectivityResult, copper: _Copper,
@@ -802,6 +827,10 @@ def _part_readings(board: Board, result: ConnectivityResult, copper: _Copper,
 # antennas (feed and ground on one shape), solder jumpers closed by copper (common practice)
 JOINING_PREFIXES = ("NT", "NETTIE", "AE", "ANT", "JP", "SJ")
 PAD_CUT_MARGIN_MM = 0.05
+BRIDGE_WINDOW_MM = 40.0       # a part's own copper lies within this of its pads (a 2.4 GHz printed
+                              # antenna is about 15-30 mm long; from memory of common designs)
+BRIDGE_MAX_PADS = 8           # net ties, antennas and jumpers have a few pads
+BRIDGE_MAX_ISLANDS = 50       # more islands joining nets than this: the netlist does not fit
 
 
 @dataclass
@@ -841,39 +870,47 @@ def _part_bridges(board: Board, result: ConnectivityResult, copper: _Copper, x2:
     for i, isl in enumerate(result.pad_islands):
         for key in isl:
             by_island.setdefault(key, []).append(i)
-    for key, idxs in by_island.items():
-        nets = {pads[i].net for i in idxs if pads[i].net}
-        if len(nets) < 2:
-            continue
+    mixed = [(key, idxs) for key, idxs in by_island.items()
+             if len({pads[i].net for i in idxs if pads[i].net}) >= 2]
+    if not mixed or len(mixed) > BRIDGE_MAX_ISLANDS:      # none, or a netlist that does not fit
+        return out
+    plated = [h for h in board.holes if h.plated]
+    hole_shapes = np.array([Point(h.x_mm, h.y_mm).buffer(max(h.diameter_mm / 2, 1e-3), 8) for h in plated],
+                           dtype=object)
+    hole_tree = shapely.STRtree(hole_shapes) if len(hole_shapes) else None
+    for (lay, k), idxs in mixed:
         parts: dict[str, list[int]] = {}
         for i in idxs:
             if pads[i].ref and not pads[i].is_via:
                 parts.setdefault(pads[i].ref, []).append(i)
-        lay, k = key
+        x2_here = bool(x2) and lay in x2.layers
         for ref, mine in parts.items():
             own_nets = {pads[i].net for i in mine if pads[i].net}
-            if len(own_nets) < 2:
+            if len(own_nets) < 2 or len(mine) > BRIDGE_MAX_PADS:
                 continue
+            if not x2_here and _ref_prefix(ref) not in JOINING_PREFIXES:
+                continue                  # nothing could show the join is meant: a short
             shapes = [_pad_shape(pads[i]) for i in mine]
             if any(sh is None for sh in shapes):
                 continue
             grown = [sh.buffer(PAD_CUT_MARGIN_MM, join_style="mitre") for sh in shapes]
-            island = copper.islands[lay][k]
+            # the part's neighbourhood only: a plane island can be the whole board
+            x0, y0, x1, y1 = shapely.union_all(grown).bounds
+            m = BRIDGE_WINDOW_MM
+            window = shapely.box(x0 - m, y0 - m, x1 + m, y1 + m)
+            island = shapely.clip_by_rect(copper.islands[lay][k], *window.bounds)
             pieces = _polygons(island.difference(shapely.union_all(grown)))
             others = [i for i in idxs if pads[i].ref != ref or pads[i].is_via]
-            other_pts = [Point(pads[i].x_mm, pads[i].y_mm) for i in others]
-            holes = [Point(h.x_mm, h.y_mm).buffer(max(h.diameter_mm / 2, 1e-3), 8)
-                     for h in board.holes if h.plated]
+            other_pts = shapely.points([(pads[i].x_mm, pads[i].y_mm) for i in others]) if others else None
+            edge = window.exterior
             for piece in pieces:
                 touched = {pads[i].net for i, g in zip(mine, grown) if pads[i].net
                            and piece.distance(g.exterior) < 2 * PAD_CUT_MARGIN_MM}
-                if len(touched) < 2:
+                if len(touched) < 2 or piece.distance(edge) < 1e-6:     # goes on beyond the window
                     continue
-                if any(piece.intersects(pt) for pt in other_pts):
+                if other_pts is not None and shapely.intersects(piece, other_pts).any():
                     continue
-                if any(piece.intersects(h) for h in holes if h.bounds[0] <= piece.bounds[2]
-                       and h.bounds[2] >= piece.bounds[0] and h.bounds[1] <= piece.bounds[3]
-                       and h.bounds[3] >= piece.bounds[1]):
+                if hole_tree is not None and len(hole_tree.query(piece, predicate="intersects")):
                     continue
                 evidence = _bridge_evidence(x2, lay, ref, piece)
                 if evidence:
@@ -989,6 +1026,11 @@ def _opens(board: Board, result: ConnectivityResult) -> list[Finding]:
     return out
 
 
+def _mixed_groups(board: Board, result: ConnectivityResult) -> int:
+    """How many copper groups hold pads of two or more nets (the shorts, before their finding)."""
+    return sum(1 for g in result.groups if len({board.pads[i].net for i in g.pads if board.pads[i].net}) > 1)
+
+
 def _shorts(board: Board, result: ConnectivityResult, copper: _Copper) -> list[Finding]:
     out = []
     for group in result.groups:
@@ -1050,24 +1092,43 @@ def _meeting_point(board: Board, result: ConnectivityResult, group: CopperGroup,
     island = shapely.union_all(island_geoms)
     # X2 net copper, where the Gerbers carry it
     nc = layer.net_copper or {}
-    if na in nc and nb in nc:
-        a = nc[na].intersection(island)
-        b = nc[nb].intersection(island)
-        touch = a.buffer(0.01).intersection(b.buffer(0.01))
-        if not touch.is_empty:
-            c = touch.representative_point()
-            return c.x, c.y, lay, (na, nb)
-        attributed = shapely.union_all(list(nc.values()))
-        loose = island.difference(attributed.buffer(0.005))
-        for part in _polygons(loose):
-            grown = part.buffer(0.02)
-            if grown.intersects(a) and grown.intersects(b):
-                c = part.representative_point()
-                return c.x, c.y, lay, (na, nb)
     pi, pj = board.pads[i], board.pads[j]
+    if na in nc and nb in nc:
+        # first near the closest pads of the two nets (a plane's whole copper is slow to grow),
+        # then everywhere
+        mx, my = (pi.x_mm + pj.x_mm) / 2, (pi.y_mm + pj.y_mm) / 2
+        r = max(3.0, 0.6 * float(np.hypot(pi.x_mm - pj.x_mm, pi.y_mm - pj.y_mm)))
+        for rect in ((mx - r, my - r, mx + r, my + r), None):
+            found = _x2_meeting(nc, na, nb, island, rect)
+            if found is not None:
+                return found[0], found[1], lay, (na, nb)
     mid = Point((pi.x_mm + pj.x_mm) / 2, (pi.y_mm + pj.y_mm) / 2)
     near = shapely.ops.nearest_points(island, mid)[0]
     return near.x, near.y, lay, (na, nb)
+
+
+def _x2_meeting(nc: dict[str, BaseGeometry], na: str, nb: str, island: BaseGeometry,
+                rect: tuple[float, float, float, float] | None) -> tuple[float, float] | None:
+    """Where X2 copper of two nets touches, or unattributed copper touches both (within rect)."""
+    clip = (lambda g: g) if rect is None else (lambda g: shapely.clip_by_rect(g, *rect))  # noqa: E731
+    isl = clip(island)
+    if isl.is_empty:
+        return None
+    a = clip(nc[na]).intersection(isl)
+    b = clip(nc[nb]).intersection(isl)
+    if shapely.dwithin(a, b, 0.02):
+        touch = a.buffer(0.01).intersection(b.buffer(0.01))
+        if not touch.is_empty:
+            c = touch.representative_point()
+            return c.x, c.y
+    attributed = shapely.union_all([clip(g) for g in nc.values()])
+    loose = isl.difference(attributed.buffer(0.005))
+    for part in _polygons(loose):
+        if part.distance(a) > 0.02 or part.distance(b) > 0.02:
+            continue
+        c = part.representative_point()
+        return c.x, c.y
+    return None
 
 
 def _alignment_finding(board: Board, unlanded: list[int], landed_fraction: float, hint: str | None,
