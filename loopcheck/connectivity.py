@@ -152,6 +152,7 @@ class ConnectivityResult:
     # (pad index, layer index, X2 net names of the copper under the pad): the copper's own X2
     # net attribute names another net than the netlist does
     x2_disagreements: list[tuple[int, int, tuple[str, ...]]] = field(default_factory=list)
+    x2_agreements: int = 0                   # pads whose copper's X2 net is the netlist's
     _pad_index: dict[Pad, int] = field(default_factory=dict, repr=False)
 
     def copper_group_of_pad(self, pad: Pad) -> int | None:
@@ -360,7 +361,7 @@ def _build(board: Board, copper: "_Copper", x2: "_X2Nets") -> ConnectivityResult
         result._pad_index.setdefault(p, i)
     uf = _UnionFind(copper.count)
 
-    pad_islands, x2_disagree = _match_pads(board, copper, x2)
+    pad_islands, x2_disagree, result.x2_agreements = _match_pads(board, copper, x2)
     result.x2_disagreements = x2_disagree
     # a plated drilled pad joins the islands under it on every layer (by its plating); a surface
     # pad lands on one island; an unplated hole joins nothing
@@ -427,6 +428,11 @@ def _judge(board: Board, result: ConnectivityResult, copper: "_Copper", x2: "_X2
     landed_fraction = 1.0 - len(unlanded) / counted if counted else 1.0
     result.landed_fraction = landed_fraction
     off = sum(1 for i in optional if result.pad_group[i] is None)
+    summary = f"{len(pads) - len(unlanded) - off} of {len(pads)} netlist pads land on copper"
+    if x2:
+        summary += (f"; at {result.x2_agreements} of them the copper's X2 net attribute names the "
+                    "netlist's net")
+    result.notes.insert(0, summary)
     if off:
         result.notes.append(f"{off} unplated holes or pads with no net and no pin number (mounting holes, "
                             "connector shells) land on no copper; they need none")
@@ -642,6 +648,7 @@ def _match_pads(board: Board, copper: _Copper, x2: _X2Nets):
 
     pad_islands: list[list[tuple[int, int]]] = [[] for _ in pads]
     disagree: list[tuple[int, int, tuple[str, ...]]] = []
+    agree = 0
     for i, p in enumerate(pads):
         lays = [lay for lay in cand[i] if (i, lay) in found]
         if kinds[i] == "surface" and len(lays) > 1:
@@ -649,11 +656,15 @@ def _match_pads(board: Board, copper: _Copper, x2: _X2Nets):
         pad_islands[i] = [(lay, found[(i, lay)]) for lay in lays]
         if x2 and p.net and kinds[i] != "unplated":
             own = x2.names_for(p.net)
+            agreed = False
             for lay in lays:
                 here = x2_here.get((i, lay))
-                if here and not (own & set(here)) and not _x2_own_within(copper, x2, lay, p, found[(i, lay)], own):
+                if here and own & set(here):
+                    agreed = True
+                elif here and not _x2_own_within(copper, x2, lay, p, found[(i, lay)], own):
                     disagree.append((i, lay, tuple(sorted(here))))
-    return pad_islands, disagree
+            agree += agreed
+    return pad_islands, disagree, agree
 
 
 def _best_layer(copper, x2, p, lays, found, i, x2_here) -> int:
@@ -1009,6 +1020,10 @@ def _opens(board: Board, result: ConnectivityResult) -> list[Finding]:
         merged: dict[int, list[int]] = {}
         for g, idxs in parts.items():
             merged.setdefault(joined.find(index[g]), []).extend(idxs)
+        if len(merged) < len(parts):
+            twins = sorted(f"{r}.{pin}" for (tn, r, pin), gs in terminal_groups.items() if tn == net and len(gs) > 1)
+            result.notes.append(f"net {net}: pads of one pin at several places ({', '.join(twins[:4])}) are "
+                                "joined inside the part, not by copper")
         if len(merged) < 2:
             continue
         parts = {k: sorted(v) for k, v in merged.items()}
