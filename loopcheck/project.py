@@ -71,7 +71,9 @@ Where the project file is found (BOARD is what the user names on the command lin
 
 Values: numbers may be integers or floats; ``[components]`` values may be strings or numbers
 (kept as written, as a string). ``[files]`` roles: ``copper:N``, ``outline``, ``drill``,
-``drill:plated``, ``drill:nonplated``, ``netlist``, ``bom``, ``ignore``.
+``drill:plated``, ``drill:nonplated``, ``netlist``, ``bom``, ``ignore``. A drill role may end in
+the drill file's number format where the file does not give it: ``"drill inch 2.4 omit-leading"``
+(units mm / inch, digits before.after the point, omit-leading / omit-trailing zeros).
 """
 from __future__ import annotations
 
@@ -160,6 +162,20 @@ class Project:
     def line_of(self, dotted_key: str) -> int | None:
         """The project-file line that sets ``dotted_key`` (e.g. ``"stackup.copper_um"``), if known."""
         return self.key_lines.get(dotted_key)
+
+    def nearest_line(self, dotted_key: str) -> int | None:
+        """The line of ``dotted_key``, else of its nearest enclosing table that the file sets
+        (``stages.led.switch_node`` not written: the ``[stages.led]`` header's line)."""
+        parts = dotted_key.split(".")
+        for n in range(len(parts), 0, -1):
+            line = self.key_lines.get(".".join(parts[:n]))
+            if line is not None:
+                return line
+        return None
+
+    def key_error(self, dotted_key: str, message: str) -> InputError:
+        """An InputError naming this project file and the line of ``dotted_key`` (or of its table)."""
+        return InputError(message, path=str(self.path) if self.path else None, line=self.nearest_line(dotted_key))
 
 
 def load_project(board_path: str | Path) -> Project:
@@ -386,6 +402,12 @@ def _validate(path: Path, text: str, data: dict) -> Project:
         if m:
             if int(m.group(1)) < 1:
                 raise c.fail(keys, "copper layers are numbered from 1 (top)")
+        elif role.split(" ", 1)[0] in ("drill", "drill:plated", "drill:nonplated") and " " in role:
+            from .readers.drill_format import parse_format_words   # a drill's number format words
+            try:
+                parse_format_words(role.split(" ", 1)[1])
+            except ValueError as exc:
+                raise c.fail(keys, str(exc)) from None
         elif role not in FILE_ROLES:
             raise c.fail(keys, f"unknown role {role!r} (expected copper:N, {', '.join(FILE_ROLES)})")
         files[fname] = role
