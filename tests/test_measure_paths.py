@@ -39,7 +39,7 @@ def test_switch_node_path_resistance_and_ipc2221_rise():
                                                sw_stage(iout_a=1.0, ripple_ratio=0.0, vout_v=5.0,
                                                         ambient_c=25.0))}
     rise = ms["path.switch_node.temperature_rise"]
-    # IPC-2221 check value (PHYSICS.md, from I = 0.048 dT^0.44 A^0.725): 1 A, 10 C rise, external,
+    # IPC-2221 check value (IPC-2221 sec. 6.2, from I = 0.048 dT^0.44 A^0.725): 1 A, 10 C rise, external,
     # 1 oz = 1.378 mil -> A = 16.30 mil^2 = 11.83 mil wide = 0.300 mm
     assert rise.value == pytest.approx(10.0, rel=0.02)
     assert rise.detail["width_mm"] == pytest.approx(0.300, rel=0.01)
@@ -58,7 +58,7 @@ def test_switch_node_path_resistance_and_ipc2221_rise():
     assert ms["path.input.resistance"].value is None and ms["path.input.resistance"].not_made
 
 
-# RMS currents (PHYSICS.md "Switching consequences"; the waveform shapes are common practice):
+# RMS currents (derived in docs/physics.md "RMS currents"; the waveform shapes are common practice):
 # while a path conducts (a fraction F of the period: D for the buck's input, 1 - D for a boost's
 # rectifier, 1 for an inductor) its current ramps linearly from I (1 - r/2) to I (1 + r/2), r the
 # peak-to-peak ripple over the inductor's mean current I; the mean square of that ramp is

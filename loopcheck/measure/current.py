@@ -13,7 +13,7 @@ decides those for every measurement, and a capacitor, which carries no DC, is ne
                or the upstream stage's ground);
   load_return  the load current's return: the load's ground pin -> the switching side (buck) or
                the input supply's return (boost, buck-boost).
-RMS currents (PHYSICS.md "Switching consequences"): buck input I_out sqrt(D (1 + r^2/12)), switch
+RMS currents (docs/physics.md "RMS currents"): buck input I_out sqrt(D (1 + r^2/12)), switch
 node I_out sqrt(1 + r^2/12), output I_out; boost: input and switch node I_L sqrt(1 + r^2/12) with
 I_L = I_out / (1 - D), output (the rectifier's current) I_L sqrt((1 - D)(1 + r^2/12)); inverting
 buck-boost: input I_L sqrt(D (1 + r^2/12)), switch node I_L sqrt(1 + r^2/12), output I_L
@@ -125,7 +125,7 @@ def rms_currents(stage: Stage) -> tuple[dict[str, float], list[str]]:
 
     A path that conducts for a fraction F of the period carries the inductor's current I ramping
     from I (1 - r/2) to I (1 + r/2) (r: ripple_ratio, peak-to-peak over the mean), so its RMS
-    current is I sqrt(F (1 + r^2/12)) (PHYSICS.md "Switching consequences"). The ground net
+    current is I sqrt(F (1 + r^2/12)) (docs/physics.md "RMS currents"). The ground net
     carries two currents on two paths: the input current's return (the switched input current,
     as the input path) from the switching side to the input supply's return, and the load
     current's return (DC, I_out) from the load's ground.
