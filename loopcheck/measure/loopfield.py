@@ -193,28 +193,33 @@ def _labels(ctx: MeasureContext, xe, ye, window, nets):
     X, Y = np.meshgrid(xc, yc, indexing="ij")
     labels = np.full((len(board.layers), len(xc), len(yc)), -1, dtype=int)
     island_net: list[str | None] = []
-    net_cu = {net: ctx.net_copper(net) for net in nets}
+    # ownership is judged inside the window only: a board-wide plane clipped to the window is a
+    # small polygon, and intersecting whole planes with whole nets' copper took seconds a loop
+    net_cu = {net: {k: g.intersection(window) for k, g in ctx.net_copper(net).items()} for net in nets}
     for k in range(len(board.layers)):
         polys, tree = ctx.islands(k)
         if not polys:
             continue
         for idx in tree.query(window, predicate="intersects"):
-            poly = polys[int(idx)]
+            clip = polys[int(idx)].intersection(window)
+            if clip.is_empty:
+                continue
             owner = None
             claims = []
             for net in nets:
                 g = net_cu[net].get(k)
-                if g is not None and poly.intersects(g):
-                    share = poly.intersection(g).area / max(poly.area, 1e-12)
-                    if share > 0.5 or poly.intersection(g).area > 0.5 * g.area:
-                        claims.append((share, net))
+                if g is None or g.is_empty or not clip.intersects(g):
+                    continue
+                common = clip.intersection(g).area
+                share = common / max(clip.area, 1e-12)
+                if share > 0.5 or common > 0.5 * g.area:
+                    claims.append((share, net))
             if len(claims) > 1:
                 raise FieldSolveError(
                     f"the copper of {' and '.join(n for _, n in claims)} is one island on "
                     f"{board.layers[k].name} (joined in the copper as read): the loop's nets cannot be told apart")
             if claims:
                 owner = claims[0][1]
-            clip = poly.intersection(window)
             if owner is None and clip.area < MIN_OTHER_ISLAND_MM2:
                 continue
             b = clip.bounds
