@@ -525,7 +525,9 @@ def test_two_aliases_with_the_same_full_name_stay_two_nets(tmp_path):
 def test_full_width_names_are_listed_for_restoring(tmp_path):
     _, net = _named(tmp_path, "RADIO/PA_BOOST")
     n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", card({**BASE_327, 4: "RADIO/PA_BOOST"}), "999"))
-    assert n.full_width_names == ["RADIO/PA_BOOST"]
+    assert n.maybe_cut_names == ["RADIO/PA_BOOST"]
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", card({**BASE_327, 4: "O/PA_BOOST#1"}), "999"))
+    assert n.maybe_cut_names == ["O/PA_BOOST#1"]
 
 
 # ---------------------------------------------------------------------------------------------

@@ -66,7 +66,8 @@ net-name field of the test records, either the whole token ``NNAME<id>`` or only
 They are resolved to the full names (see ``_Parser.resolve_aliases``); two aliases of one
 full name stay two nets. A name that fills all 14 columns without an alias may have been cut
 by the writer to its last 14 characters: a note says so, and ``Netlist.full_width_names``
-lists these names for a later step (``loopcheck.netnames``) to restore from Gerber X2 names.
+(with names ending ``#<n>``, the form some writers give
+two cut names that would be equal) lists these names for a later step (``loopcheck.netnames``) to restore from Gerber X2 names.
 
 Conductor records 378 (cols 4-17 net, cols 19-21 ``L`` + layer) and outline records 389
 (cols 4-17 ``BOARD_EDGE``, ``PANEL_EDGE``, ``SCORE_LINE``, ``OTHER_FAB``) carry free-form
@@ -164,9 +165,9 @@ class Netlist:
     parameters: dict[str, str] = field(default_factory=dict)   # P records: JOB, VER, ...
     aliases: dict[str, str] = field(default_factory=dict)      # NNAME1 -> full net name
     ended: bool = False                     # the 999 end record was found
-    # net names (no alias) that fill all 14 columns of the net field: the writer may have cut
-    # them to their last 14 characters; a later step may restore them from Gerber X2 names
-    full_width_names: list[str] = field(default_factory=list)
+    # net names (no alias) that fill all 14 columns of the net field, or end in "#<n>": the
+    # writer may have cut them (loopcheck.netnames restores them from Gerber X2 names)
+    maybe_cut_names: list[str] = field(default_factory=list)
 
     @property
     def nets(self) -> dict[str, list[NetPoint]]:
@@ -203,6 +204,7 @@ _UNITS = {
 
 _WORD = re.compile(r"\*|[XY][+-]?\d+")
 _NNAME = re.compile(r"NNAME[0-9A-Z_]*$", re.IGNORECASE)
+_UNIQUIFIED = re.compile(r".{1,12}#\d+$")      # a cut name a writer made unique: TAIL#1
 _NNAME_COMMENT = re.compile(r"C\s+(NNAME[0-9A-Z_]+)\s+(\S.*)$", re.IGNORECASE)
 
 
@@ -229,6 +231,7 @@ class _Parser:
         self.max_layer = 0
         self.open_free: dict | None = None   # the 378/389 record a 078/089 line continues
         self.kept_apart: list[str] = []
+        self.uniquified: set[str] = set()
         self.counts: Counter[str] = Counter()   # blank or odd fields, for one note each
         self.mask_example = ""
 
@@ -559,6 +562,8 @@ class _Parser:
                 self.unaliased_nname.add(f)
             elif len(f) == 14:
                 self.full_width_names.add(f)
+            elif _UNIQUIFIED.fullmatch(f):
+                self.uniquified.add(f)
         if resolved:
             self.points = [replace(p, net=resolved[p.net]) if p.net in resolved else p
                            for p in self.points]
@@ -623,7 +628,8 @@ class _Parser:
         return Netlist(path=self.path, units=self.units.name, points=self.points,
                        layer_count=layer_count, conductors=self.conductors, outline=self.outline,
                        notes=notes, parameters=self.parameters, aliases=self.aliases,
-                       ended=self.ended, full_width_names=sorted(self.full_width_names))
+                       ended=self.ended,
+                       maybe_cut_names=sorted(self.full_width_names | self.uniquified))
 
 
 def read_ipc356(path: str | Path, limits: InputLimits = DEFAULT_LIMITS) -> Netlist:
