@@ -64,11 +64,21 @@ def maybe_cut(name: str) -> bool:
     return len(name) == FIELD or bool(_UNIQUIFIED.fullmatch(name))
 
 
-def _x2_names_at(board: Board, pads: list) -> list[set[str]]:
-    """For each pad, the X2 net names of the copper under its centre on its layers."""
+def _could_match(full: str, cut_names: set[str], bases: list[str]) -> bool:
+    if len(full) <= FIELD:
+        return False
+    form = cut_form(full)
+    return form in cut_names or any(form.endswith(b) for b in bases)
+
+
+def _x2_names_at(board: Board, pads: list, wanted: set[str]) -> list[set[str]]:
+    """For each pad, the X2 net names (only those that could be cut to a wanted name) of the
+    copper under its centre on its layers."""
     found: list[set[str]] = [set() for _ in pads]
     if not pads:
         return found
+    cut_names = {w.upper() for w in wanted}
+    bases = [m["base"].upper() for m in map(_UNIQUIFIED.fullmatch, wanted) if m]
     points = shapely.points(np.array([(p.x_mm, p.y_mm) for p in pads], dtype=float))
     for layer in board.layers:
         if not layer.net_copper:
@@ -76,7 +86,9 @@ def _x2_names_at(board: Board, pads: list) -> list[set[str]]:
         mine = np.array([k for k, p in enumerate(pads) if layer.index in p.layers], dtype=int)
         if len(mine) == 0:
             continue
-        names = list(layer.net_copper)
+        names = [n for n in layer.net_copper if _could_match(n, cut_names, bases)]
+        if not names:
+            continue
         tree = shapely.STRtree([layer.net_copper[n] for n in names])
         pad_i, geom_i = tree.query(points[mine], predicate="intersects")
         for a, b in zip(pad_i.tolist(), geom_i.tolist()):
@@ -93,7 +105,7 @@ def restore_cut_names(board: Board, candidates: Iterable[str]) -> None:
         return
     index = [k for k, p in enumerate(board.pads) if p.net in wanted]
     pads = [board.pads[k] for k in index]
-    under = _x2_names_at(board, pads)
+    under = _x2_names_at(board, pads, wanted)
     per_name: dict[str, dict[str, list[int]]] = {}
     for k, pad, x2 in zip(index, pads, under):
         for full in x2:

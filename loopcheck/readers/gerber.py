@@ -27,7 +27,9 @@ as the convex hull of the aperture at both ends, arcs and region arcs approximat
 sagitta below ``tol_mm`` (default 5 um; circles are area-equivalent polygons), regions repaired
 with ``make_valid`` (cut-ins). Polarity follows file order exactly: the image is the union over
 dark runs of each run minus every clear run after it (``fast_union.compose``: each dark shape cut
-only by the later clear shapes it meets, then one clustered union of everything).
+only by the later clear shapes it meets, then one clustered union of everything). The copper of
+each X2 net (``%TO.N%``) follows the same rule: each of its parts is cut by the clear shapes that
+come after it and meet it, and by nothing else (``_Image.net_copper``).
 
 References
 ----------
@@ -854,6 +856,11 @@ class _Image:
         self.bounds = [math.inf, math.inf, -math.inf, -math.inf]
         self.cleared = False          # a clear run came after some dark copper
         self._has_dark = False
+        self._run_no = 0
+        self._last_clear = -1         # run number of the last clear run
+        self._net_runs: dict[str, list[int]] = {}   # net -> run number of each of its parts
+        self._clear: list = []        # clear shapes after some dark copper, and their run numbers
+        self._clear_no: list[int] = []
 
     def apply(self, run: _Run, offset=(0.0, 0.0)):
         geoms = run.geoms
@@ -868,13 +875,49 @@ class _Image:
         self.bounds = [min(self.bounds[0], b[0]), min(self.bounds[1], b[1]),
                        max(self.bounds[2], b[2]), max(self.bounds[3], b[3])]
         self.runs.append((run.dark, geoms))
+        self._run_no += 1
         if run.dark:
             self._has_dark = True
             for g, net in zip(geoms, run.nets):
                 if net is not None:
-                    self.net_parts.setdefault(net, []).append(g)
+                    parts = self.net_parts.get(net)
+                    if parts is None:
+                        parts = self.net_parts[net] = []
+                        self._net_runs[net] = []
+                    parts.append(g)
+                    self._net_runs[net].append(self._run_no)
         elif self._has_dark:
             self.cleared = True
+            self._last_clear = self._run_no
+            self._clear.extend(geoms)
+            self._clear_no.extend([self._run_no] * len(geoms))
+
+    def net_copper(self, cut: bool = True) -> dict[str, BaseGeometry]:
+        """Each X2 net's copper: its parts, each cut by the clear shapes that come after it in
+        the file (and only those: a pad drawn in a clearance hole after the hole stays whole,
+        and another net's copper drawn later never adds to this one's). ``cut=False`` (a
+        negative image): the parts as drawn."""
+        out: dict[str, BaseGeometry] = {}
+        tree = clear = clear_no = None
+        for net, parts in self.net_parts.items():
+            runs = self._net_runs[net]
+            if cut and runs[0] < self._last_clear:
+                if tree is None:
+                    clear = np.asarray(self._clear, dtype=object)
+                    clear_no = np.asarray(self._clear_no)
+                    tree = shapely.STRtree(clear)
+                part_no = np.asarray(runs)
+                pi, ci = tree.query(np.asarray(parts, dtype=object), predicate="intersects")
+                later = clear_no[ci] > part_no[pi]
+                pi, ci = pi[later], ci[later]
+                if len(pi):
+                    parts = list(parts)
+                    for k in np.unique(pi).tolist():
+                        hits = clear[ci[pi == k]]
+                        parts[k] = shapely.difference(parts[k], hits[0] if len(hits) == 1
+                                                      else shapely.union_all(hits))
+            out[net] = fu.union_many(parts)
+        return out
 
     def geometry(self) -> BaseGeometry:
         return fu.compose(self.runs)
@@ -1012,16 +1055,7 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
             frame = EMPTY
         geometry = shapely.difference(frame, geometry) if not frame.is_empty else EMPTY
 
-    net_copper = {}
-    layer_parts = tree = None
-    if image.cleared and not negative and image.net_parts:
-        layer_parts = np.asarray(fu.polygons_of(geometry), dtype=object)
-        tree = shapely.STRtree(layer_parts)
-    for net, parts in image.net_parts.items():
-        g = fu.union_many(parts)
-        if tree is not None:
-            g = fu.clip(g, geometry, layer_parts, tree)   # later clear objects cut it too
-        net_copper[net] = g
+    net_copper = image.net_copper(cut=not negative)
 
     return GerberLayer(
         path=str(path),
