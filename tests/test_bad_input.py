@@ -280,7 +280,7 @@ BAD_GERBER = {
     "undefined-aperture": ("end", "D99*\nX1000000Y1000000D03*", 0, "D99 is selected but never defined"),
     "unreadable-coordinate": ("end", "X1O00000Y0D01*", 0, "coordinate data that cannot be read"),
     "invalid-operation-code": ("end", "X1000000Y0D04*", 0, "D04 is not an operation code"),
-    "coordinate-too-long": ("end", "X99999999999999999999Y0D01*", 0, "more than 12 digits"),
+    "coordinate-too-long": ("end", "X99999999999999999999Y0D01*", 0, "more than 14 digits"),
     "aperture-parameters": ("end", "%ADD90R,1*%", 0, "a rectangle (R) takes 2 to 3 parameters"),
     "aperture-not-a-number": ("end", "%ADD90C,0.5mm*%", 0, "parameter '0.5mm' is not a number"),
     "aperture-negative": ("end", "%ADD90C,-0.5*%", 0, "negative size"),

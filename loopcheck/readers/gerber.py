@@ -10,16 +10,17 @@ Parsing is gerbonara's (``GerberParser``), with a thin subclass that
   * gives regions the object attributes (net, pin) that were current when they were drawn;
   * tolerates a %TD% of an attribute that was never set (harmless, and some writers do it);
   * supports the LM / LR / LS aperture transformations (mirror, rotate, scale of flashes);
-  * refuses every malformed statement in its own words, naming the file and the line: an invalid
-    D code (``D0``), an undefined aperture selected, a flash or draw before any aperture is
-    selected, coordinate words that cannot be read (or longer than 12 digits), an operation code
-    other than D01-D03, an aperture definition with the wrong number of parameters, a negative size
-    or an undefined macro, a macro that cannot be parsed or evaluated (the message names the
-    aperture's definition line), unreadable FS / MO / LP / LM / LR / LS / SR statements, block
-    apertures (AB, not supported), attribute statements without a name and unknown G codes with
-    data. gerbonara's exception text never reaches the user (``_REASONS`` translates the ones it
-    raises). A lone unknown statement that cannot change the image (a job attribute, an unknown
-    extended command, a lone unknown G code) is skipped with a note.
+  * refuses every malformed statement in its own words, naming the file and the line: an
+    invalid D code (``D0``), an undefined aperture selected, a flash or draw before any aperture
+    is selected, coordinate words that cannot be read (or longer than 14 digits, the most a
+    format statement can declare), an operation code other than D01-D03, an aperture definition
+    with the wrong number of parameters, a negative size or an undefined macro, a macro that
+    cannot be parsed or evaluated (the message names the aperture's definition line),
+    unreadable FS / MO / LP / LM / LR / LS / SR statements, block apertures (AB, not supported),
+    attribute statements without a name and unknown G codes with data. gerbonara's exception
+    text never reaches the user (``_REASONS`` translates the ones it raises). A lone unknown
+    statement that cannot change the image (a job attribute, an unknown extended command, a
+    lone unknown G code) is skipped with a note.
 
 Geometry is built here: each aperture's shape once (``aperture_shapes``), flashes stamped
 vectorised, strokes with round apertures buffered (round caps), strokes with other apertures swept
@@ -143,9 +144,9 @@ class _Parser(GerberParser):
     STATEMENT_REGEXES["load_mirroring"] = r"^LM(?P<mirror>N|XY|X|Y)$"
     STATEMENT_REGEXES["load_rotation"] = fr"^LR(?P<angle>{_DEC})$"
     STATEMENT_REGEXES["load_scaling"] = fr"^LS(?P<scale>{_DEC})$"
-    # coordinate numbers of at most 12 digits (10^6 mm at 6 decimals): a longer word is not
-    # matched, and the unknown-statement check below refuses it
-    STATEMENT_REGEXES["coord"] = GerberParser.STATEMENT_REGEXES["coord"].replace(r"[\+-]?\d+", r"[\+-]?\d{1,12}")
+    # coordinate numbers of at most 14 digits (7 + 7, the most an FS statement declares): a
+    # longer word is not matched, and the unknown-statement check below refuses it
+    STATEMENT_REGEXES["coord"] = GerberParser.STATEMENT_REGEXES["coord"].replace(r"[\+-]?\d+", r"[\+-]?\d{1,14}")
 
     def __init__(self, target, limits: InputLimits):
         super().__init__(target)
@@ -321,10 +322,10 @@ class _Parser(GerberParser):
 
     def _unknown_statement(self, stmt: str) -> None:
         m = re.search(r"D0*(\d+)$", stmt)
-        if m and re.match(r"^(?:G0*\d+)?\s*(?:[XYIJ][+-]?\d{1,12})*D", stmt) and int(m[1]) in (0, 4, 5, 6, 7, 8, 9):
+        if m and re.match(r"^(?:G0*\d+)?\s*(?:[XYIJ][+-]?\d{1,14})*D", stmt) and int(m[1]) in (0, 4, 5, 6, 7, 8, 9):
             raise _Malformed(f"D{int(m[1]):02d} is not an operation code (D01 draw, D02 move, D03 flash)")
-        if re.search(r"\d{13}", stmt):
-            raise _Malformed("a coordinate word of more than 12 digits")
+        if re.search(r"\d{15}", stmt):
+            raise _Malformed("a coordinate word of more than 14 digits")
         m = self._IMAGE_STATEMENT.match(stmt)
         if m:
             if m[1] == "AB":
