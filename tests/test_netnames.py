@@ -123,3 +123,22 @@ def test_realboard_cut_names_restored_from_x2_and_stage_names_unchanged():
     # the netlist's names (as expected.toml spells them) stay the nets' names
     assert {"/POWER/SW", "/POWER/VIN", "RADIO/PA_BOOST", "IO/PA_BOOST_PA"} <= set(board.nets)
     assert sum("restored from the copper" in a for a in board.assumptions) == 1
+
+
+@pytest.mark.parametrize("name", ["bitaxe-ultra-acs", "led-boost-motionlight", "underglow2-tps62172",
+                                  "usbpd-hotplate-kicad10"])
+def test_realboard_names_filling_the_field_are_restored_or_were_never_cut(name):
+    folder = REALBOARDS / name
+    if not folder.exists():
+        pytest.skip(f"real boards not present at {REALBOARDS}")
+    board = load_board(load_project(folder))
+    netlist = read_ipc356(folder / "netlist.ipc")
+    x2 = set().union(*(set(layer.net_copper) for layer in board.layers))
+    assert netlist.maybe_cut_names and x2
+    for cut in netlist.maybe_cut_names:
+        if cut in board.net_full_names:
+            full = board.net_full_names[cut]
+            assert full in x2 and len(full) > 14 and cut_form(full) == cut
+        else:                     # a name of exactly 14 characters: the copper spells it so
+            assert any(x.upper() == cut for x in x2), cut
+    assert set(board.nets) >= set(netlist.nets)          # no net renamed, none merged
