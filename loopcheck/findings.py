@@ -71,3 +71,27 @@ class Finding:
         d["nets"] = list(self.nets)
         d["terminals"] = list(self.terminals)
         return d
+
+
+@dataclass
+class InternalError:
+    """A part of the check that could not be completed because loopcheck itself failed (a bug).
+
+    Not a finding about the board and not a stated gap: the run exits 3 whatever ``--fail-on``
+    says. ``traceback_file`` is a file in the system's temporary folder holding the traceback
+    (never beside the inputs); ``report_id`` names it shortly in messages.
+    """
+
+    module: str                               # "hot loop measurement", "stage detection", ...
+    error: str                                # exception class and message: "IndexError: ..."
+    stage: str | None = None
+    report_id: str = ""                       # short hash of the traceback
+    traceback_file: str | None = None
+    traceback: str = ""
+
+    def where(self) -> str:
+        return f"{self.module}" + (f" of {self.stage}" if self.stage else "")
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"module": self.module, "stage": self.stage, "error": self.error,
+                "report_id": self.report_id, "traceback_file": self.traceback_file}

@@ -4,6 +4,7 @@ pipeline and the boards exist."""
 
 from __future__ import annotations
 
+import io
 import json
 import os
 import time
@@ -27,7 +28,7 @@ def fake_pipeline(monkeypatch, tmp_path):
 
     monkeypatch.setattr(check_cmd, "_load_project", lambda board: state["project"])
     monkeypatch.setattr(check_cmd, "_load_board", lambda project: state["analysis"].board)
-    monkeypatch.setattr(check_cmd, "_analyse", lambda board, project: state["analysis"])
+    monkeypatch.setattr(check_cmd, "_analyse", lambda board, project, **kw: state["analysis"])
 
     def set_(variant=None, **project_kw):
         if variant:
@@ -171,12 +172,12 @@ def test_led_driver_deck_is_stricter(fake_pipeline):
 
 @pytest.fixture
 def slow_pipeline(fake_pipeline, monkeypatch):
-    """The fake pipeline with a measuring step that outlasts the progress delay (1 s)."""
+    """The fake pipeline with a measuring step that outlasts the progress delay (0.5 s here)."""
     fast = check_cmd._analyse
 
-    def slow(board, project):
+    def slow(board, project, **kw):
         time.sleep(1.2)
-        return fast(board, project)
+        return fast(board, project, **kw)
 
     monkeypatch.setattr(check_cmd, "_analyse", slow)
 
@@ -193,31 +194,80 @@ def test_progress_shows_the_slow_step_of_the_pipeline(slow_pipeline):
     import io
 
     buf = io.StringIO()
-    result = check_cmd.run_check("board", None, "error", check_cmd.Progress(enabled=True, stream=buf))
+    result = check_cmd.run_check("board", None, "error",
+                                 check_cmd.Progress(enabled=True, stream=buf, after_s=0.5))
     assert result.failed
     lines = buf.getvalue().splitlines()
-    assert lines[0] == "loopcheck: measuring the power stages ..."
-    assert lines[1].startswith("loopcheck: measuring the power stages: 1.")
+    assert lines[0].startswith("loopcheck: [") and lines[0].endswith("measuring the power stages ...")
+    assert lines[1].endswith("measuring the power stages: done")
     assert len(lines) == 2          # the quick steps say nothing
 
 
 def test_progress_names_slow_steps_on_a_terminal():
+    """Nothing in the run's first seconds; past them, each step and measurement is named."""
     import io
     import time
 
+    now = [0.0]
     buf = io.StringIO()
-    p = check_cmd.Progress(enabled=True, stream=buf)
+    p = check_cmd.Progress(enabled=True, stream=buf, after_s=2.0, clock=lambda: now[0])
+    p.tell("stage1: hot loop")                       # at 0 s: a short run says nothing
     with p.step("quick step"):
         pass
+    assert buf.getvalue() == ""
+    now[0] = 2.5                                     # past two seconds: every step is named
+    p.tell("stage1: sense resistor")
     with p.step("slow step"):
-        time.sleep(1.2)
-    text = buf.getvalue()
-    assert "quick step" not in text
-    assert "loopcheck: slow step ..." in text and "loopcheck: slow step: 1." in text
+        time.sleep(0.2)                              # the announcing timer's thread runs
+    lines = buf.getvalue().splitlines()
+    assert lines == ["loopcheck: [   2 s] stage1: sense resistor",
+                     "loopcheck: [   2 s] slow step ...", "loopcheck: [   2 s] slow step: done"]
     quiet = io.StringIO()
-    with check_cmd.Progress(enabled=False, stream=quiet).step("slow step"):
-        time.sleep(1.1)
+    q = check_cmd.Progress(enabled=False, stream=quiet, clock=lambda: now[0])
+    now[0] = 10.0
+    q.tell("stage1: hot loop")
+    with q.step("slow step"):
+        time.sleep(0.1)
     assert quiet.getvalue() == ""
+
+
+class _Tty(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_progress_only_on_a_terminal_without_quiet_or_a_machine_report_on_stdout():
+    tty, pipe = _Tty(), io.StringIO()
+    assert check_cmd.progress_wanted(False, [("text", None)], tty)
+    assert check_cmd.progress_wanted(False, [("json", "r.json"), ("text", None)], tty)
+    assert not check_cmd.progress_wanted(True, [("text", None)], tty)           # --quiet
+    assert not check_cmd.progress_wanted(False, [("json", None)], tty)          # JSON to stdout
+    assert not check_cmd.progress_wanted(False, [("sarif", None)], tty)
+    assert not check_cmd.progress_wanted(False, [("text", None)], pipe)         # CI logs
+
+
+def test_progress_on_a_real_pseudo_terminal(slow_pipeline, monkeypatch):
+    """stderr a pty: the slow measuring step shows (the piped case: the tests above)."""
+    import os
+    import pty
+    import select
+
+    master, slave = pty.openpty()
+    try:
+        stream = os.fdopen(slave, "w", buffering=1)
+        monkeypatch.setattr(check_cmd.sys, "stderr", stream)
+        assert check_cmd.progress_wanted(False, [("text", None)])
+        p = check_cmd.Progress(enabled=check_cmd.progress_wanted(False, [("text", None)]),
+                               after_s=0.2)
+        check_cmd.run_check("board", None, "error", p)
+        stream.flush()
+        text = ""
+        while select.select([master], [], [], 0.5)[0]:
+            text += os.read(master, 4096).decode()
+    finally:
+        stream.close()
+        os.close(master)
+    assert "measuring the power stages ..." in text and "measuring the power stages: done" in text
 
 
 def test_fail_on_incomplete(fake_pipeline, monkeypatch):
@@ -232,7 +282,7 @@ def test_fail_on_incomplete(fake_pipeline, monkeypatch):
 
     a = fresh("tidy")
     a.measurements = [m for m in a.measurements if m.value is not None]
-    monkeypatch.setattr(check_cmd, "_analyse", lambda board, project: a)
+    monkeypatch.setattr(check_cmd, "_analyse", lambda board, project, **kw: a)
     r = run("check", "board", "--fail-on-incomplete", "--format", "json")
     assert r.exit_code == 0 and json.loads(r.output)["result"]["gaps"] == []
     assert "--fail-on-incomplete" in run("check", "--help").output

@@ -44,7 +44,8 @@ def test_json_measurement_contract():
     (st,) = data["stages"]
     assert st["name"] == "stage1" and st["topology"] == "buck"
     assert st["hot_loop"] == {"terminals": ["C1.1", "U1.1", "U1.2", "D1.1", "D1.2", "C1.2"],
-                              "area_mm2": 182.0, "inductance_nH": 17.2, "vias": 1}
+                              "area_mm2": 182.0, "inductance_nH": 17.2, "vias": 1,
+                              "inductance_method": None}     # the fixture's measurement says none
     assert st["input_cap"] == {"ref": "C1", "distance_mm": 18.4}
     assert st["sense"] == {"ref": "RS1", "kelvin_error_pct": 3.1}
     assert st["copper_loss_pct"] == 1.4
@@ -98,7 +99,8 @@ def test_text_report_shows_numbers_limits_findings_assumptions():
     assert "Stage stage1: buck" in t
     line = next(x for x in t.splitlines() if x.strip().startswith("hot-loop area"))
     assert "182 mm²" in line and "error > 150" in line and "ERROR" in line
-    assert "not measured (no controller decoupling capacitor found)" in t
+    # what was not measured: one line per module and reason, under the stage's table
+    assert "    controller decoupling (1): no controller decoupling capacitor found" in t
     assert "Findings: 4 errors, 3 warnings, 3 notes; 1 waived" in t
     # most severe first, waived last
     idx = [t.index(s) for s in ("  error    hot-loop-area", "  warning  sense-pair-area",
@@ -108,7 +110,8 @@ def test_text_report_shows_numbers_limits_findings_assumptions():
     assert "Assumptions" in t and "edge time 20 ns (default)" in t
     assert "output current 1.5 A (loopcheck.toml)" in t
     assert "Result: FAIL, 4 unwaived findings at or above error" in t
-    assert t.rstrip().splitlines()[-1].startswith("Caution:")
+    assert t.rstrip().split("\n\n")[-1].splitlines()[-2].startswith("Caution:")
+    assert max(len(x) for x in t.splitlines()) <= 100       # fits a 100-column terminal
 
 
 def test_text_report_tidy_passes_and_names_integrity_problems():

@@ -14,7 +14,7 @@ from loopcheck.errors import InputError
 from loopcheck.findings import Finding, Measurement
 from loopcheck.measure import QUANTITIES
 from loopcheck.rules import RULE_DOCS, evaluate, evaluate_all, explain_text, load_deck
-from loopcheck.rules.deck import packaged_decks
+from loopcheck.rules.deck import deck_folder, packaged_decks
 from reportfixtures import make_analysis, make_project
 
 RULES_MD_RULES = {
@@ -65,7 +65,7 @@ def test_default_deck_limits_match_rules_md():
 
 
 def test_decks_say_common_practice_in_the_file():
-    text = resources.files("loopcheck.rules").joinpath("default.toml").read_text()
+    text = deck_folder().joinpath("default.toml").read_text()
     data = tomllib.loads(text)
     for name, table in data["rules"].items():
         if table.get("kind", "measurement") == "measurement":
@@ -316,3 +316,31 @@ def test_message_formats_small_and_large_values():
     a.measurements = [m]
     fs = [f for f in evaluate(a, load_deck("default"), make_project()) if f.rule == "hot-loop-area"]
     assert len(fs) == 1 and "is 1234 mm2, above the error limit of 150 mm2" in fs[0].message
+
+
+def test_shipped_decks_live_once_in_the_top_level_rules_folder():
+    """Users find the decks in rules/ at the project's top; the package keeps no second copy;
+    setup.py installs that folder as loopcheck.decks (a non-editable install reads it there)."""
+    from pathlib import Path
+
+    import loopcheck
+
+    root = Path(loopcheck.__file__).resolve().parents[1]
+    assert sorted(p.stem for p in (root / "rules").glob("*.toml")) == packaged_decks()
+    assert not list((root / "loopcheck" / "rules").glob("*.toml"))
+    assert Path(str(deck_folder())) == root / "rules"
+    setup_py = (root / "setup.py").read_text()
+    assert '"loopcheck.decks": "rules"' in setup_py and '"loopcheck.decks": ["*.toml"]' in setup_py
+    assert load_deck("default").path == "rules/default.toml"
+
+
+def test_layout_loss_rule_is_in_the_decks_and_explained():
+    d = load_deck("default")
+    r = d.rules["layout-loss"]
+    assert (r.quantity, r.direction, r.limits) == ("layout_loss", "above",
+                                                   {"warning": 2.0, "error": 5.0})
+    assert "common practice" in r.source
+    assert load_deck("led-driver").rules["layout-loss"].limits == r.limits
+    text = explain_text(RULE_DOCS["layout-loss"]).replace("\n  ", " ")
+    for part in ("1/2 L_loop I_off^2 f_sw", "I_rms^2 R(T)", "Known limits", "How to fix it"):
+        assert part in text, part

@@ -36,35 +36,64 @@ def renderer(fmt: str) -> Callable:
 
 
 class Progress:
-    """Names each step on stderr once it has run for more than a second (a terminal only)."""
+    """Progress on stderr for a run longer than ``after_s`` (a terminal only: never with --quiet,
+    a report on stdout other than text, or a stderr that is not a terminal, such as CI logs).
 
-    def __init__(self, enabled: bool, stream=None):
+    ``step(what)`` names a step once it has run past ``after_s`` seconds since the run began;
+    ``tell(what)`` (the analysis's callback) names each measurement step from then on. The clock
+    and the stream can be given (tests)."""
+
+    def __init__(self, enabled: bool, stream=None, after_s: float = 2.0, clock=time.monotonic):
         self.stream = stream or sys.stderr
         self.enabled = enabled
+        self.after_s = after_s
+        self.clock = clock
+        self.start = clock()
+
+    def _write(self, text: str) -> None:
+        self.stream.write(f"loopcheck: [{self.clock() - self.start:4.0f} s] {text}\n")
+        self.stream.flush()
+
+    def tell(self, what: str) -> None:
+        if self.enabled and self.clock() - self.start >= self.after_s:
+            self._write(what)
 
     @contextmanager
     def step(self, what: str) -> Iterator[None]:
         if not self.enabled:
             yield
             return
-        start = time.monotonic()
-        shown = threading.Event()
+        lock = threading.Lock()
+        state = {"shown": False, "finished": False}
 
         def announce() -> None:
-            shown.set()
-            self.stream.write(f"loopcheck: {what} ...\n")
-            self.stream.flush()
+            with lock:                # never after the step has ended: both lines or neither
+                if not state["finished"]:
+                    state["shown"] = True
+                    self._write(f"{what} ...")
 
-        timer = threading.Timer(1.0, announce)
+        wait = max(self.after_s - (self.clock() - self.start), 0.0)
+        timer = threading.Timer(wait, announce)
         timer.daemon = True
         timer.start()
         try:
             yield
         finally:
             timer.cancel()
-            if shown.is_set():
-                self.stream.write(f"loopcheck: {what}: {time.monotonic() - start:.1f} s\n")
-                self.stream.flush()
+            with lock:
+                state["finished"] = True
+                if state["shown"]:
+                    self._write(f"{what}: done")
+
+
+def progress_wanted(quiet: bool, pairs: list[tuple[str, str | None]], stream=None) -> bool:
+    """Progress only on a terminal, without --quiet, and not when a machine-read report goes
+    to stdout (its reader is a program)."""
+    stream = stream or sys.stderr
+    if quiet or any(out is None and fmt != "text" for fmt, out in pairs):
+        return False
+    isatty = getattr(stream, "isatty", None)
+    return bool(isatty and isatty())
 
 
 def pair_outputs(formats: tuple[str, ...], outputs: tuple[str, ...]) -> list[tuple[str, str | None]]:
@@ -114,26 +143,38 @@ def _load_board(project):
     return load_board(project)
 
 
-def _analyse(board, project):
+def _analyse(board, project, **kw):
     from ..analysis import analyse
 
-    return analyse(board, project)
+    return analyse(board, project, **kw)
 
 
-def run_check(board: str, deck: str | None, fail_on: str, progress: Progress):
-    """The pipeline: project, board, analysis, evaluation. Returns a CheckResult."""
+DEFAULT_TIME_BUDGET_S = 300.0
+INDUCTANCE_METHODS = ("field", "fast")
+
+
+def run_check(board: str, deck: str | None, fail_on: str, progress: Progress,
+              time_budget_s: float | None = DEFAULT_TIME_BUDGET_S,
+              inductance_method: str | None = None, fail_on_incomplete: bool = False):
+    """The pipeline: project, board, analysis, evaluation. Returns a CheckResult.
+
+    The time budget runs from here: measurements not started when it is used up are not made,
+    for that reason (a stated gap)."""
     from ..report.common import CheckResult
     from ..rules import evaluate_all, load_deck
 
+    deadline = time.monotonic() + time_budget_s if time_budget_s else None
     with progress.step("reading the project file"):
         project = _load_project(board)
     rule_deck = load_deck(deck, project)          # early: a bad deck fails before the slow part
     with progress.step("reading the fab outputs"):
         b = _load_board(project)
     with progress.step("measuring the power stages"):
-        analysis = _analyse(b, project)
+        analysis = _analyse(b, project, deadline=deadline, time_budget_s=time_budget_s,
+                            inductance_method=inductance_method, progress=progress.tell)
     evaluation = evaluate_all(analysis, rule_deck, project)
-    return CheckResult(analysis=analysis, evaluation=evaluation, project=project, fail_on=fail_on)
+    return CheckResult(analysis=analysis, evaluation=evaluation, project=project, fail_on=fail_on,
+                       fail_on_incomplete=fail_on_incomplete)
 
 
 def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None = None,
@@ -172,19 +213,34 @@ def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None 
 @click.option("--fail-on-incomplete", is_flag=True,
               help="Also exit 1 when the check did not cover everything (no netlist, no power "
                    "stage found, measurements not made); the reports list what was not covered.")
+@click.option("--time-budget", "time_budget", type=click.FloatRange(min=0, min_open=True),
+              default=DEFAULT_TIME_BUDGET_S, show_default=True, metavar="SECONDS",
+              help="Time for the whole board; measurements not started by then are reported "
+                   "as not made for that reason (the result is then incomplete).")
+@click.option("--inductance", "inductance", type=click.Choice(INDUCTANCE_METHODS), default=None,
+              help="Loop-inductance method: 'field' (a field solve of the copper) or 'fast' (the "
+                   "route-based estimate). Default: the measurement's own default.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress messages on stderr.")
 def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tuple[str, ...],
-            fail_on: str, fail_on_incomplete: bool, quiet: bool) -> None:
+            fail_on: str, fail_on_incomplete: bool, time_budget: float, inductance: str | None,
+            quiet: bool) -> None:
     """Check the power stages of BOARD (a fab-output folder, .zip or loopcheck.toml).
 
     Exit code 0: no unwaived finding at or above --fail-on (and, with --fail-on-incomplete,
-    nothing left uncovered); 1: there are some; 2: bad input.
+    nothing left uncovered); 1: there are some; 2: bad input; 3: the check could not be
+    completed (an internal error in loopcheck, whatever --fail-on says: the message names what
+    to send to get it fixed).
     """
     pairs = pair_outputs(formats, outputs)
     for _, out in pairs:
         if out is not None:
             check_writable(out)
-    progress = Progress(enabled=not quiet and sys.stderr.isatty())
-    result = run_check(board, deck, fail_on, progress)
+    progress = Progress(enabled=progress_wanted(quiet, pairs))
+    result = run_check(board, deck, fail_on, progress, time_budget_s=time_budget,
+                       inductance_method=inductance, fail_on_incomplete=fail_on_incomplete)
     emit(result, pairs, progress)
-    sys.exit(1 if result.failed or (fail_on_incomplete and result.gaps) else 0)
+    if result.internal_errors:
+        from ..crashreport import how_to_report
+
+        click.echo(how_to_report(result.internal_errors), err=True)
+    sys.exit(result.exit_code())

@@ -43,7 +43,7 @@ def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
     for _, out in pairs:
         if out is not None:
             check_cmd.check_writable(out)
-    progress = check_cmd.Progress(enabled=not quiet and sys.stderr.isatty())
+    progress = check_cmd.Progress(enabled=check_cmd.progress_wanted(quiet, pairs))
     a = check_cmd.run_check(old, deck, "never", progress)
     b = check_cmd.run_check(new, deck, "never", progress)
     cmp = compare(a.analysis.measurements, b.analysis.measurements, a.findings, b.findings)
@@ -51,4 +51,10 @@ def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
     check_cmd.emit(result, pairs, progress, render=renderer)
     worse = [fc for fc in cmp.findings_with("new")
              if not fc.new.waived and at_or_above(fc.new.severity, fail_on)]
+    errors = a.internal_errors + b.internal_errors
+    if errors:                     # a comparison of what was not measured is no comparison
+        from ..crashreport import how_to_report
+
+        click.echo(how_to_report(errors), err=True)
+        sys.exit(3)
     sys.exit(1 if worse else 0)

@@ -25,6 +25,7 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "path.resistance": ("mohm", "path resistance at operating temperature"),
     "path.loss": ("W", "I^2 R loss in the path"),
     "copper_loss": ("%", "copper loss of all high-current paths, share of output power"),
+    "layout_loss": ("%", "efficiency points the layout costs"),
     "switch_node.area": ("mm2", "switch-node copper beyond its pads"),
     "switch_node.capacitance": ("pF", "switch-node copper capacitance to neighbouring planes"),
 }

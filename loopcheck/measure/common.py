@@ -9,6 +9,16 @@ from ..powerstage import OperatingPoint, Stage
 from . import QUANTITIES, base_quantity
 
 
+class MeasurementGap(Exception):
+    """A measurement cannot be made for a reason of the board (no route through the copper, no
+    sense resistor, a value the user must give): the message says why, in the user's words.
+
+    The pipeline (``analysis.measure_stage``) reports it as not made, a stated gap. Any other
+    exception out of a measurement module is a bug in loopcheck and is reported as an internal
+    error (exit code 3): raise this class, or a subclass, only for reasons of the board.
+    """
+
+
 def measurement(quantity: str, value: float | None, stage: Stage | str | None, **kw: Any) -> Measurement:
     """A Measurement with unit and label from ``QUANTITIES`` (path.<name>.<what> takes path.<what>'s)."""
     unit, label = QUANTITIES[base_quantity(quantity)]

@@ -210,7 +210,8 @@ def measure_paths(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
             ca = pad_contact(ctx, "a", frm, ix, potential_v=1.0)
             cb = pad_contact(ctx, "b", to, ix, potential_v=0.0)
             R = float(two_terminal_resistance(layers, ca, cb, vias, max_cells=DC_MAX_CELLS))
-        except Exception as exc:       # the solver's errors name the problem; the other paths go on
+        except ValueError as exc:      # the DC solver's board reasons (off the copper, contacts joined,
+        #                               no current, no convergence) are ValueError; anything else is a bug
             out.append(not_made(path_quantity(name, "resistance"), stage, f"DC solve failed: {exc}", **base))
             out.append(not_made(path_quantity(name, "loss"), stage, f"DC solve failed: {exc}", **base))
             loss_missing.append(name)

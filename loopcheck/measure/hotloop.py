@@ -33,7 +33,7 @@ from shapely.ops import polygonize, unary_union
 from ..board import Pad
 from ..findings import Measurement
 from ..powerstage import Stage
-from .common import measurement, not_made, op_assumptions, point, polygon, polyline, switch_current
+from .common import MeasurementGap, measurement, not_made, op_assumptions, point, polygon, polyline, switch_current
 from .netcopper import MeasureContext, dielectric_between, layer_thickness_m, layer_z_mm
 from .routes import DETOUR_MM, Route, RouteError, route, segment_widths
 
@@ -402,9 +402,9 @@ def measure_hot_loop(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
                        **base)]
     try:
         L, notes, det = loop_inductance(ctx, loop)
-    except (ImportError, AttributeError) as exc:
+    except MeasurementGap as exc:     # a reason of the board; a bug goes up
         L, notes, det = None, [], {}
-        reason = f"inductance engine not available: {exc}"
+        reason = f"inductance not computed: {exc}"
     op = stage.operating_point
     vias = loop.vias
     out.append(measurement("hot_loop.vias", len(vias), stage,

@@ -36,6 +36,7 @@ from shapely.geometry import LineString
 from shapely.geometry.base import BaseGeometry
 
 from ..board import Pad
+from .common import MeasurementGap
 from .netcopper import MeasureContext, layer_z_mm
 from .raster import RasterGrid, cell_centre, grid_covering, rasterise
 
@@ -55,8 +56,8 @@ _KNIGHT_VIA = {(1, 2): [(0, 1), (1, 1)], (2, 1): [(1, 0), (1, 1)],
                (1, -2): [(0, -1), (1, -1)], (2, -1): [(1, 0), (1, -1)]}
 
 
-class RouteError(Exception):
-    """No route: the reason in words."""
+class RouteError(MeasurementGap):
+    """No route: the reason in words (a reason of the board, so a stated gap)."""
 
 
 @dataclass

@@ -152,7 +152,8 @@ def _kelvin(ctx, stage, role, pa, pb, tap_a, tap_b, base) -> Measurement:
                                   pad_contact(ctx, "out", out_b, ix, potential_v=0.0),
                                   pad_contact(ctx, "tap", tap_b, ix)], vias, max_cells=DC_MAX_CELLS)
         e_b = sol_b.contact_potential("rs") - sol_b.contact_potential("tap")
-    except Exception as exc:       # the solver's own errors name the problem; the stage goes on
+    except ValueError as exc:      # the DC solver's board reasons (off the copper, contacts joined,
+        #                               no current, no convergence) are ValueError; anything else is a bug
         return not_made(q, stage, f"DC solve failed: {exc}", **base)
     ideal = current * r_val
     err = e_a + e_b

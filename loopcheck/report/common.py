@@ -13,7 +13,7 @@ from typing import Any
 from .. import __version__
 from ..analysis import Analysis
 from ..fileio import write_atomic  # noqa: F401  (re-exported: reports are written with it)
-from ..findings import SEVERITIES, Finding, Measurement
+from ..findings import SEVERITIES, Finding, InternalError, Measurement
 from ..powerstage import Stage
 # fmt: the one number format of every report, the same as in the findings' messages
 from ..rules.evaluate import Check, Evaluation, at_or_above, fmt  # noqa: F401  (fmt re-exported)
@@ -38,6 +38,14 @@ class CheckResult:
     project: Any = None               # loopcheck.project.Project, or None
     fail_on: str = "error"
     tool_version: str = __version__
+    fail_on_incomplete: bool = False
+
+    def exit_code(self) -> int:
+        """3: the check could not be completed (an internal error, whatever --fail-on says,
+        --fail-on never too); 1: findings at --fail-on, or gaps with --fail-on-incomplete; 0."""
+        if self.internal_errors:
+            return 3
+        return 1 if self.failed or (self.fail_on_incomplete and self.gaps) else 0
 
     @property
     def findings(self) -> list[Finding]:
@@ -56,9 +64,20 @@ class CheckResult:
         return bool(self.failing)
 
     @property
+    def internal_errors(self) -> list[InternalError]:
+        """Bugs met on the way: the check could not be completed (exit 3, whatever --fail-on)."""
+        return list(self.analysis.internal_errors)
+
+    @property
+    def complete(self) -> bool:
+        return not self.gaps and not self.internal_errors
+
+    @property
     def gaps(self) -> list[str]:
         """What this check did not cover, in words; empty when it covered the whole board.
-        A pass with gaps is reported as incomplete, never as a plain pass."""
+        A pass with gaps is reported as incomplete, never as a plain pass. Measurements not made
+        are one line per stage, module and reason (``not_made_groups``); those an internal error
+        stopped are listed with the internal errors, not here."""
         a = self.analysis
         out = []
         if not a.connectivity_checked:
@@ -68,13 +87,11 @@ class CheckResult:
         elif not a.stages:
             out.append("no power stage found: nothing was measured")
         if not a.measurement_stopped:
-            by_reason: dict[str, list[str]] = {}
-            for m in a.measurements:
-                if m.value is None:
-                    where = f"{m.stage}: " if m.stage else ""
-                    by_reason.setdefault(f"{where}{m.not_made or 'no reason given'}", []).append(m.label)
-            for reason, labels in by_reason.items():
-                out.append(f"not made ({reason}): " + ", ".join(dict.fromkeys(labels)))
+            for g in not_made_groups(a, internal=False):
+                where = f"{g.stage} " if g.stage else ""
+                n = len(g.labels)
+                out.append(f"{where}{g.module}: {n} measurement{'s' if n != 1 else ''} not made: "
+                           f"{g.reason}")
         return out
 
     @property
@@ -90,6 +107,54 @@ class CheckResult:
             else:
                 out[f.severity] += 1
         return out
+
+
+@dataclass
+class NotMadeGroup:
+    """Measurements of one stage and module not made for one reason."""
+
+    stage: str | None
+    module: str
+    reason: str
+    labels: list[str]
+    internal: bool = False
+
+
+def not_made_groups(analysis: Analysis, internal: bool | None = None) -> list[NotMadeGroup]:
+    """The measurements not made, one group per (stage, module, reason), in the order met.
+    ``internal``: True only those an internal error stopped, False only the others, None all."""
+    from ..analysis import module_of
+
+    failed = {(e.stage, e.module) for e in analysis.internal_errors}
+    groups: dict[tuple[str | None, str, str], NotMadeGroup] = {}
+    for m in analysis.measurements:
+        if m.value is not None:
+            continue
+        module = module_of(m.quantity)
+        is_internal = (m.stage, f"{module} measurement") in failed
+        if internal is not None and is_internal != internal:
+            continue
+        key = (m.stage, module, m.not_made or "no reason given")
+        g = groups.setdefault(key, NotMadeGroup(m.stage, module, key[2], [], is_internal))
+        label = path_label(m)
+        if label not in g.labels:
+            g.labels.append(label)
+    return list(groups.values())
+
+
+def layout_loss_headline(m: Measurement | None) -> str:
+    """One line: the efficiency points the layout costs the stage, with its parts."""
+    if m is None:
+        return "Layout cost in efficiency: not measured"
+    if m.value is None:
+        return f"Layout cost in efficiency: not measured ({m.not_made})"
+    d = m.detail
+    text = (f"Layout cost in efficiency: {fmt(float(m.value))} points "
+            f"(copper conduction {fmt(1e3 * float(d['conduction_w']))} mW + loop energy per edge "
+            f"{fmt(1e3 * float(d['switching_w']))} mW, of {fmt(float(d['output_power_w']))} W out)")
+    if d.get("paths_missing"):
+        text += f"; at least: paths not measured: {', '.join(d['paths_missing'])}"
+    return text
 
 
 def finding_id(index: int) -> str:
@@ -170,6 +235,14 @@ def stage_summary(analysis: Analysis, stage: Stage) -> dict[str, Any]:
                (sense_m.refs[0] if sense_m.refs else None))
         sense = {"ref": ref, "kelvin_error_pct": _val(sense_m)}
     v = _val(vias)
+    method = ind.detail.get("inductance_method") if ind is not None else None
+    ll = _first(ms, "layout_loss")
+    layout_loss = None
+    if ll is not None and ll.value is not None:
+        layout_loss = {"pct": float(ll.value),
+                       **{k: float(ll.detail[k]) for k in ("conduction_w", "switching_w",
+                                                           "output_power_w")},
+                       "paths_missing": list(ll.detail.get("paths_missing", []))}
     return {
         "name": stage.name,
         "topology": stage.topology,
@@ -181,10 +254,12 @@ def stage_summary(analysis: Analysis, stage: Stage) -> dict[str, Any]:
         "roles": [{"name": r.name, "ref": r.ref, "terminals": list(r.terminals),
                    "confidence": r.confidence, "evidence": r.evidence} for r in stage.roles],
         "hot_loop": {"terminals": list(stage.hot_loop), "area_mm2": _val(area),
-                     "inductance_nH": _val(ind), "vias": None if v is None else int(round(v))},
+                     "inductance_nH": _val(ind), "vias": None if v is None else int(round(v)),
+                     "inductance_method": method},
         "input_cap": input_cap,
         "sense": sense,
         "copper_loss_pct": _val(_first(ms, "copper_loss")),
+        "layout_loss": layout_loss,
         "missing": list(stage.missing),
     }
 

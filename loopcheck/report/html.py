@@ -11,8 +11,9 @@ from html import escape
 
 from ..findings import SEVERITIES
 from ..rules.docs import RULE_DOCS
-from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id, limits_text,
-                     report_assumptions, path_label, sorted_findings, value_text)
+from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id,
+                     layout_loss_headline, limits_text, report_assumptions, path_label,
+                     sorted_findings, value_text)
 from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, copper_defs, layer_colour
 
 # the report style, shared by the check and the diff HTML reports
@@ -124,6 +125,8 @@ def render_html(result: CheckResult) -> str:
         verdict, vcls = f"passes at --fail-on {result.fail_on}", "pass"
     if result.gaps and vcls == "pass":
         verdict, vcls = f"incomplete: passes at --fail-on {result.fail_on} what was checked", "open"
+    if result.internal_errors:
+        verdict, vcls = "could not be completed: internal error (exit 3)", "fail"
     h.append("<header>")
     h.append(f"<h1>Power-stage layout check: {escape(board.name)}</h1>")
     h.append(f'<div class="sub">loopcheck {escape(result.tool_version)} &middot; rule deck '
@@ -140,6 +143,21 @@ def render_html(result: CheckResult) -> str:
     for c in CAUTIONS:
         h.append(f"<p>{escape(c)}</p>")
     h.append("</section>")
+    if result.internal_errors:
+        from ..crashreport import how_to_report
+
+        h.append('<section class="caution internal-error" id="internal-errors" '
+                 'style="border-left-color: var(--err); background:#fdecec">'
+                 '<strong>The check could not be completed: internal error.</strong> '
+                 'loopcheck itself failed (a bug, not a finding about the board); what it '
+                 'stopped is not checked.<ul>')
+        for e in result.internal_errors:
+            h.append(f"<li>{escape(e.where())}: <code>{escape(e.error)}</code> (report id "
+                     f"<code>{escape(e.report_id)}</code>"
+                     + (f"; traceback in <code>{escape(e.traceback_file)}</code>"
+                        if e.traceback_file else "") + ")</li>")
+        h.append(f"</ul><p>{escape(how_to_report(result.internal_errors).splitlines()[-1].strip())}"
+                 "</p></section>")
     if result.gaps:
         h.append('<section class="caution" id="gaps"><strong>Not covered by this check.</strong>')
         h.append("<ul>" + "".join(f"<li>{escape(g)}</li>" for g in result.gaps) + "</ul></section>")
@@ -229,6 +247,9 @@ def render_html(result: CheckResult) -> str:
             h.append(f"<p>Roles: {roles}</p>")
         for miss in stage.missing:
             h.append(f"<p><em>Missing: {escape(miss)}</em></p>")
+        headline = layout_loss_headline(a.measurement(stage.name, "layout_loss"))
+        h.append(f'<p class="headline" id="layout-loss-{escape(stage.name)}"><strong>'
+                 f'{escape(headline)}</strong></p>')
         h.append("<table><thead><tr><th>measurement</th><th>value</th><th>limits</th>"
                  "<th>status</th><th>rule</th></tr></thead><tbody>")
         for m in a.measurements_for(stage.name):

@@ -55,7 +55,10 @@ def report_dict(result: CheckResult) -> dict[str, Any]:
         "deck": {"name": result.deck.name, "path": result.deck.path},
         "fail_on": result.fail_on,
         "result": {"failed": result.failed, "failing": len(result.failing),
-                   "counts": counts, "complete": not result.gaps, "gaps": result.gaps},
+                   "counts": counts, "complete": result.complete, "gaps": result.gaps,
+                   "internal_errors": len(result.internal_errors),
+                   "exit_code": result.exit_code()},
+        "internal_errors": [e.to_dict() for e in result.internal_errors],
         "measurement_stopped": a.measurement_stopped,
         "messages": list(a.messages),
     }

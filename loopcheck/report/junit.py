@@ -64,9 +64,32 @@ def render_junit(result: CheckResult) -> str:
         suites[f"{board}.coverage"] = [(gap, "coverage", [], f"not covered: {gap}") for gap in gaps]
 
     root = ET.Element("testsuites", name=f"loopcheck {board}")
-    totals = {"tests": 0, "failures": 0, "skipped": 0}
+    totals = {"tests": 0, "failures": 0, "skipped": 0, "errors": 0}
+    # Internal errors (bugs in loopcheck): an <error> each in a <board>.internal suite, so a
+    # CI's test view shows the check as not completed, not as passed.
+    if result.internal_errors:
+        from ..crashreport import how_to_report
+
+        suite = ET.SubElement(root, "testsuite", name=f"{board}.internal")
+        for e in result.internal_errors:
+            case = ET.SubElement(suite, "testcase", name=f"internal error: {e.where()}",
+                                 classname=f"{board}.internal")
+            el = ET.SubElement(case, "error", message=f"internal error in the {e.where()}: "
+                               f"{e.error}; the check could not be completed",
+                               type="internal-error")
+            el.text = how_to_report([e])
+        n = len(result.internal_errors)
+        for k, v in (("tests", n), ("failures", 0), ("errors", n), ("skipped", 0)):
+            suite.set(k, str(v))
+        totals["tests"] += n
+        totals["errors"] += n
+    headline = _layout_loss_properties(result)
     for sname, cases in suites.items():
         suite = ET.SubElement(root, "testsuite", name=sname)
+        if sname in headline:
+            props = ET.SubElement(suite, "properties")
+            for k, v in headline[sname]:
+                ET.SubElement(props, "property", name=k, value=v)
         n_fail = n_skip = 0
         for name, rule, fs, skip in cases:
             case = ET.SubElement(suite, "testcase", name=name, classname=sname)
@@ -98,10 +121,28 @@ def render_junit(result: CheckResult) -> str:
         totals["skipped"] += n_skip
     root.set("tests", str(totals["tests"]))
     root.set("failures", str(totals["failures"]))
-    root.set("errors", "0")
+    root.set("errors", str(totals["errors"]))
     root.set("skipped", str(totals["skipped"]))
     ET.indent(root)
     return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"
+
+
+def _layout_loss_properties(result: CheckResult) -> dict[str, list[tuple[str, str]]]:
+    """Per stage suite: the efficiency points the layout costs and its parts, as properties."""
+    out: dict[str, list[tuple[str, str]]] = {}
+    a = result.analysis
+    for stage in a.stages:
+        m = a.measurement(stage.name, "layout_loss")
+        if m is None:
+            continue
+        name = f"{result.board_name}.{stage.name}"
+        if m.value is None:
+            out[name] = [("layout_loss_not_made", m.not_made or "")]
+            continue
+        out[name] = [("layout_loss_pct", f"{m.value:.4g}")] + [
+            (k, f"{float(m.detail[k]):.4g}") for k in ("conduction_w", "switching_w",
+                                                        "output_power_w") if k in m.detail]
+    return out
 
 
 def _detail(f: Finding) -> str:

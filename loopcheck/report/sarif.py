@@ -97,6 +97,21 @@ def _artifact(file: str | None, result: CheckResult, root: Path | None,
     return art
 
 
+def _layout_loss(result: CheckResult) -> list[dict[str, Any]]:
+    """Per stage: the efficiency points the layout costs, its parts, or why it was not made."""
+    out = []
+    for stage in result.analysis.stages:
+        m = result.analysis.measurement(stage.name, "layout_loss")
+        if m is None:
+            continue
+        entry: dict[str, Any] = {"stage": stage.name, "pct": m.value, "not_made": m.not_made}
+        for k in ("conduction_w", "switching_w", "output_power_w"):
+            if k in m.detail:
+                entry[k] = float(m.detail[k])
+        out.append(entry)
+    return out
+
+
 def render_sarif(result: CheckResult) -> str:
     return json.dumps(sarif_dict(result), indent=2, ensure_ascii=False) + "\n"
 
@@ -177,15 +192,31 @@ def sarif_dict(result: CheckResult) -> dict[str, Any]:
         "results": results,
         "columnKind": "unicodeCodePoints",
         "properties": {"board": board.name, "deck": result.deck.name,
-                       "fail_on": result.fail_on, "failed": result.failed},
+                       "layout_loss": _layout_loss(result),
+                       "fail_on": result.fail_on, "failed": result.failed,
+                       "could_not_complete": bool(result.internal_errors)},
     }
-    # The run itself succeeded; what it did not cover (no netlist, no stage, measurements not
-    # made) is a warning notification each, so a SARIF viewer shows the check as incomplete.
+    # What the check did not cover (no netlist, no stage, measurements not made) is a warning
+    # notification each, so a SARIF viewer shows the check as incomplete. An internal error (a
+    # bug in loopcheck) is an error notification, and the execution did not succeed.
+    from ..crashreport import how_to_report
+
+    notes: list[dict[str, Any]] = []
+    for e in result.internal_errors:
+        notes.append({
+            "level": "error",
+            "message": {"text": f"internal error in the {e.where()}: {e.error}. The check could "
+                                "not be completed. " + how_to_report([e]).splitlines()[-1].strip()},
+            "descriptor": {"id": "internal-error"},
+            "properties": {"internal_error": e.to_dict()},
+        })
+    notes += [{"level": "warning", "message": {"text": gap}} for gap in dict.fromkeys(result.gaps)]
     run["invocations"] = [{
-        "executionSuccessful": True,
-        "toolExecutionNotifications": [{"level": "warning", "message": {"text": gap}}
-                                       for gap in dict.fromkeys(result.gaps)],
-        "properties": {"complete": not result.gaps},
+        "executionSuccessful": not result.internal_errors,
+        "exitCode": result.exit_code(),
+        "toolExecutionNotifications": notes,
+        "properties": {"complete": result.complete,
+                       "internal_errors": len(result.internal_errors)},
     }]
     if root is not None:
         run["originalUriBaseIds"] = {BASE_ID: {"uri": root.resolve().as_uri() + "/"}}

@@ -1,11 +1,18 @@
-"""The terminal report: per stage the measured numbers against their limits, the findings by
-severity, the assumptions, a caution line. Formatting only."""
+"""The terminal report: per stage the headline cost in efficiency and the measured numbers
+against their limits, what was not measured grouped by module and reason, the findings by
+severity, the assumptions, a caution line; internal errors first and last. Every line fits
+``WIDTH`` columns (long ones wrap). Formatting only."""
 
 from __future__ import annotations
 
+import textwrap
+
 from ..findings import SEVERITIES
-from .common import (CAUTION_LINE, CheckResult, checks_by_measurement, limits_text,
-                     report_assumptions, path_label, sorted_findings, value_text)
+from .common import (CAUTION_LINE, CheckResult, checks_by_measurement, layout_loss_headline,
+                     limits_text, not_made_groups, report_assumptions, path_label,
+                     sorted_findings, value_text)
+
+WIDTH = 100            # a terminal of 100 columns shows every line whole
 
 _STATUS_WORD = {"pass": "ok", "note": "NOTE", "warning": "WARNING", "error": "ERROR",
                 "not made": "not measured", "off": "off", "": ""}
@@ -28,7 +35,14 @@ def render_text(result: CheckResult) -> str:
     for msg in a.messages:
         lines.append(f"  {msg}")
     lines.append("")
+    if result.internal_errors:
+        from ..crashreport import how_to_report
 
+        lines.append("INTERNAL ERROR: the check could not be completed")
+        lines.extend("  " + x.strip() for x in how_to_report(result.internal_errors).splitlines()[1:])
+        lines.append("")
+
+    groups = not_made_groups(a)
     by_m = checks_by_measurement(result.evaluation)
     for stage in a.stages:
         sw = f", {stage.switching} switching" if stage.switching else ""
@@ -41,22 +55,30 @@ def render_text(result: CheckResult) -> str:
             lines.append(f"  hot loop: {' -> '.join(stage.hot_loop)}")
         for miss in stage.missing:
             lines.append(f"  missing: {miss}")
+        lines.append("  " + layout_loss_headline(a.measurement(stage.name, "layout_loss")))
         rows = [("measurement", "value", "limits", "status")]
         for m in a.measurements_for(stage.name):
+            if m.value is None:
+                continue                       # listed below, by module and reason
             checks = by_m.get(id(m), [])
             check = checks[0] if checks else None
             status = _STATUS_WORD.get(check.status, check.status) if check else ""
-            label = path_label(m)
-            value = value_text(m.value, m.unit)
-            if m.value is None and m.not_made:
-                value = f"not measured ({m.not_made})"
-            rows.append((label, value, limits_text(check, m.unit), status))
+            rows.append((path_label(m), value_text(m.value, m.unit), limits_text(check, m.unit),
+                         status))
         # rules the stage could not be checked on (no measurement at all)
         for c in result.evaluation.checks:
             if c.stage == stage.name and c.measurement is None:
                 rows.append((f"{c.rule}", "not measured", limits_text(c, None),
                              _STATUS_WORD.get(c.status, c.status)))
-        lines.extend(_table(rows, indent="  "))
+        if len(rows) > 1:
+            lines.extend(_table(rows, indent="  "))
+        mine = [g for g in groups if g.stage == stage.name]
+        if mine:
+            n = sum(len(g.labels) for g in mine)
+            lines.append(f"  not measured ({n}):")
+            for g in mine:
+                tag = "INTERNAL ERROR: " if g.internal else ""
+                lines.append(f"    {g.module} ({len(g.labels)}): {tag}{g.reason}")
         lines.append("")
 
     counts = result.counts()
@@ -64,7 +86,31 @@ def render_text(result: CheckResult) -> str:
     if counts["waived"]:
         summary += f"; {counts['waived']} waived"
     lines.append(f"Findings: {summary}")
+    # rules not checked because their measurement was not made: one line per reason (the
+    # measurements themselves are listed under each stage)
+    unchecked = {id(c.finding): c for c in result.evaluation.checks
+                 if c.finding is not None and c.status == "not made"}
+    grouped: dict[tuple[str, str | None, str], list[str]] = {}
+    for f in result.findings:
+        c = unchecked.get(id(f))
+        if c is not None and not f.waived:
+            grouped.setdefault((f.severity, f.stage, c.reason or ""), [])
+            if f.rule not in grouped[(f.severity, f.stage, c.reason or "")]:
+                grouped[(f.severity, f.stage, c.reason or "")].append(f.rule)
+    shown_groups: set[tuple[str, str | None, str]] = set()
     for i, f in sorted_findings(result.findings):
+        c = unchecked.get(id(f))
+        if c is not None and not f.waived:
+            key = (f.severity, f.stage, c.reason or "")
+            if key in shown_groups:
+                continue
+            shown_groups.add(key)
+            rules = grouped[key]
+            if len(rules) > 1:
+                where = f"{f.stage}: " if f.stage else ""
+                lines.append(f"  {f.severity:<8} {len(rules)} rules not checked, {where}"
+                             f"{c.reason}: {', '.join(rules)}")
+                continue
         where = []
         if f.x_mm is not None and f.y_mm is not None:
             where.append(f"at ({f.x_mm:.1f}, {f.y_mm:.1f}) mm")
@@ -95,24 +141,52 @@ def render_text(result: CheckResult) -> str:
         lines.append("")
 
     failing = result.failing
-    if result.fail_on == "never":
+    if result.internal_errors:
+        n = len(result.internal_errors)
+        verdict = (f"Result: COULD NOT BE COMPLETED: {n} internal error{'s' if n != 1 else ''} "
+                   "(exit 3; see above what to send to get it fixed)")
+    elif result.fail_on == "never":
         verdict = "Result: not gated (--fail-on never)"
     elif failing:
         verdict = (f"Result: FAIL, {len(failing)} unwaived finding"
                    f"{'s' if len(failing) != 1 else ''} at or above {result.fail_on}")
     else:
         verdict = f"Result: pass (no unwaived finding at or above {result.fail_on})"
-    if result.gaps:
-        verdict += "; INCOMPLETE: " + "; ".join(result.gaps)
     lines.append(verdict)
+    if result.gaps:
+        lines.append(f"INCOMPLETE: {len(result.gaps)} gap{'s' if len(result.gaps) != 1 else ''} "
+                     "in what was checked:")
+        lines.extend(f"  - {g}" for g in result.gaps)
     lines.append(CAUTION_LINE)
-    return "\n".join(lines) + "\n"
+    return "\n".join(wrap_lines(lines)) + "\n"
 
 
-def _table(rows: list[tuple[str, ...]], indent: str = "") -> list[str]:
+def wrap_lines(lines: list[str], width: int = WIDTH) -> list[str]:
+    """Every line at most ``width`` columns; a long one continues under its own indent + 4."""
+    out = []
+    for line in lines:
+        if len(line) <= width:
+            out.append(line)
+            continue
+        lead = line[:len(line) - len(line.lstrip())]
+        if line.lstrip().startswith("- "):
+            lead2 = lead + "    "
+        else:
+            lead2 = lead + "    "
+        out.extend(textwrap.wrap(line.strip(), width=width, initial_indent=lead,
+                                 subsequent_indent=lead2, break_on_hyphens=False) or [""])
+    return out
+
+
+def _table(rows: list[tuple[str, ...]], indent: str = "", width: int = WIDTH) -> list[str]:
+    """Columns padded to their widest cell; the first column wraps so the table fits ``width``."""
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    room = width - len(indent) - sum(widths[1:]) - 2 * (len(widths) - 1)
+    widths[0] = max(min(widths[0], room), 20)
     out = []
     for r in rows:
-        cells = [c.ljust(w) for c, w in zip(r, widths)]
+        first = textwrap.wrap(r[0], widths[0], break_on_hyphens=False) or [""]
+        cells = [first[0].ljust(widths[0])] + [c.ljust(w) for c, w in zip(r[1:], widths[1:])]
         out.append((indent + "  ".join(cells)).rstrip())
+        out.extend((indent + "  " + more).rstrip() for more in first[1:])
     return out

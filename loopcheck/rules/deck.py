@@ -16,6 +16,7 @@ import tomllib
 from dataclasses import dataclass, field, replace
 from fnmatch import fnmatchcase
 from importlib import resources
+from importlib.resources.abc import Traversable
 from pathlib import Path
 from typing import Any
 
@@ -97,10 +98,19 @@ class Deck:
         return [r for r in self.rules.values() if r.kind == "measurement"]
 
 
+def deck_folder() -> Traversable:
+    """Where the shipped decks are: the project's top-level ``rules/`` folder in a source
+    checkout (users read and copy them there), else the installed data package
+    ``loopcheck.decks`` that setup.py maps to that same folder (one copy in the repository)."""
+    checkout = Path(__file__).resolve().parents[2]
+    if (checkout / "pyproject.toml").is_file() and (checkout / "rules" / "default.toml").is_file():
+        return checkout / "rules"
+    return resources.files("loopcheck.decks")
+
+
 def packaged_decks() -> list[str]:
     """Names of the decks shipped with loopcheck."""
-    folder = resources.files("loopcheck.rules")
-    return sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".toml"))
+    return sorted(p.name[:-5] for p in deck_folder().iterdir() if p.name.endswith(".toml"))
 
 
 def load_deck(name_or_path: str | Path | None = None, project: Any = None) -> Deck:
@@ -130,9 +140,9 @@ def _resolve(spec: str, base_dir: Path | None) -> tuple[str, str]:
     """(display path, text) of a deck given by name or path."""
     looks_like_path = spec.endswith(".toml") or "/" in spec or "\\" in spec
     if not looks_like_path:
-        res = resources.files("loopcheck.rules").joinpath(f"{spec}.toml")
+        res = deck_folder().joinpath(f"{spec}.toml")
         if res.is_file():
-            return f"loopcheck/rules/{spec}.toml", res.read_text(encoding="utf-8")
+            return f"rules/{spec}.toml", res.read_text(encoding="utf-8")
         known = ", ".join(packaged_decks())
         raise InputError(f"no rule deck named '{spec}' (packaged decks: {known}; or give a path "
                          "to a .toml file)")

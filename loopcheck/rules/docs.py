@@ -1,7 +1,7 @@
 """The one place each rule is explained: what it measures, why it matters, how to fix it.
 
 ``loopcheck explain RULE`` prints these; SARIF carries them as rule metadata; the HTML report
-links to them. Thresholds are not here: they live in the decks (``loopcheck/rules/*.toml``).
+links to them. Thresholds are not here: they live in the decks (the top-level ``rules/*.toml``).
 """
 
 from __future__ import annotations
@@ -244,6 +244,32 @@ _DOCS = (
                 "the input path carries I_out sqrt(D (1 + r^2/12)).",
         limits="DC resistance only (skin effect is small for 1-2 oz copper below a few MHz); "
                "the operating point comes from the project file or the defaults.",
+        group="high-current paths",
+    ),
+    RuleDoc(
+        name="layout-loss",
+        title="Efficiency points the layout costs",
+        measures="The power the layout itself loses, as a share of the output power in "
+                 "percentage points of efficiency: the copper conduction loss of every "
+                 "high-current path plus the energy left in the hot loop's inductance at each "
+                 "switching edge. Reported with its parts (conduction W, switching W, output W).",
+        why="The same circuit laid out badly loses several points of efficiency: heat in long, "
+            "narrow copper, and at every turn-off the loop inductance's energy rings out in the "
+            "switch. None of it is in the controller's efficiency curve.",
+        fix="See which part dominates. Conduction: shorten and widen the paths that carry the "
+            "most current (the path losses are reported one by one). Switching: shrink the hot "
+            "loop (input capacitor right at the switch, return on the next layer under the "
+            "outgoing copper, fewer vias) so its inductance falls.",
+        formula="points = 100 (sum over paths of I_rms^2 R(T) + 1/2 L_loop I_off^2 f_sw) / "
+                "(V_out I_out); I_off is the switch's peak current: I_out (1 + r/2) in a buck, "
+                "the input current peak I_out / (1 - D) (1 + r/2) in a boost. 1/2 L I^2 is the "
+                "energy of an inductor (Halliday, Resnick and Walker, Fundamentals of Physics, "
+                "ch. 30).",
+        limits="An estimate of the layout's part only: the switch's own overlap and gate losses "
+               "belong to the component. All the loop's energy is taken as lost at each "
+               "turn-off (an upper bound where a snubber or a soft turn-off returns part); DC "
+               "copper resistance (no skin effect); paths that could not be measured are left "
+               "out (the value is then a lower bound and says so). Needs the output voltage.",
         group="high-current paths",
     ),
     RuleDoc(
