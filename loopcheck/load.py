@@ -33,17 +33,22 @@ from .stackup import build_stackup, layer_names
 EXTENT_MARGIN_MM = 2.0
 
 
-def load_board(project: Project, limits: InputLimits = DEFAULT_LIMITS) -> Board:
+def load_board(project: Project, limits: InputLimits = DEFAULT_LIMITS, board: str | None = None) -> Board:
     """Read the board a Project names. Raises InputError on bad or ambiguous input.
 
     Parameters
     ----------
     project : from :func:`loopcheck.project.load_project`
     limits : limits for untrusted input files
+    board : which board, when the fab outputs hold several (``readers.discover.list_boards``);
+        None with several boards raises :class:`loopcheck.readers.discover.SeveralBoards`
     """
     project_file = str(project.path) if project.path else None
-    with discover(project.fab, project.files, limits, project_file=project_file) as fab:
-        return _load(project, fab, limits)
+    with discover(project.fab, project.files, limits, project_file=project_file, board=board) as fab:
+        b = _load(project, fab, limits)
+        if fab.board is not None:
+            b.name = f"{project.name}/{fab.board}"
+        return b
 
 
 # Copper layers are read in parallel processes (one per core) when there is enough to read: the
@@ -128,6 +133,13 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
             raise _reraise(fab, exc) from None
         inputs[fab.relname(fab.netlist)] = f"netlist: {fab.how.get(fab.netlist, '')}"
         _check_netlist_layers(fab, netlist, n)
+        if fab.inner_order_guessed:
+            raw_layers, note = _order_inner_by_access_codes(fab, raw_layers, netlist)
+            if note:
+                assumptions.append(note)
+                fab.notes[:] = [x for x in fab.notes if not x.startswith("inner copper layers named by function")]
+                inputs.update({fab.relname(path): f"copper layer {index + 1} ({names[index]}): {note.split(':')[0]}"
+                               for path, index, _ in raw_layers if path in fab.inner_order_guessed})
 
     # drills
     holes: list[Hole] = []
@@ -135,7 +147,14 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
     for path, plated in fab.drills:
         from .readers.drill import read_excellon
         try:
-            df = read_excellon(path, limits)
+            df = read_excellon(path, limits, number_format=fab.drill_formats.get(path))
+            if df.format_candidates:
+                df, note = _choose_drill_format(project, fab, path, plated, df, raw_layers, limits)
+                assumptions.append(note)
+            elif df.number_format is not None and "parameter file" in df.number_format.source \
+                    or df.number_format is not None and "drill log" in df.number_format.source:
+                assumptions.append(f"{fab.relname(path)}: number format from {df.number_format.source}: "
+                                   f"{df.number_format.describe()}")
         except InputError as exc:
             raise _reraise(fab, exc) from None
         name = fab.relname(path)
@@ -260,6 +279,96 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         from .netnames import restore_cut_names
         restore_cut_names(board, netlist.maybe_cut_names)
     return board
+
+
+def _order_inner_by_access_codes(fab: FabSet, raw_layers: list, netlist) -> tuple[list, str | None]:
+    """Inner layers whose order the names did not give, put in the order the netlist's access
+    codes say: a pad with access code k (not a through hole) lies on copper layer k, so each
+    file goes to the layer number whose pads land on its copper most often. Returns the layers
+    (re-indexed) and the assumption, or the layers unchanged and None when the netlist has no
+    pads on those layers (the order from the names then stands, as discovery stated it)."""
+    import itertools
+
+    guessed = [(path, index, gl) for path, index, gl in raw_layers if path in fab.inner_order_guessed]
+    slots = sorted(index for _, index, _ in guessed)
+    pts = [p for p in netlist.points if not (p.hole_mm and p.hole_mm > 0) and p.access - 1 in slots]
+    if not pts or len(guessed) > 7:
+        return raw_layers, None
+    score = np.zeros((len(guessed), len(slots)), dtype=int)
+    for i, (_, _, gl) in enumerate(guessed):
+        if gl.geometry.is_empty:
+            continue
+        shapely.prepare(gl.geometry)
+        for j, slot in enumerate(slots):
+            on = [p for p in pts if p.access - 1 == slot]
+            if on:
+                score[i, j] = int(shapely.contains_xy(gl.geometry, np.array([p.x_mm for p in on]),
+                                                      np.array([p.y_mm for p in on])).sum())
+    current = tuple(slots.index(index) for _, index, _ in guessed)
+    best = max(itertools.permutations(range(len(slots))),
+               key=lambda perm: (sum(score[i, j] for i, j in enumerate(perm)), perm == current))
+    if sum(score[i, j] for i, j in enumerate(best)) == 0:
+        return raw_layers, None
+    new_index = {path: slots[j] for (path, _, _), j in zip(guessed, best)}
+    out = [(path, new_index.get(path, index), gl) for path, index, gl in raw_layers]
+    out.sort(key=lambda r: r[1])
+    fab.copper = [(path, index) for path, index, _ in out]
+    placed = ", ".join(f"{fab.relname(path)} = L{new_index[path] + 1} ({score[i, best[i]]} pads)"
+                       for i, (path, _, _) in enumerate(guessed))
+    return out, (f"inner layer order from the netlist's access codes (pads on layer k land on that "
+                 f"file's copper): {placed}")
+
+
+# a guessed drill format is taken when at least this share of its plated holes land on copper
+DRILL_GUESS_MIN_LANDED = 0.5
+
+
+def _choose_drill_format(project: Project, fab: FabSet, path, plated: bool | None, first, raw_layers,
+                         limits: InputLimits):
+    """The drill file read with each plausible number format; the one whose plated holes land on
+    the copper of the outer layers (where a plated hole has its pad) most often. Returns the
+    DrillFile and the assumption that says so; refuses when none lands on copper."""
+    from .readers.drill import read_excellon
+
+    name = fab.relname(path)
+    geoms = [gl.geometry for _, _, gl in raw_layers if not gl.geometry.is_empty]
+    outer = [geoms[0], geoms[-1]] if len(geoms) > 1 else geoms
+    for g in outer:
+        shapely.prepare(g)
+    scored = []
+    for cand in first.format_candidates:
+        df = first if cand == first.number_format else read_excellon(path, limits, number_format=cand)
+        holes = [h for h in df.holes if h.end is None and (h.plated if plated is None else plated)]
+        if not holes or not outer:
+            scored.append((0, 0, cand, df))
+            continue
+        xs = np.array([h.x_mm for h in holes])
+        ys = np.array([h.y_mm for h in holes])
+        on = np.zeros(len(holes), dtype=bool)
+        for g in outer:
+            on |= shapely.contains_xy(g, xs, ys)
+        scored.append((int(on.sum()), len(holes), cand, df))
+    fix = (f"set it under [files] in {project.path or 'a loopcheck.toml beside the fab outputs'}, e.g. "
+           f"\"{name}\" = \"drill {{words}}\"")
+    if all(n == 0 for _, n, _, _ in scored):
+        cand = scored[0][2]
+        return scored[0][3], (f"{name}: number format not given in the file or beside it, and no plated "
+                              f"holes to check a guess against the copper; read as {cand.describe()} (the "
+                              f"most common habit); if wrong, " + fix.format(words=cand.words()))
+    best = max(scored, key=lambda s: (s[0] / max(s[1], 1)))   # first of equals: the likelier habit
+    landed, total, cand, df = best
+    if landed < DRILL_GUESS_MIN_LANDED * total:
+        raise InputError(f"no number format in the drill file or beside it, and none of the "
+                         f"{len(scored)} plausible formats puts its plated holes on the copper (best: "
+                         f"{cand.describe()}, {landed} of {total}); "
+                         + fix.format(words="inch 2.4 omit-leading") + " with the right units and digits",
+                         path=fab.error_name(path))
+    others = sorted((s for s in scored if s is not best and s[0] / max(s[1], 1) < landed / total),
+                    key=lambda s: -s[0] / max(s[1], 1))
+    nxt = f"; next best {others[0][2].describe()}: {others[0][0]} of {others[0][1]}" if others else ""
+    return df, (f"{name}: number format not given in the file or beside it; read as {cand.describe()}: "
+                f"{landed} of {total} plated holes land on the outer copper{nxt}; if wrong, "
+                + fix.format(words=cand.words()))
 
 
 def clip_to_outline(geom: BaseGeometry, outline: BaseGeometry) -> BaseGeometry:

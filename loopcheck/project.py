@@ -71,7 +71,9 @@ Where the project file is found (BOARD is what the user names on the command lin
 
 Values: numbers may be integers or floats; ``[components]`` values may be strings or numbers
 (kept as written, as a string). ``[files]`` roles: ``copper:N``, ``outline``, ``drill``,
-``drill:plated``, ``drill:nonplated``, ``netlist``, ``bom``, ``ignore``.
+``drill:plated``, ``drill:nonplated``, ``netlist``, ``bom``, ``ignore``. A drill role may end in
+the drill file's number format where the file does not give it: ``"drill inch 2.4 omit-leading"``
+(units mm / inch, digits before.after the point, omit-leading / omit-trailing zeros).
 """
 from __future__ import annotations
 
@@ -386,6 +388,12 @@ def _validate(path: Path, text: str, data: dict) -> Project:
         if m:
             if int(m.group(1)) < 1:
                 raise c.fail(keys, "copper layers are numbered from 1 (top)")
+        elif role.split(" ", 1)[0] in ("drill", "drill:plated", "drill:nonplated") and " " in role:
+            from .readers.drill_format import parse_format_words   # a drill's number format words
+            try:
+                parse_format_words(role.split(" ", 1)[1])
+            except ValueError as exc:
+                raise c.fail(keys, str(exc)) from None
         elif role not in FILE_ROLES:
             raise c.fail(keys, f"unknown role {role!r} (expected copper:N, {', '.join(FILE_ROLES)})")
         files[fname] = role

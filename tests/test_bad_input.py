@@ -324,3 +324,51 @@ def test_lone_unknown_statements_are_skipped_with_a_note(board):
     layer = read_gerber(top)
     assert layer.geometry.area == pytest.approx(before)
     assert sum("Unknown statement" in w for w in layer.warnings) == 3
+
+
+# --- refusals added with several boards per folder and drill files without their format -------
+
+def command_fails(args: list[str], watch: Path, *expected: str) -> str:
+    """Like inspect_fails, for any command line."""
+    before = listing(watch)
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    res = subprocess.run([sys.executable, "-c", "from loopcheck.cli import main; main()", *args],
+                         capture_output=True, text=True, env=env, cwd=str(watch), timeout=300)
+    assert res.returncode == 2, (res.returncode, res.stdout, res.stderr)
+    assert "Traceback" not in res.stderr
+    lines = res.stderr.strip("\n").split("\n")
+    assert len(lines) == 1 and lines[0].startswith("loopcheck: "), res.stderr
+    for text in expected:
+        assert text in lines[0], lines[0]
+    assert res.stdout == ""
+    assert listing(watch) == before
+    return lines[0]
+
+
+def test_drill_without_format_that_lands_nowhere(board):
+    folder, paths = board
+    paths["drill"].write_text("M48\nT1C0.0300\n%\nT1\nX-987654Y-876543\nX-876543Y-987654\nM30\n")
+    inspect_fails(folder, folder, paths["drill"].name, "[files]", "drill inch 2.4 omit-leading")
+
+
+def test_drill_format_words_unknown(board):
+    folder, paths = board
+    (folder / "loopcheck.toml").write_text(f'[files]\n"{paths["drill"].name}" = "drill inch 2.4 sideways"\n')
+    inspect_fails(folder, folder, "loopcheck.toml:2:", "sideways")
+
+
+def two_boards(tmp_path: Path) -> Path:
+    write_buck(tmp_path / "two" / "first")
+    write_buck(tmp_path / "two" / "second")
+    return tmp_path / "two"
+
+
+def test_several_boards_machine_report_on_stdout(tmp_path):
+    two = two_boards(tmp_path)
+    command_fails(["inspect", str(two), "--format", "json"], tmp_path, "2 boards", "--board", "--output")
+    command_fails(["check", str(two), "--format", "sarif"], tmp_path, "2 boards", "--board", "--output")
+
+
+def test_board_not_among_them(tmp_path):
+    two = two_boards(tmp_path)
+    command_fails(["inspect", str(two), "--board", "third"], tmp_path, "--board third", "first, second")

@@ -10,7 +10,7 @@ import pytest
 
 from loopcheck.errors import InputError
 from loopcheck.limits import InputLimits
-from loopcheck.readers.discover import discover, sniff
+from loopcheck.readers.discover import SeveralBoards, discover, list_boards, sniff
 from corpus_maps import CORPUS_MAPPINGS
 
 CORPUS = Path(__file__).parents[1].parent / "shared" / "corpus"
@@ -88,11 +88,9 @@ def test_mapping_overrides_all(tmp_path):
         "one_Top.gbr": gerber(), "one_Bottom.gbr": gerber(), "two_Bottom.gbr": gerber(),
         "odd.art": gerber("Copper,L1,Top"),
     })
-    with pytest.raises(InputError) as info:
+    with pytest.raises(SeveralBoards) as info:     # told apart by their stems
         discover(d)
-    msg = str(info.value)
-    assert "more than one file claims the same copper layer" in msg
-    assert "one_Bottom.gbr" in msg and "two_Bottom.gbr" in msg and "[files]" in msg
+    assert info.value.boards == ["odd", "one", "two"] and "--board" in str(info.value)
     mapping = {"one_Top.gbr": "copper:1", "one_Bottom.gbr": "copper:2", "two_Bottom.gbr": "ignore"}
     with discover(d, mapping) as fab:
         assert names(fab, fab.copper) == [("one_Top.gbr", 0), ("one_Bottom.gbr", 1)]
@@ -208,14 +206,21 @@ def corpus_boards() -> list[Path]:
 
 
 @pytest.mark.corpus
-def test_corpus_ambiguous_folders_give_the_clear_error_and_read_with_a_mapping():
+def test_corpus_folders_of_several_boards_list_them_and_read_with_a_mapping():
     if not CORPUS.is_dir():
         pytest.skip("../shared/corpus is absent")
+    expected = {"geda": ["controller", "driver"], "diptrace": ["keyboard", "mainboard", "panel"]}
     for name, mapping in CORPUS_MAPPINGS.items():
-        with pytest.raises(InputError, match="more than one file claims the same copper layer"):
+        with pytest.raises(SeveralBoards) as info:
             discover(CORPUS / name)
+        assert info.value.boards == expected[name]
+        assert list_boards(CORPUS / name) == expected[name]
         with discover(CORPUS / name, mapping) as fab:
             assert fab.layer_count == 2
+    with discover(CORPUS / "geda", board="driver") as fab:
+        # never a layer of the other board
+        assert all(fab.relname(p).startswith("driver.") for p, _ in fab.copper + fab.drills)
+        assert fab.layer_count == 2 and fab.board == "driver"
 
 
 @pytest.mark.corpus
@@ -238,11 +243,17 @@ def test_corpus_stacks():
 
 
 @pytest.mark.corpus
-def test_corpus_folder_of_four_board_variants_is_ambiguous():
+def test_corpus_folder_of_four_board_variants_lists_them():
     if not CORPUS.is_dir():
         pytest.skip("../shared/corpus is absent")
-    with pytest.raises(InputError, match="more than one file claims the same copper layer"):
-        discover(CORPUS / "kicad-x2-tests")
+    names = ["nox2ap", "nox2noap", "x2ap", "x2noap"]
+    assert list_boards(CORPUS / "kicad-x2-tests") == names
+    for name in names:
+        with discover(CORPUS / "kicad-x2-tests", board=name) as fab:
+            assert fab.layer_count == 2 and len(fab.drills) == 2
+            assert all(fab.relname(p).startswith(name + "/") for p, _ in fab.copper + fab.drills)
+    for single in ("eagle-newer", "altium-composite-drill", "kicad-older", "zero-length-lines"):
+        assert list_boards(CORPUS / single) == []
 
 
 def test_folder_with_too_many_files_is_refused(tmp_path):

@@ -137,10 +137,10 @@ def _load_project(board: str):
     return load_project(board)
 
 
-def _load_board(project):
+def _load_board(project, board_name: str | None = None):
     from ..load import load_board
 
-    return load_board(project)
+    return load_board(project, board=board_name)
 
 
 def _analyse(board, project, **kw):
@@ -155,11 +155,12 @@ INDUCTANCE_METHODS = ("field", "fast")
 
 def run_check(board: str, deck: str | None, fail_on: str, progress: Progress,
               time_budget_s: float | None = DEFAULT_TIME_BUDGET_S,
-              inductance_method: str | None = None, fail_on_incomplete: bool = False):
+              inductance_method: str | None = None, fail_on_incomplete: bool = False,
+              board_name: str | None = None):
     """The pipeline: project, board, analysis, evaluation. Returns a CheckResult.
 
     The time budget runs from here: measurements not started when it is used up are not made,
-    for that reason (a stated gap)."""
+    for that reason (a stated gap). ``board_name``: which board, when the fab outputs hold several."""
     from ..report.common import CheckResult
     from ..rules import evaluate_all, load_deck
 
@@ -168,7 +169,7 @@ def run_check(board: str, deck: str | None, fail_on: str, progress: Progress,
         project = _load_project(board)
     rule_deck = load_deck(deck, project)          # early: a bad deck fails before the slow part
     with progress.step("reading the fab outputs"):
-        b = _load_board(project)
+        b = _load_board(project, board_name) if board_name is not None else _load_board(project)
     with progress.step("measuring the power stages"):
         analysis = _analyse(b, project, deadline=deadline, time_budget_s=time_budget_s,
                             inductance_method=inductance_method, progress=progress.tell)
@@ -220,10 +221,15 @@ def emit(result, pairs: list[tuple[str, str | None]], progress: Progress | None 
 @click.option("--inductance", "inductance", type=click.Choice(INDUCTANCE_METHODS), default=None,
               help="Loop-inductance method: 'field' (a field solve of the copper) or 'fast' (the "
                    "route-based estimate). Default: the measurement's own default.")
+@click.option("--board", "board_name", default=None, metavar="NAME",
+              help="The board to check when the fab outputs hold several (told apart by subfolder "
+                   "or file-name stem); default: each in turn, reported separately, the exit code "
+                   "the worst of them. Several boards' machine-read reports need --output FILE "
+                   "(one file per board, the board's name put before the suffix).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress messages on stderr.")
 def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tuple[str, ...],
             fail_on: str, fail_on_incomplete: bool, time_budget: float, inductance: str | None,
-            quiet: bool) -> None:
+            board_name: str | None, quiet: bool) -> None:
     """Check the power stages of BOARD (a fab-output folder, .zip or loopcheck.toml).
 
     Exit code 0: no unwaived finding at or above --fail-on (and, with --fail-on-incomplete,
@@ -231,16 +237,28 @@ def command(board: str, deck: str | None, formats: tuple[str, ...], outputs: tup
     completed (an internal error in loopcheck, whatever --fail-on says: the message names what
     to send to get it fixed).
     """
-    pairs = pair_outputs(formats, outputs)
-    for _, out in pairs:
-        if out is not None:
-            check_writable(out)
-    progress = Progress(enabled=progress_wanted(quiet, pairs))
-    result = run_check(board, deck, fail_on, progress, time_budget_s=time_budget,
-                       inductance_method=inductance, fail_on_incomplete=fail_on_incomplete)
-    emit(result, pairs, progress)
-    if result.internal_errors:
-        from ..crashreport import how_to_report
+    from . import boards
 
-        click.echo(how_to_report(result.internal_errors), err=True)
-    sys.exit(result.exit_code())
+    names = boards.boards_to_run(_load_project(board), board_name)
+    per_board = boards.per_board_outputs(pair_outputs(formats, outputs), names)
+    for pairs in per_board:
+        for _, out in pairs:
+            if out is not None:
+                check_writable(out)
+
+    def one(name: str | None) -> int:              # the work of one board, as before boards
+        pairs = per_board[names.index(name)]
+        progress = Progress(enabled=progress_wanted(quiet, pairs))
+        kw = {"board_name": name} if name is not None else {}
+        result = run_check(board, deck, fail_on, progress, time_budget_s=time_budget,
+                           inductance_method=inductance, fail_on_incomplete=fail_on_incomplete, **kw)
+        if any(out is None for _, out in pairs):
+            boards.heading(name, names)
+        emit(result, pairs, progress)
+        if result.internal_errors:
+            from ..crashreport import how_to_report
+
+            click.echo(how_to_report(result.internal_errors), err=True)
+        return result.exit_code()
+
+    sys.exit(boards.run_each(names, one))

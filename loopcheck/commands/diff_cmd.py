@@ -30,9 +30,11 @@ def renderer(fmt: str):
 @click.option("--fail-on", type=click.Choice(check_cmd.FAIL_ON), default="never",
               show_default=True,
               help="Exit 1 when NEW has a new unwaived finding at or above this severity.")
+@click.option("--board", "board_name", default=None, metavar="NAME",
+              help="The board to compare when the fab outputs hold several (the same name in both).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress messages on stderr.")
 def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
-            outputs: tuple[str, ...], fail_on: str, quiet: bool) -> None:
+            outputs: tuple[str, ...], fail_on: str, board_name: str | None, quiet: bool) -> None:
     """Compare two revisions OLD and NEW of one board: each measurement before, after and the
     change; the findings that appear and those that are resolved."""
     from ..compare import compare
@@ -44,8 +46,9 @@ def command(old: str, new: str, deck: str | None, formats: tuple[str, ...],
         if out is not None:
             check_cmd.check_writable(out)
     progress = check_cmd.Progress(enabled=check_cmd.progress_wanted(quiet, pairs))
-    a = check_cmd.run_check(old, deck, "never", progress)
-    b = check_cmd.run_check(new, deck, "never", progress)
+    kw = {"board_name": board_name} if board_name is not None else {}
+    a = check_cmd.run_check(old, deck, "never", progress, **kw)
+    b = check_cmd.run_check(new, deck, "never", progress, **kw)
     cmp = compare(a.analysis.measurements, b.analysis.measurements, a.findings, b.findings)
     result = DiffResult(a, b, cmp)
     check_cmd.emit(result, pairs, progress, render=renderer)

@@ -37,14 +37,17 @@ def _write_whole(path: Path, text: str) -> None:
 @click.option("--write-project", "write_project", type=click.Path(), default=None, metavar="PATH",
               help="Write a starting loopcheck.toml naming the stages found (PATH is the file).")
 @click.option("--force", is_flag=True, help="Overwrite the --write-project file if it exists.")
-def command(board: str, fmt: str, write_project: str | None, force: bool) -> None:
+@click.option("--board", "board_name", default=None, metavar="NAME",
+              help="The board to read when the fab outputs hold several (told apart by subfolder or "
+                   "file-name stem).")
+def command(board: str, fmt: str, write_project: str | None, force: bool, board_name: str | None) -> None:
     """Find the power stages on BOARD (a folder or .zip of fab outputs, or a loopcheck.toml)."""
     if write_project is not None and Path(write_project).is_dir():
         # before the slow part, and one line (click's own check prints a three-line usage error)
         raise InputError("--write-project: is a folder; give the path of the file to write, "
                          "e.g. loopcheck.toml inside it", path=write_project)
     project = load_project(board)
-    b = load_board(project)
+    b = load_board(project, board=board_name)
     search = find_stages(b, project)
     if write_project is not None:
         path = Path(write_project)

@@ -59,6 +59,11 @@ class FabSet:
     bom: Path | None = None
     ignored: list[tuple[Path, str]] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    drill_formats: dict = field(default_factory=dict)   # path -> DrillFormat from the [files] mapping
+    inner_order_guessed: list[Path] = field(default_factory=list)   # inner layers in a guessed order
+    board: str | None = None                 # the board read, when the fab outputs hold several
+    boards: list[str] = field(default_factory=list)   # all boards found (empty: just one)
+    claimed_copper: list[Path] = field(default_factory=list)   # files claiming copper (before resolving)
     how: dict[Path, str] = field(default_factory=dict)      # path -> how its role was decided
     attributes: dict[Path, str] = field(default_factory=dict)  # path -> X2 FileFunction
     _tmp: tempfile.TemporaryDirectory | None = None
@@ -116,8 +121,17 @@ class _File:
 
 # --- entry point ---------------------------------------------------------------------------
 
+class SeveralBoards(InputError):
+    """The fab outputs hold more than one board and none was chosen (``boards`` names them)."""
+
+    def __init__(self, message: str, boards: list[str], path: str | None = None):
+        super().__init__(message, path=path)
+        self.boards = boards
+
+
 def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
-             limits: InputLimits = DEFAULT_LIMITS, project_file: str | None = None) -> FabSet:
+             limits: InputLimits = DEFAULT_LIMITS, project_file: str | None = None,
+             board: str | None = None) -> FabSet:
     """Sort the files of a folder or a .zip of fab outputs into roles (see the module docstring).
 
     Parameters
@@ -126,15 +140,70 @@ def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
     mapping : the project's ``[files]`` table, file name (relative to the fab) -> role
     limits : limits for an untrusted archive
     project_file : the project file's path, named in errors about the mapping
+    board : which board to read when the fab outputs hold several (see :func:`list_boards`)
 
     Raises
     ------
     InputError : a refused or broken zip; no copper layer; two files claiming one copper layer;
         a mapping that names a file not in the fab outputs; a file named like a Gerber, Excellon
-        or IPC-D-356 file whose content is not one (unless mapped as "ignore").
+        or IPC-D-356 file whose content is not one (unless mapped as "ignore");
+        :class:`SeveralBoards` when the fab outputs hold several boards and ``board`` is None;
+        a ``board`` that is not among them.
     """
+    fab = _open(fab_path, limits)
+    try:
+        files = _scan(fab, limits)
+        groups = board_groups(fab, files, dict(mapping or {}), limits, project_file)
+        if len(groups) > 1:
+            names = list(groups)
+            fab.boards = names
+            if board is None:
+                raise SeveralBoards(f"{len(names)} boards in these fab outputs ({', '.join(names)}); pick one "
+                                    f"with --board NAME, or give each board its own folder",
+                                    names, path=str(fab.source))
+            key = _match_board(board, names)
+            if key is None:
+                raise InputError(f"--board {board}: no such board here; the fab outputs hold "
+                                 f"{', '.join(names)}", path=str(fab.source))
+            files = groups[key]
+            fab.board = key
+            fab.notes.append(f"board {key!r}, one of {len(names)} boards in these fab outputs "
+                             f"({', '.join(names)}): only its files are read")
+        elif board is not None and board != next(iter(groups)):
+            raise InputError(f"--board {board}: these fab outputs hold one board; leave --board out",
+                             path=str(fab.source))
+        _classify(fab, files, dict(mapping or {}), limits, project_file)
+    except BaseException:
+        fab.close()
+        raise
+    return fab
+
+
+def list_boards(fab_path: str | Path, mapping: dict[str, str] | None = None,
+                limits: InputLimits = DEFAULT_LIMITS, project_file: str | None = None) -> list[str]:
+    """The boards in a folder or .zip of fab outputs: their names when there are several, else [].
+
+    Boards are told apart by subfolder (each holding its own copper layers) or by the file-name
+    stem (``controller.top.gbr`` / ``driver.top.gbr``) when the files together would put two
+    files on one copper layer; a project file's ``[files]`` that maps copper makes one board.
+    """
+    fab = _open(fab_path, limits)
+    try:
+        groups = board_groups(fab, _scan(fab, limits), dict(mapping or {}), limits, project_file)
+        return list(groups) if len(groups) > 1 else []
+    finally:
+        fab.close()
+
+
+def _match_board(board: str, names: list[str]) -> str | None:
+    if board in names:
+        return board
+    low = [n for n in names if n.lower() == board.lower().strip("/")]
+    return low[0] if len(low) == 1 else None
+
+
+def _open(fab_path: str | Path, limits: InputLimits) -> FabSet:
     fab_path = Path(fab_path)
-    mapping = dict(mapping or {})
     if fab_path.is_dir():
         fab = FabSet(source=fab_path, root=fab_path)
     elif fab_path.is_file() and fab_path.suffix.lower() == ".zip":
@@ -149,12 +218,80 @@ def discover(fab_path: str | Path, mapping: dict[str, str] | None = None,
         raise InputError("no such file or folder", path=str(fab_path))
     else:
         raise InputError("expected a folder or a .zip of fab outputs", path=str(fab_path))
-    try:
-        _classify(fab, mapping, limits, project_file)
-    except BaseException:
-        fab.close()
-        raise
     return fab
+
+
+# --- several boards in one folder ----------------------------------------------------------
+
+# extensions that say nothing about the layer: the layer is then in the rest of the name
+_PLAIN_EXT = {".gbr", ".ger", ".gerber", ".pho", ".art", ".gbx", ".grb", ".txt", ".drl", ".cnc", ".xln",
+              ".exc", ".ipc", ".d356", ".csv", ".nc"}
+_SEP = re.compile(r"[._\-\s]+")
+
+
+def _trial(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: InputLimits,
+           project_file: str | None) -> tuple[list[Path], bool]:
+    """Classify ``files`` on their own: (files claiming copper, True when two claim one layer)."""
+    scratch = FabSet(source=fab.source, root=fab.root)
+    try:
+        _classify(scratch, files, mapping, limits, project_file)
+    except InputError as exc:
+        return scratch.claimed_copper, "more than one file claims the same copper layer" in exc.detail
+    return scratch.claimed_copper, False
+
+
+def _stem(f: _File, k: int) -> str:
+    """The file name up to its k-th separator (the extension left out): the board's stem."""
+    name = f.path.name
+    stem = name[: -len(f.path.suffix)] if f.path.suffix and len(f.path.suffix) < len(name) else name
+    cuts = [m.start() for m in _SEP.finditer(stem) if m.start() > 0]
+    return stem[: cuts[k - 1]] if len(cuts) >= k else stem
+
+
+def board_groups(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: InputLimits,
+                 project_file: str | None, prefix: str = "") -> dict[str | None, list[_File]]:
+    """Board name -> its files; one entry (name None) when the files make one board."""
+    if any(role.startswith("copper:") for role in mapping.values()):
+        return {None: files}
+    claims, clash = _trial(fab, files, mapping, limits, project_file)
+    if not clash:
+        return {prefix.rstrip("/") or None: files}
+    # 1. subfolders that each hold copper layers
+    by_dir: dict[str, list[_File]] = {}
+    for f in files:
+        sub = f.rel[len(prefix):]
+        by_dir.setdefault(prefix + sub.split("/", 1)[0] + "/" if "/" in sub else "", []).append(f)
+    with_copper = {d: fs for d, fs in by_dir.items() if d and _trial(fab, fs, mapping, limits, project_file)[0]}
+    if len(with_copper) > 1:
+        out: dict[str | None, list[_File]] = {}
+        for d, fs in sorted(with_copper.items()):
+            for name, group in board_groups(fab, fs, mapping, limits, project_file, prefix=d).items():
+                out[name or d.rstrip("/")] = group
+        return out
+    # 2. file-name stems: the shortest stem that leaves no two files on one copper layer
+    for k in range(1, 6):
+        groups: dict[str, list[_File]] = {}
+        for f in files:
+            groups.setdefault(prefix + _stem(f, k), []).append(f)
+        boards = {}
+        copper_files: set[Path] = set()
+        ok = True
+        for name, fs in groups.items():
+            claimed, clash = _trial(fab, fs, mapping, limits, project_file)
+            if clash:
+                ok = False
+                break
+            if claimed:
+                boards[name] = fs
+                copper_files.update(claimed)
+        if not ok or len(boards) < 2:
+            continue
+        # the stem must not swallow the layer's own name (``x.top`` / ``x.bottom`` are one board)
+        if any(_stem(f, k) == _stem(f, 99) and f.path.suffix.lower() in _PLAIN_EXT and not f.function
+               for fs in boards.values() for f in fs if f.path in copper_files):
+            break
+        return dict(sorted(boards.items()))
+    return {prefix.rstrip("/") or None: files}
 
 
 # --- zip safety ----------------------------------------------------------------------------
@@ -278,7 +415,9 @@ class _Claim:
     how: str
 
 
-def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project_file: str | None) -> None:
+def _scan(fab: FabSet, limits: InputLimits) -> list[_File]:
+    """Every file under the fab root (hidden files, system files and the project file left out),
+    with its kind and X2 FileFunction sniffed from its first bytes."""
     files: list[_File] = []
     found = []
     for p in fab.root.rglob("*"):
@@ -296,9 +435,14 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
             continue
         kind, function = sniff(path)
         files.append(_File(path=path, rel=rel, kind=kind, function=function))
-        if function:
-            fab.attributes[path] = function
+    return files
 
+
+def _classify(fab: FabSet, files: list[_File], mapping: dict[str, str], limits: InputLimits,
+              project_file: str | None) -> None:
+    for f in files:
+        if f.function:
+            fab.attributes[f.path] = f.function
     by_rel = {f.rel: f for f in files}
     by_name: dict[str, list[_File]] = {}
     for f in files:
@@ -324,7 +468,7 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
     netlists: list[tuple[_File, str]] = []
     boms: list[_File] = []
     decided: set[str] = set()
-    mapped_roles = {role.split(":")[0] for _, role in mapped.values()}
+    mapped_roles = {role.split(" ")[0].split(":")[0] for _, role in mapped.values()}
 
     for rel, (f, role) in mapped.items():
         decided.add(rel)
@@ -338,6 +482,13 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
         elif role.startswith("drill"):
             if f.kind != "gerber":       # drill data written as Gerber is read too
                 _expect(f, "excellon", role, fab, project_file)
+            role, _, words = role.partition(" ")
+            if words.strip():
+                from .drill_format import parse_format_words
+                try:
+                    fab.drill_formats[f.path] = parse_format_words(words)
+                except ValueError as exc:
+                    raise InputError(f"files: {f.rel!r}: {exc}", path=project_file) from None
             plated = {"drill:plated": True, "drill:nonplated": False}.get(role)
             if plated is None:
                 plated = _drill_plating_from_function(f.function)
@@ -379,6 +530,17 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
             fab.ignored.append((f.path, f"not copper ({how})"))
             decided.add(f.rel)
 
+    # 2b. short extensions and two-letter names (readers.layer_names), before the common rules
+    from .layer_names import copper_position
+    for f in files:
+        if f.rel in decided or f.kind != "gerber":
+            continue
+        pos = copper_position(f.path.name)
+        if pos is not None and pos[0] != "function":
+            copper_claims.append(_Claim(f, pos, "layer number in the file name" if pos[0] == "L"
+                                        else f"file name ({pos[0]} by its extension or layer word)"))
+            decided.add(f.rel)
+
     # 3. gerbonara's layer-name rules, on the files the content says could hold a role
     rest = [f for f in files if f.rel not in decided and f.kind in ("gerber", "excellon", "ipc356")]
     for key, group in _gerbonara_roles(rest).items():
@@ -387,7 +549,9 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
             role = _role_of_gerbonara_key(key)
             if role is None:
                 continue
-            if f.kind == "gerber" and role[0] == "copper":
+            if f.kind == "gerber" and role[0] == "copper" and re.search(r"silk|mask|paste|legend", f.path.name, re.I):
+                fab.ignored.append((f.path, "not copper (silk, mask or paste by its name)"))
+            elif f.kind == "gerber" and role[0] == "copper":
                 copper_claims.append(_Claim(f, role[1], how))
             elif f.kind == "gerber" and role[0] == "outline":
                 pref = 2.0      # .gko, edge cuts, outline, profile ...
@@ -419,6 +583,15 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
                       f.path.stem, re.I)
         if m:
             copper_claims.append(_Claim(f, ("L", int(m.group(1))), "layer number in the file name"))
+            decided.add(f.rel)
+
+    # 5. inner layers named by their function (GND2, PWR ...): placed between top and bottom
+    for f in files:
+        if f.rel in decided or f.kind != "gerber":
+            continue
+        pos = copper_position(f.path.name)
+        if pos is not None and pos[0] == "function":
+            copper_claims.append(_Claim(f, pos, "inner layer named by its function"))
             decided.add(f.rel)
 
     # the rest by content alone
@@ -465,6 +638,7 @@ def _classify(fab: FabSet, mapping: dict[str, str], limits: InputLimits, project
     drill_items = set_aside("drill", list(drills.values()), lambda c: c[0])
     boms = set_aside("bom", boms, lambda f: f)
 
+    fab.claimed_copper = [c.file.path for c in copper_claims]
     _resolve_copper(fab, copper_claims, project_file)
 
     if outline_cands:
@@ -584,6 +758,12 @@ def _gerbonara_roles(files: list[_File]) -> dict[str, list[_File]]:
         for key, group in guessed.items():
             if re.fullmatch(r"inner_\d+ copper", key):
                 continue   # the guesser's number may be a layer or an inner-layer number: step 4 decides
+            if key.startswith("drill"):
+                # the guesser finds "rou(te)" inside words such as "group": a drill needs the word
+                group = [p for p in group if re.search(r"(?<![a-z])(drill|drl|routs?|route|rout|nc)(?![a-z])|"
+                                                       r"pth|plated|holes?", p.stem, re.I)]
+                if not group:
+                    continue
             out.setdefault(f"{key}", []).extend(by_path[p] for p in group)
     return out
 
@@ -609,12 +789,30 @@ def _role_of_gerbonara_key(key: str) -> tuple | None:
     return None
 
 
+def _exact(c: _Claim) -> bool:
+    """A claim of an exact layer number (X2 attribute or the [files] mapping), not a name's."""
+    return c.how.startswith(("X2", "[files]"))
+
+
 def _resolve_copper(fab: FabSet, claims: list[_Claim], project_file: str | None) -> None:
+    functional = [c for c in claims if c.position[0] == "function"]
+    if functional and not any(c.position == ("top",) for c in claims) or functional and \
+            not any(c.position == ("bottom",) for c in claims):
+        # named by function but no top and bottom to put them between: not taken as copper
+        for c in functional:
+            fab.ignored.append((c.file.path, "a Gerber file whose layer could not be told (map it in [files])"))
+        claims = [c for c in claims if c.position[0] != "function"]
     if not claims:
         raise InputError("no copper layer found among the fab outputs (found: "
                          + (", ".join(fab.display(p) for p, _ in fab.ignored[:12]) or "no files")
                          + "); map the copper files in the project file's [files] as copper:1 .. copper:N",
                          path=str(fab.source))
+    if not any(_exact(c) for c in claims) and _resolve_by_names(fab, claims):
+        return
+    # exact layer numbers decide; a layer named only by function has no place among them
+    for c in [c for c in claims if c.position[0] == "function"]:
+        fab.ignored.append((c.file.path, "a Gerber file whose layer could not be told (map it in [files])"))
+    claims = [c for c in claims if c.position[0] != "function"]
     bottoms = [c for c in claims if c.position == ("bottom",)]
     fixed: list[tuple[int, _Claim]] = []
     for c in claims:
@@ -654,3 +852,45 @@ def _resolve_copper(fab: FabSet, claims: list[_Claim], project_file: str | None)
         c = by_pos[pos][0]
         fab.copper.append((c.file.path, pos - 1))
         fab.how[c.file.path] = c.how
+
+
+def _resolve_by_names(fab: FabSet, claims: list[_Claim]) -> bool:
+    """A stack from names alone: top first, bottom last, the numbered layers between in the
+    order of their numbers (``L02`` .. ``L11``, ``LAYER_1`` .. ``LAYER_2``, ``.ly2`` / ``.ly15``:
+    a name's number orders, it need not be the position), then inner layers named by function
+    in the most likely order (stated as an assumption with the [files] lines that fix it).
+    Returns False (the exact-number rules then decide) when names give no top to start from."""
+    tops = [c for c in claims if c.position == ("top",)]
+    bottoms = [c for c in claims if c.position == ("bottom",)]
+    numbered = [c for c in claims if c.position[0] in ("L", "inner")]
+    functional = [c for c in claims if c.position[0] == "function"]
+    if len(tops) > 1 or len(bottoms) > 1:
+        return False                      # the clash error names them
+    if not tops:
+        return False                      # L1 .. Ln by number (or a gap the exact rules report)
+    numbers = [c.position[1] for c in numbered]
+    if len(set(numbers)) != len(numbers):
+        return False                      # two files with one number: the clash error names them
+    numbered.sort(key=lambda c: c.position[1])
+    functional.sort(key=lambda c: (c.position[1] if c.position[1] is not None else 99, c.position[2],
+                                   c.file.rel.lower()))
+    stack = tops + numbered + functional + bottoms
+    for pos, c in enumerate(stack, start=1):
+        fab.copper.append((c.file.path, pos - 1))
+        fab.how[c.file.path] = c.how
+    renumbered = [c for pos, c in enumerate(stack, start=1) if c in numbered and
+                  pos != (c.position[1] if c.position[0] == "L" else c.position[1] + 1)]
+    lines = ", ".join(f'"{fab.relname(c.file.path)}" = "copper:{pos}"' for pos, c in enumerate(stack, start=1))
+    if renumbered:
+        fab.notes.append("copper layer order from the numbers in the file names (a name's number "
+                         "orders the inner layers, it is not taken as the position): "
+                         + ", ".join(f"{fab.display(c.file.path)} = L{stack.index(c) + 1}" for c in numbered))
+    if len(functional) > 1 or (functional and numbered):
+        fab.inner_order_guessed = [c.file.path for c in numbered + functional]
+        fab.notes.append("inner copper layers named by function, their order not in the names or X2 "
+                         "attributes: taken as " + ", ".join(f"{fab.display(c.file.path)} = L{stack.index(c) + 1}"
+                                                             for c in functional)
+                         + " (numbers in the names first, then ground before power before signal: "
+                           "the most likely order); if wrong, set the order in loopcheck.toml: [files] "
+                         + lines)
+    return True

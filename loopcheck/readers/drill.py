@@ -31,11 +31,15 @@ from pathlib import Path
 from gerbonara import graphic_objects as go
 from gerbonara.excellon import ExcellonParser
 from gerbonara.apertures import CircleAperture
+from gerbonara.cam import FileSettings
+from gerbonara.utils import MM, Inch
 
 from ..board import Hole
 from ..errors import InputError
 from ..limits import DEFAULT_LIMITS, InputLimits
+from . import drill_format
 from .aperture_shapes import unit_factor
+from .drill_format import DrillFormat
 from .gerber import _read_text, sniff_gerber, text_head
 
 
@@ -48,6 +52,10 @@ class DrillFile:
     units: str = "mm"
     slot_count: int = 0
     notes: list[str] = field(default_factory=list)
+    number_format: DrillFormat | None = None     # the format the file was read with
+    # the plausible formats when neither the file, a parameter file beside it nor the caller
+    # gave it: the file was read with the first; the board loader checks them against the copper
+    format_candidates: list[DrillFormat] = field(default_factory=list)
 
 
 _NPTH_NAME = re.compile(r"npth|non[-_ ]?plated|unplated|nonplated|[-_.]np[-_.]", re.I)
@@ -55,6 +63,10 @@ _PTH_NAME = re.compile(r"(?<![a-z])pth|plated", re.I)
 _X2_COMMENT = re.compile(r"^;\s*(?:#@!\s*)?(?P<kind>TF|TA)\.?(?P<name>[A-Za-z][\w.]*),(?P<value>.*?)\*?%?\s*$")
 _TOOL_DEF = re.compile(r"^T0*(?P<num>\d+)(?=[A-Z])(?:[A-BD-Z][\d.+-]*)*C")
 _ROUTED_ARC = re.compile(r"^G0[23](?P<xy>(?:[XY][+-]?[\d.]*)+)(?:[AIJ][+-]?[\d.]*)+\s*$")
+# a tool definition with feed, speed or other parameters besides C: only the diameter is kept
+# (the parameters are machine settings, often written without a decimal point, which the
+# number format would otherwise have to cover)
+_TOOL_WITH_PARAMS = re.compile(r"^(?P<t>T\d+)(?P<params>(?:[A-Z][+-]?[\d.]*)*C[+-]?[\d.]+(?:[A-Z][+-]?[\d.]*)*)\s*$")
 _G85 = re.compile(r"^(?P<a>(?:[XY][+-]?[\d.]*)+)G85(?P<b>(?:[XY][+-]?[\d.]*)+)\s*$")
 
 
@@ -94,6 +106,12 @@ def _prescan(lines: list[str]):
                 pending = _plating_word(m["value"])
         elif (t := _TOOL_DEF.match(line)) and pending is not None:
             tool_plating[int(t["num"])] = pending
+        tp = _TOOL_WITH_PARAMS.match(line)
+        if tp and not re.fullmatch(r"C[\d.]+", tp["params"]):
+            c = re.search(r"C([+-]?[\d.]+)", tp["params"])
+            out.append(f"{tp['t']}C{c[1]}")
+            origin.append(n)
+            continue
         g = _G85.match(line)
         if g:
             # a canned slot: route from the first point to the second with the current tool
@@ -113,8 +131,18 @@ def _prescan(lines: list[str]):
     return attributes, tool_plating, out, origin, arcs
 
 
-def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
+def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS, number_format: DrillFormat | None = None
+                  ) -> DrillFile:
     """Read one drill file (Excellon, or drill data written as Gerber) into holes in mm.
+
+    Parameters
+    ----------
+    path : the drill file
+    limits : limits for untrusted input
+    number_format : the format to read it with where the file does not say (the project file's
+        words, or a candidate the board loader tries); None: the file, then a parameter file
+        beside it (``nc_param.txt`` ...), then the most common habit, with the other plausible
+        formats listed in ``format_candidates`` (see :mod:`loopcheck.readers.drill_format`)
 
     Raises
     ------
@@ -124,8 +152,21 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
     text = _read_text(path, limits, "drill")
     if not sniff_excellon_text(text) and sniff_gerber(path):
         return _read_gerber_drill(path, limits)
+    known = drill_format.in_file(text)
+    if number_format is not None:
+        known = number_format.merged(known) if number_format.source != "guessed" else \
+            DrillFormat(number_format.units, number_format.integer_digits, number_format.decimal_digits,
+                        number_format.zeros, "guessed")
+    elif (side := drill_format.beside(path)) is not None:
+        known = known.merged(side)
+    digits_needed = drill_format.needs_digits(text)
+    cands: list[DrillFormat] = []
+    if known.units is None or (digits_needed and not known.has_digits and
+                               not (known.integer_digits is not None and known.decimal_digits is not None)):
+        cands = drill_format.candidates(known, digits_needed)
+        known = cands[0]
     attributes, tool_plating, lines, origin, arcs = _prescan(text.splitlines())
-    parser = ExcellonParser()
+    parser = ExcellonParser(_settings(known))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
@@ -134,9 +175,7 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
             line = None
             if parser.lineno is not None and 0 < parser.lineno <= len(origin):
                 line = origin[parser.lineno - 1]
-            cause = e.__cause__ or e
-            detail = " ".join(str(cause).split('": ', 1)[-1].split())[:300]
-            raise InputError(f"Excellon syntax error: {detail}", path=str(path), line=line) from None
+            raise InputError(_statement_error(e, parser, lines), path=str(path), line=line) from None
     if len(parser.objects) > limits.max_objects_per_layer:
         raise InputError(f"more than {limits.max_objects_per_layer} holes in one file (limit)", path=str(path))
 
@@ -172,7 +211,42 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS) -> DrillFile:
     notes = [f"{arcs} routed arcs (G02/G03) taken as straight slots along their chords"] if arcs else []
     return DrillFile(str(path), holes, file_plated, attributes,
                      units="inch" if unit is not None and unit_factor(unit) != 1.0 else "mm",
-                     slot_count=slots, notes=notes)
+                     slot_count=slots, notes=notes, number_format=known, format_candidates=cands)
+
+
+def _settings(fmt: DrillFormat) -> FileSettings | None:
+    """gerbonara settings for a known format (statements in the file still apply on top)."""
+    if fmt.units is None and fmt.integer_digits is None and fmt.decimal_digits is None:
+        return None
+    digits = (fmt.integer_digits, fmt.decimal_digits)
+    if None in digits:
+        digits = (None, None)
+    settings = FileSettings(number_format=digits, zeros=fmt.zeros or "leading")
+    if fmt.units is not None:
+        settings.unit = MM if fmt.units == "mm" else Inch
+    return settings
+
+
+def _statement_error(exc: Exception, parser: ExcellonParser, lines: list[str]) -> str:
+    """Our own words for a statement the parser refused (its exception text is not shown)."""
+    cause = exc.__cause__ or exc
+    text = str(cause)
+    stmt = ""
+    if parser.lineno is not None and 0 < parser.lineno <= len(lines):
+        stmt = " ".join(lines[parser.lineno - 1].split())[:80]
+    if m := re.search(r"Undefined tool index (\d+)", text):
+        return f"tool T{m[1]} is selected but never defined in the header (statement {stmt!r})"
+    if m := re.search(r"Unsupported FMAT format version (\w*)", text):
+        return (f"FMAT,{m[1]}: only the FMAT,2 command set is read (statement {stmt!r}); "
+                f"export the drill file in the current Excellon format")
+    if "No number format set" in text:
+        return (f"coordinates without a decimal point and no number format (statement {stmt!r}); give it "
+                f"in the project file's [files], e.g. \"NAME\" = \"drill inch 2.4 omit-leading\"")
+    if "Unknown excellon statement" in text:
+        return f"statement not understood as Excellon: {stmt!r}"
+    if "G93" in text or "zero set" in text:
+        return f"a G93 zero-set with a non-zero offset is not supported (statement {stmt!r})"
+    return f"statement not understood as Excellon: {stmt!r}"
 
 
 def _read_gerber_drill(path: Path, limits: InputLimits) -> DrillFile:
