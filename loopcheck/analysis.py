@@ -270,7 +270,13 @@ def analyse(board: Board, project: Any, *, deadline: float | None = None,
         # not this version declares it, and the hot-loop measurement reads it when it can
         setattr(ctx, "inductance_method", inductance_method)
     for stage in analysis.stages:
-        analysis.measurements += measure_stage(ctx, stage, analysis.timings_s,
-                                               analysis.internal_errors, deadline=deadline,
-                                               budget_s=time_budget_s, progress=progress)
+        if stage.not_measured:      # a topology loopcheck does not model: listed, said, not measured
+            analysis.measurements += [not_made(q, stage, stage.not_measured) for q in all_quantities()]
+            continue
+        made = measure_stage(ctx, stage, analysis.timings_s, analysis.internal_errors, deadline=deadline,
+                             budget_s=time_budget_s, progress=progress)
+        if stage.unsure:            # each measurement says what it rests on
+            for m in made:
+                m.assumptions = tuple(m.assumptions) + (f"rests on an unsure stage: {'; '.join(stage.unsure)}",)
+        analysis.measurements += made
     return analysis

@@ -106,6 +106,9 @@ class Board:
     netlist_file: str | None = None
     drill_files: list[str] = field(default_factory=list)
     component_values: dict[str, str] = field(default_factory=dict)   # ref -> value ("10uF")
+    # ref -> footprint or package as a BOM or placement file names it ("0402", "L_0805_2012Metric")
+    component_packages: dict[str, str] = field(default_factory=dict)
+    component_sides: dict[str, str] = field(default_factory=dict)    # ref -> "top" | "bottom" (placement)
     assumptions: list[str] = field(default_factory=list)
     source: str = ""                         # the folder, zip or project file given
     # each fab file read or set aside -> its role and how that was decided (for inspect)

@@ -240,15 +240,23 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
                 values[ref] = v
                 x3 += 1
     n_bom = 0
+    packages: dict[str, str] = {}
+    sides: dict[str, str] = {}
+    for _, _, gl in raw_layers:
+        for ref, fp in (getattr(gl, "component_footprints", None) or {}).items():
+            packages.setdefault(ref, fp)
     if fab.bom is not None:
         inputs[fab.relname(fab.bom)] = "BOM / placement list"
         try:
-            from .readers.bom import read_bom
+            from .readers.bom import read_bom_parts
         except ImportError:
-            read_bom = None
-        if read_bom is not None:
+            read_bom_parts = None
+        if read_bom_parts is not None:
             try:
-                bom = read_bom(fab.bom, limits)
+                parts = read_bom_parts(fab.bom, limits)
+                bom = parts.values
+                packages.update(parts.footprints)
+                sides.update(parts.sides)
             except InputError as exc:
                 # the BOM only adds part values; one we cannot read leaves them out, and says so
                 bom = {}
@@ -257,6 +265,19 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
                 inputs[fab.relname(fab.bom)] = "not used: not a readable BOM / placement list"
             values.update(bom)
             n_bom = len(bom)
+            # a placement file beside the BOM (set aside as a further CSV): footprints and sides
+            for path, _ in list(fab.ignored):
+                if path.suffix.lower() != ".csv":
+                    continue
+                try:
+                    place = read_bom_parts(path, limits, need_value=False)
+                except (InputError, OSError):
+                    continue
+                for ref, fp in place.footprints.items():
+                    packages.setdefault(ref, fp)
+                for ref, side in place.sides.items():
+                    sides.setdefault(ref, side)
+                inputs[fab.relname(path)] = "placement list (footprints, sides)"
     values.update(project.components)
     if values:
         parts = [f"{x3} from X3 attributes" if x3 else "", f"{n_bom} from {fab.relname(fab.bom)}" if n_bom else "",
@@ -273,6 +294,7 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
     board = Board(
         name=project.name, layers=layers, outline=outline, stackup=stackup, pads=pads, holes=holes,
         netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
+        component_packages=packages, component_sides=sides,
         assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
     )
     if netlist is not None and netlist.maybe_cut_names:

@@ -14,7 +14,13 @@ ROLE_NAMES = (
     "sense_resistor",
     "controller",
     "controller_decoupling",   # the capacitor on the controller's own supply pin
+    "transformer",       # an isolated stage's transformer (half-bridge, flyback, resonant)
 )
+
+# Topologies loopcheck measures, and those it reports without measuring (their loops and paths
+# are not modelled: the stage is listed with its parts and every measurement is "not made").
+MEASURED_TOPOLOGIES = ("buck", "boost", "buck-boost")
+UNMEASURED_TOPOLOGIES = ("half-bridge", "resonant", "flyback", "four-switch")   # four-switch buck-boost
 
 
 @dataclass
@@ -50,7 +56,7 @@ class OperatingPoint:
 @dataclass
 class Stage:
     name: str                      # "stage1", or the name given in loopcheck.toml
-    topology: str                  # "buck" | "boost" | "buck-boost"
+    topology: str                  # MEASURED_TOPOLOGIES, or one of UNMEASURED_TOPOLOGIES
     switching: str                 # "discrete" | "synchronous" | "integrated"
     switch_node: str | None        # net names
     input_net: str | None
@@ -61,6 +67,21 @@ class Stage:
     operating_point: OperatingPoint = field(default_factory=OperatingPoint)
     confidence: float = 1.0
     missing: list[str] = field(default_factory=list)   # what could not be found, in words
+    evidence: list[str] = field(default_factory=list)  # why this is a stage, and why this topology
+    # what rests on weak evidence, in words ("topology buck: ..."); empty when all is sure
+    unsure: list[str] = field(default_factory=list)
+    # the loopcheck.toml lines that would confirm or correct what is unsure
+    confirm_lines: list[str] = field(default_factory=list)
+    # why the stage was not measured ("" when it was): a topology loopcheck does not model
+    not_measured: str = ""
+
+    def unsure_text(self) -> str:
+        """One line: what is unsure and the project-file lines that would settle it ("" when sure)."""
+        if not self.unsure:
+            return ""
+        lines = " ".join(self.confirm_lines)
+        return (f"{self.name}: unsure ({'; '.join(self.unsure)}); confirm or correct it in loopcheck.toml: "
+                f"{lines}")
 
     def role(self, name: str) -> Role | None:
         for r in self.roles:

@@ -163,6 +163,20 @@ class Project:
         """The project-file line that sets ``dotted_key`` (e.g. ``"stackup.copper_um"``), if known."""
         return self.key_lines.get(dotted_key)
 
+    def nearest_line(self, dotted_key: str) -> int | None:
+        """The line of ``dotted_key``, else of its nearest enclosing table that the file sets
+        (``stages.led.switch_node`` not written: the ``[stages.led]`` header's line)."""
+        parts = dotted_key.split(".")
+        for n in range(len(parts), 0, -1):
+            line = self.key_lines.get(".".join(parts[:n]))
+            if line is not None:
+                return line
+        return None
+
+    def key_error(self, dotted_key: str, message: str) -> InputError:
+        """An InputError naming this project file and the line of ``dotted_key`` (or of its table)."""
+        return InputError(message, path=str(self.path) if self.path else None, line=self.nearest_line(dotted_key))
+
 
 def load_project(board_path: str | Path) -> Project:
     """BOARD (a folder, a .zip or a loopcheck.toml) -> Project. Raises InputError.

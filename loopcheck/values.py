@@ -6,7 +6,7 @@ Spellings understood (spaces and a trailing unit are ignored):
 - an SI prefix after the number: ``100n``, ``10uF``, ``22µH``, ``2.2k``, ``68m`` (milli), ``1M``
   (mega), ``2G`` (giga); ``f p n u µ m k K M G``;
 - the prefix (or ``R`` for ohms) in place of the decimal point: ``4k7``, ``2G2``, ``4u7``,
-  ``0R1``, ``1R5``, ``R068``;
+  ``0R1``, ``1R5``, ``R068``, ``4Ω3``;
 - an ``R`` after a prefix only says ohms: ``68mR``;
 - units: ``ohm``/``ohms``/``Ω``, ``F``/``farad``, ``H``/``henry``, ``V``, ``A``, ``W``.
 
@@ -45,6 +45,7 @@ def parse_value(text: str | float | None) -> float | None:
     if isinstance(text, (int, float)):
         return float(text)
     s = str(text).strip().replace(" ", "")
+    s = re.sub(r"(?<=\d)[Ωω](?=\d)", "R", s)          # "4Ω3": the ohm sign in place of the point
     s = _UNIT.sub("", s)
     s = re.sub(r"(?<=[fpnuµμmkKMG])[Rr]$", "", s)       # "68mR": the R only says ohms
     m = _PLAIN.fullmatch(s)

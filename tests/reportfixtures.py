@@ -73,6 +73,24 @@ def _m(q, value, unit, label, **kw) -> Measurement:
     return Measurement(quantity=q, value=value, unit=unit, label=label, stage="stage1", **kw)
 
 
+def tidy_field_detail() -> dict:
+    """A field-solve detail for the tidy loop, in the shape measure/loopfield.py gives it:
+    shares (deliberately not in order), cells per layer name [x, y, dx, dy, Jx, Jy] (mm, A/mm per
+    A), centroid lines per net."""
+    top = [[x + 0.25, y + 0.25, 0.5, 0.5, 0.8 if y >= 20 else 0.1, 0.05]
+           for x in (5, 6, 7, 8) for y in (17.5, 18.5, 19.5, 20.0)]
+    bottom = [[x + 0.5, y + 0.5, 1.0, 1.0, -0.05, 0.01] for x in (5, 6, 7, 8) for y in (17, 18, 19)]
+    return {"inductance_method": "field",
+            "mesh": {"fine_mm": 0.5, "coarse_mm": 1.0, "cells": 28},
+            "inductance_shares": [{"part": "GND copper on top", "share_pct": 12.0},
+                                  {"part": "part U1.1-U1.2", "share_pct": 41.5},
+                                  {"part": "VIN copper on top", "share_pct": 30.0},
+                                  {"part": "vias of GND", "share_pct": 16.5}],
+            "current_density_a_per_mm": {"top": top, "bottom": bottom},
+            "current_centroid": [{"net": "VIN", "points": [[5.0, 20.0], [8.0, 20.4]]},
+                                 {"net": "GND", "points": [[7.0, 17.6], [5.0, 18.1]]}]}
+
+
 def make_measurements(variant: str = "sprawl") -> list[Measurement]:
     s = 1.0
     big = variant == "sprawl"
@@ -86,7 +104,8 @@ def make_measurements(variant: str = "sprawl") -> list[Measurement]:
            drawings=[Drawing("polygon", loop, None)]),
         _m("hot_loop.inductance", 17.2 if big else 3.9, "nH", "hot-loop inductance",
            x_mm=9.5, y_mm=17.0, layer="top", terminals=("C1.1", "U1.1"),
-           assumptions=("no plane under the loop",)),
+           assumptions=("no plane under the loop",),
+           detail={} if big else tidy_field_detail()),
         _m("hot_loop.vias", 1 if big else 0, "count", "vias in the hot loop", x_mm=8, y_mm=14),
         _m("hot_loop.overshoot", 8.0 if big else 2.0, "%", "switching overshoot L di/dt"),
         _m("input_cap.path_length", 18.4 if big else 2.1, "mm", "input capacitor to switch",

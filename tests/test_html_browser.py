@@ -100,6 +100,18 @@ def test_html_renders_in_chromium(driver, tmp_path, variant):
     driver.find_element(By.CSS_SELECTOR, "label[for=show-layer-1]").click()
     layer = svg.find_element(By.CSS_SELECTOR, "g.layer-1")
     assert not layer.is_displayed()
+    # the stage's own picture, zoomed to its loop, renders with its loop drawn
+    loop_svg = driver.find_element(By.ID, "loop-view-0")
+    assert loop_svg.size["width"] > 250 and loop_svg.size["height"] > 150
+    assert loop_svg.find_element(By.CSS_SELECTOR, "polygon.loop-area").is_displayed()
+    heat = loop_svg.find_elements(By.CSS_SELECTOR, "g.heat-0")
+    assert len(heat) == (1 if variant == "tidy" else 0)
+    if heat:                                  # the current map hides with its toggle
+        assert heat[0].is_displayed()
+        toggle = driver.find_element(By.CSS_SELECTOR, 'label[for="zh-0-0"]')
+        driver.execute_script("arguments[0].scrollIntoView()", toggle)
+        toggle.click()
+        assert not heat[0].is_displayed()
 
 
 @pytest.mark.browser
@@ -130,6 +142,12 @@ def test_demo_report_renders_with_a_marker_per_finding(driver, tmp_path):
     assert svg.find_elements(By.CSS_SELECTOR, "polygon.hot-loop")
     markers = svg.find_elements(By.CSS_SELECTOR, ".finding-marker")
     assert len(markers) == len(result.findings) > 0
+    # one zoomed picture per stage with a measured loop, each with its loop path drawn
+    pictures = driver.find_elements(By.CSS_SELECTOR, "svg.loop-svg")
+    assert len(pictures) == len(result.analysis.stages) > 0
+    for pic in pictures:
+        assert pic.size["width"] > 250
+        assert pic.find_elements(By.CSS_SELECTOR, "polyline.loop-path")
     rules = {f.rule for f in result.findings}
     assert {"hot-loop-area", "input-cap-distance", "sense-kelvin"} <= rules
     # each marker's link lands on its row in the findings table

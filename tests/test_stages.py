@@ -150,8 +150,10 @@ def test_synchronous_buck():
     assert ls.pins == {"gate": ("M2.1",), "source": ("M2.2",), "drain": ("M2.3",)}
     assert st.hot_loop == ("C1.1", "M1.3", "M1.2", "M2.3", "M2.2", "C1.2")
     assert st.role("sense_resistor") is None
-    # topology from names: 5V/12V are not names it knows; the IC-pin evidence or the stated assumption
-    assert st.confidence <= 0.9
+    # topology from several clues: the rail names' voltages (12 V in, 5 V out, compared as numbers),
+    # the feedback divider R1/R2 on 5V and the bootstrap capacitor CB (behaviour change: names
+    # with voltages were not read before, and the confidence was at most 0.9)
+    assert st.confidence >= 0.7 and not st.unsure
 
 
 def test_synchronous_pair_topology_from_operating_point():
@@ -314,17 +316,19 @@ def test_contradictory_roles(roles_, key):
 
 
 def test_key_lines_in_the_project_file(tmp_path):
-    from loopcheck.stages import _key_line
+    # the lines come from the project file as loopcheck.project read it (stages no longer re-reads it)
+    from loopcheck.project import load_project
 
     f = tmp_path / "loopcheck.toml"
     f.write_text('[board]\nname = "x"\n\n[operating_point]\niout_a = 1\n\n[stages.led]\nswitch = "Q1"\n'
                  '[stages.led.operating_point]\nfsw_hz = 1\n[stages."odd name"]\ninductor = "L1"\n')
-    assert _key_line(str(f), "operating_point.iout_a") == 5
-    assert _key_line(str(f), "stages.led.switch") == 8
-    assert _key_line(str(f), "stages.led.operating_point.fsw_hz") == 10
-    assert _key_line(str(f), "stages.odd name.inductor") == 12
-    assert _key_line(str(f), "stages.led.rectifier") == 7         # not there: its table's header
-    assert _key_line(None, "stages.led.switch") is None
+    p = load_project(f)
+    assert p.nearest_line("operating_point.iout_a") == 5
+    assert p.nearest_line("stages.led.switch") == 8
+    assert p.nearest_line("stages.led.operating_point.fsw_hz") == 10
+    assert p.nearest_line("stages.odd name.inductor") == 12
+    assert p.nearest_line("stages.led.rectifier") == 7         # not there: its table's header
+    assert p.key_error("stages.led.switch", "x").line == 8
 
 
 def test_operating_point_defaults_and_errors():
@@ -406,13 +410,22 @@ def test_impossible_operating_point_cli_exit_2(tmp_path):
 
 
 def test_values_from_bom_file(tmp_path):
+    # the BOM is read once, by load_board, into board.component_values; stages use those values
+    # (behaviour change: stages no longer re-read the CSV named in [files])
+    from loopcheck.load import load_board
+    from loopcheck.project import load_project
+
+    from synth_fixtures import write_buck
+
+    write_buck(tmp_path)
     bom = tmp_path / "bom.csv"
-    bom.write_text('Designator;Comment;Footprint\n"C1, C2";4.7uF;1210\nRS1;0R1;2512\n')
-    assert read_bom(bom) == {"C1": "4.7uF", "C2": "4.7uF", "RS1": "0R1"}
-    board = board_from(LED_BUCK)
-    st = find_stages(board, Project(path=None, fab=tmp_path, name="t", files={"bom.csv": "bom"},
-                                    operating_point={"iout_a": 1.5})).stages[0]
-    assert st.operating_point.vsense_v == pytest.approx(0.15)
+    bom.write_text('Designator;Comment;Footprint\n"C1, C2";4.7uF;1210\nL1;22uH;1210\n')
+    assert read_bom(bom) == {"C1": "4.7uF", "C2": "4.7uF", "L1": "22uH"}
+    board = load_board(load_project(tmp_path))
+    assert board.component_values["C1"] == "4.7uF"
+    search = find_stages(board, load_project(tmp_path))
+    assert any("part values from the fab outputs" in m for m in search.messages)
+    assert search.stages[0].role("inductor").ref == "L1"
 
 
 @pytest.mark.parametrize("text", ["Ref,Value\nC1\n", "Part Number,Qty\nX,1\n", "Ref,Value\n1C,4u7\n",
@@ -636,10 +649,11 @@ def test_synchronous_pair_without_names_says_it_assumed():
     rename = {n: f"N{i:03d}" for i, n in enumerate(["VBAT", "VOUT", "GND", "N3", "N4", "N5", "N6", "N7"])}
     search = find_stages(board_from(SYNC_BOOST, rename), project())
     st = search.stages[0]
-    # with no names and no operating point the pair reads as a buck fed from the IC's supply rail:
-    # the wrong way round here, so the confidence is low and the message says how to fix it
-    assert st.confidence <= 0.6
-    assert any("name topology in loopcheck.toml" in m or "feeds an IC pin" in m for m in search.messages)
+    # with no names and no operating point the clues still read it as a boost (behaviour change: it
+    # was read as a buck with a low confidence): nothing but the stage feeds the output rail, the
+    # connector sits on the input; the bootstrap capacitor CB argues buck, weakly
+    assert (st.topology, st.input_net, st.output_net) == ("boost", rename["VBAT"], rename["VOUT"])
+    assert any("nothing but this stage feeds" in m and "bootstrap capacitor CB" in m for m in search.messages)
     st = find_stages(board_from(SYNC_BOOST, rename),
                      project(stages=[StageSpec("stage1", roles={"topology": "boost"})])).stages[0]
     assert (st.topology, st.input_net, st.output_net) == ("boost", rename["VBAT"], rename["VOUT"])

@@ -16,7 +16,7 @@ from ..board import Pad
 from ..findings import Measurement
 from ..powerstage import Stage
 from .common import MeasurementGap, measurement, not_made, point, polyline
-from .hotloop import build_loop, loop_inductance
+from .hotloop import build_loop, loop_inductance_by_method
 from .netcopper import MeasureContext
 from .routes import Route, RouteError, route
 
@@ -120,7 +120,7 @@ def measure_input_cap(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
         out[0].detail["ground_not_routed"] = str(exc)
     try:
         loop = build_loop(ctx, (cap_pad.terminal, end.terminal, gpad.terminal, cg.terminal))
-        L, lnotes, det = loop_inductance(ctx, loop)
+        L, lnotes, det = loop_inductance_by_method(ctx, loop)
     except RouteError as exc:
         out.append(not_made("input_cap.inductance", stage, f"capacitor loop not traced: {exc}", **base))
         return out

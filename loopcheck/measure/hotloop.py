@@ -260,19 +260,10 @@ def _plane_images(ctx: MeasureContext, loop: LoopPath, z_mm: list[float]) -> lis
     return out
 
 
-def _mirror_segments(starts_m: np.ndarray, ends_m: np.ndarray,
-                     plane_z_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Segments (N, 3) [m] mirrored each in its own plane z = plane_z_m[k] [m] (the image method,
-    ``physics.inductance.image_in_plane``); the image carries the opposite current."""
-    from ..physics.inductance import image_in_plane
+def _mirror_segments(starts_m, ends_m, plane_z_m):
+    from ..physics.inductance import mirror_segments
 
-    plane_z_m = np.asarray(plane_z_m, dtype=float)
-    m0, m1 = np.empty_like(starts_m), np.empty_like(ends_m)
-    for z0 in np.unique(plane_z_m):
-        sel = plane_z_m == z0
-        m0[sel] = image_in_plane(starts_m[sel], z0)
-        m1[sel] = image_in_plane(ends_m[sel], z0)
-    return m0, m1
+    return mirror_segments(starts_m, ends_m, plane_z_m)
 
 
 def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[str], dict]:
@@ -370,6 +361,29 @@ def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, wid
                       "segments_over_plane": P, "return_plane": board.layers[m].name}
 
 
+def loop_inductance_by_method(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[str], dict]:
+    """The loop's inductance [H], assumptions and detail by ``ctx.inductance_method``: "field" (the
+    default: the partial-element field solve of the copper around the loop, ``measure.loopfield``)
+    or "fast" (the partial-inductance sum along the traced path, ``loop_inductance``). The field
+    solve falls back to the fast method, saying why, when it cannot be set up. The detail carries
+    ``inductance_method`` and, for the field solve, the fast estimate beside it."""
+    method = getattr(ctx, "inductance_method", "field") or "field"
+    if method not in ("field", "fast"):
+        raise ValueError(f"inductance_method must be 'field' or 'fast', got {method!r}")
+    L_fast, notes_fast, det_fast = loop_inductance(ctx, loop)
+    det_fast = {**det_fast, "inductance_method": "fast"}
+    if method == "fast":
+        return L_fast, notes_fast, det_fast
+    from .loopfield import FieldSolveError, solve_field_loop
+
+    try:
+        res = solve_field_loop(ctx, loop)
+    except FieldSolveError as exc:
+        return L_fast, notes_fast + [f"field solve not made ({exc}): the fast path estimate is reported"], det_fast
+    det = {**res.detail, "fast_estimate_nH": L_fast * 1e9, "fast": det_fast}
+    return res.inductance_h, res.assumptions, det
+
+
 def measure_hot_loop(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
     """hot_loop.area, .inductance, .vias, .overshoot, .ringing_frequency, .edge_energy for one stage."""
     names = ("hot_loop.area", "hot_loop.inductance", "hot_loop.vias", "hot_loop.overshoot",
@@ -401,7 +415,7 @@ def measure_hot_loop(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
                        detail={"path": path3d, "perimeter_mm": LineString(loop.projected() + [loop.projected()[0]]).length},
                        **base)]
     try:
-        L, notes, det = loop_inductance(ctx, loop)
+        L, notes, det = loop_inductance_by_method(ctx, loop)
     except MeasurementGap as exc:     # a reason of the board; a bug goes up
         L, notes, det = None, [], {}
         reason = f"inductance not computed: {exc}"
@@ -422,8 +436,11 @@ def measure_hot_loop(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
         "partial-inductance sum over straight flat-strip segments, local copper width, layer copper "
         "thickness (Ruehli 1972; Grover 1946 flat-strip equivalent radius)",
         f"plane legs taken at most {MAX_STRIP_WIDTH_MM:g} mm wide"]
-    out.append(measurement("hot_loop.inductance", L_nH, stage, drawings=[path_draw], assumptions=ind_notes,
-                           detail={**det, "segments": len(loop.points)}, **base))
+    if det.get("inductance_method") == "field":
+        ind_notes = common + notes
+    centroid = [polyline(c["points"]) for c in det.get("current_centroid", [])]
+    out.append(measurement("hot_loop.inductance", L_nH, stage, drawings=[path_draw] + centroid,
+                           assumptions=ind_notes, detail={**det, "segments": len(loop.points)}, **base))
     i_sw, v_sw, sw_notes = switch_current(stage, op)
     didt = i_sw / op.edge_s
     dv = L * didt

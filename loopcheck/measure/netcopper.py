@@ -86,6 +86,7 @@ class MeasureContext:
     values: dict[str, str] = field(default_factory=dict)     # ref -> part value text (board, BOM, project)
     connectivity: Any = None       # a connectivity.ConnectivityResult: its copper groups give the nets' copper
     cache: dict[Any, Any] = field(default_factory=dict)
+    inductance_method: str = "field"   # hot-loop inductance: "field" (field solve) or "fast" (path sum)
 
     def value_of(self, ref: str) -> str | None:
         return self.values.get(ref) or self.board.component_values.get(ref)

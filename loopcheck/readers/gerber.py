@@ -88,6 +88,7 @@ class GerberLayer:
     net_copper: dict[str, BaseGeometry] = field(default_factory=dict)
     pin_flashes: list[PinFlash] = field(default_factory=list)
     component_values: dict[str, str] = field(default_factory=dict)
+    component_footprints: dict[str, str] = field(default_factory=dict)   # X3 .CFtp / .CPkg, where given
     object_count: int = 0            # graphic objects after step-and-repeat
     units: str = "mm"                # the file's own units: "mm" or "inch"
     negative: bool = False           # True when the image was inverted (%IPNEG% / negative copper)
@@ -957,6 +958,7 @@ def _pin_flashes_and_values(objects: list, sr_blocks: list[_SRBlock], f_sr: floa
     pins: list[PinFlash] = []
     seen: set = set()
     values: dict[str, str] = {}
+    footprints: dict[str, str] = {}
     copies = [((0.0, 0.0),)] * len(objects)
     for block in sr_blocks:
         for k in range(block.start, block.end):
@@ -970,6 +972,9 @@ def _pin_flashes_and_values(objects: list, sr_blocks: list[_SRBlock], f_sr: floa
         cval = _attr_fields(attrs, ".CVal")
         if c and cval and c[0]:
             values.setdefault(c[0], ",".join(cval))
+        cftp = _attr_fields(attrs, ".CFtp") or _attr_fields(attrs, ".CPkg")   # X3 footprint / package
+        if c and cftp and c[0]:
+            footprints.setdefault(c[0], ",".join(cftp))
         p = _attr_fields(attrs, ".P")
         if not p or len(p) < 2:
             continue
@@ -995,7 +1000,7 @@ def _pin_flashes_and_values(objects: list, sr_blocks: list[_SRBlock], f_sr: floa
             continue
         for dx, dy in offs:
             pins.append(PinFlash(ref, pin, net, x + dx * f_sr, y + dy * f_sr, function))
-    return pins, values
+    return pins, values, footprints
 
 
 def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = DEFAULT_TOL_MM,
@@ -1023,7 +1028,7 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
     try:
         image = _build_image(objects, parser.sr_blocks, f_sr, shapes)
         geometry = image.geometry()
-        pins, values = _pin_flashes_and_values(objects, parser.sr_blocks, f_sr)
+        pins, values, footprints = _pin_flashes_and_values(objects, parser.sr_blocks, f_sr)
     except _ApertureFailure as e:
         number, line = parser.aperture_lines.get(id(e.aperture), (None, None))
         macro = getattr(getattr(e.aperture, "macro", None), "name", None)
@@ -1065,6 +1070,7 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
         net_copper=net_copper,
         pin_flashes=pins,
         component_values=values,
+        component_footprints=footprints,
         object_count=len(objects) + parser.sr_extra,
         units="inch" if target.unit == Inch else "mm",
         negative=negative,

@@ -92,6 +92,8 @@ class CheckResult:
                 n = len(g.labels)
                 out.append(f"{where}{g.module}: {n} measurement{'s' if n != 1 else ''} not made: "
                            f"{g.reason}")
+        # a stage resting on weak evidence is never a clean pass: say what would settle it
+        out += [st.unsure_text() for st in a.stages if getattr(st, "unsure", None)]
         return out
 
     @property
@@ -268,3 +270,12 @@ def report_assumptions(analysis: Analysis) -> list[str]:
     """The board's and the analysis's assumptions (stackup, part values, each stage's operating
     point with its source, the methods), each once."""
     return list(dict.fromkeys(list(analysis.board.assumptions) + list(analysis.assumptions)))
+
+
+def top_shares_text(m: Measurement | None, n: int = 3) -> str:
+    """The largest ``n`` inductance shares of a measurement's detail on one line, largest first
+    ("VIN copper on top 19.3 %, part Q1.2-Q1.3 19.2 %"); "" when the detail has none."""
+    shares = (m.detail.get("inductance_shares") if m is not None else None) or []
+    shares = [s for s in shares if isinstance(s, dict) and "part" in s and "share_pct" in s]
+    shares = sorted(shares, key=lambda s: -float(s["share_pct"]))[:n]
+    return ", ".join(f"{s['part']} {float(s['share_pct']):.1f} %" for s in shares)

@@ -14,6 +14,7 @@ from ..rules.docs import RULE_DOCS
 from .common import (CAUTIONS, CheckResult, checks_by_measurement, finding_id,
                      layout_loss_headline, limits_text, report_assumptions, path_label,
                      sorted_findings, value_text)
+from .loopsvg import HEAT_COLOURS, stage_loop_svg
 from .svg import SEVERITY_COLOURS, WAIVED_COLOUR, board_svg, copper_defs, layer_colour
 
 # the report style, shared by the check and the diff HTML reports
@@ -89,6 +90,35 @@ details summary { cursor:pointer; font-weight:600; }
 dl { margin: 6px 0; } dt { font-weight:600; margin-top:6px; } dd { margin-left: 0; }
 footer { color: var(--muted); font-size: 13px; padding: 12px 32px 30px;
          border-top:1px solid var(--line); }
+.loop-viewer { display:grid; grid-template-columns: minmax(0, 3fr) minmax(240px, 1fr); gap: 18px;
+               align-items:start; margin: 10px 0 14px; }
+.loop-frame { background:#20262d; border-radius: 4px; padding: 8px; }
+.loop-svg { width:100%; height:auto; max-height: 70vh; display:block; }
+.loop-svg .backdrop { fill:#20262d; }
+.loop-svg .outline { fill:#2b4034; stroke:none; }
+.loop-svg .copper { opacity:.55; }
+.loop-svg .loop-area { fill: rgba(255, 96, 72, .28); stroke:none; }
+.loop-svg .loop-path { fill:none; stroke:#ff8a70; stroke-linejoin:round; stroke-linecap:round;
+                       opacity:.9; }
+.loop-svg .loop-path-casing { fill:none; stroke:#000; opacity:.5; stroke-linejoin:round; }
+.loop-svg .loop-centroid { fill:none; stroke:#5cf2ff; stroke-dasharray: 2 1.2;
+                           stroke-linejoin:round; stroke-linecap:round; }
+.loop-svg .loop-via { fill:#20262d; stroke:#ffffff; }
+.loop-svg .loop-pad { fill:none; stroke:#ffffff; opacity:.85; }
+.loop-svg .loop-labels text { fill:#fff; font-weight:700; paint-order: stroke; stroke:#000; }
+.loop-svg .scale-bar path { fill:none; stroke:#fff; }
+.loop-svg .scale-bar text { fill:#fff; }
+.loop-svg .scale-back { fill: rgba(0,0,0,.55); }
+.loop-legend { font-size: 13px; background: var(--panel); border:1px solid var(--line);
+               border-radius: 4px; padding: 10px 12px; }
+.loop-legend .sw { display:inline-block; width:14px; height:10px; margin-right:6px;
+                   vertical-align: middle; border-radius:2px; }
+.loop-legend label { display:block; cursor:pointer; }
+.loop-legend table { font-size: 13px; margin-top: 4px; }
+.loop-legend td, .loop-legend th { padding: 2px 6px; }
+.heat-bar { display:flex; height: 10px; margin: 4px 0 2px; }
+.heat-bar span { flex:1; }
+.heat-ticks { display:flex; justify-content: space-between; font-size: 12px; color: var(--muted); }
 code { font-family: ui-monospace, "DejaVu Sans Mono", monospace; font-size: 13px; }
 """
 
@@ -98,6 +128,104 @@ def _toggle_css(n: int) -> str:
                      for i in range(n)) + "\n" + \
         "#show-overlays:not(:checked) ~ .viewer .overlays { display:none; }\n" + \
         "#show-markers:not(:checked) ~ .viewer .markers { display:none; }\n"
+
+
+def _loop_toggle_css(n_stages: int, n_layers: int) -> str:
+    """Per stage picture: a checkbox per layer for its copper and one for its current density."""
+    rules = []
+    for k in range(n_stages):
+        for i in range(n_layers):
+            for kind, cls in (("zl", "zl"), ("zh", "heat")):
+                box = f"#{kind}-{k}-{i}:not(:checked) ~ .loop-viewer"
+                rules.append(f"{box} .{cls}-{i} {{ display:none; }}")
+                rules.append(f'{box} label[for="{kind}-{k}-{i}"] {{ opacity:.45; '
+                             "text-decoration: line-through; }")
+    return "\n".join(rules) + "\n"
+
+
+def _shares(m) -> list[dict]:
+    """The inductance shares of a measurement's detail, largest first (as given, sorted)."""
+    shares = (m.detail.get("inductance_shares") if m is not None else None) or []
+    shares = [s for s in shares if isinstance(s, dict) and "part" in s and "share_pct" in s]
+    return sorted(shares, key=lambda s: -float(s["share_pct"]))
+
+
+def _stage_loop_figure(result: CheckResult, stage, k: int) -> str:
+    """The stage's hot loop zoomed, its layer and current toggles, the heat-map legend and the
+    table of where the inductance sits."""
+    a = result.analysis
+    board = a.board
+    svg, info = stage_loop_svg(board, stage, a.measurements, key=str(k))
+    if not svg:
+        return ""
+    ind = a.measurement(stage.name, "hot_loop.inductance")
+    h = [f'<div class="loop-figure" id="loop-{escape(stage.name)}"><h3>Hot loop, zoomed</h3>']
+    n = len(board.layers)
+    for i in range(n):
+        shown = " checked" if i in info["layers"] else ""
+        h.append(f'<input type="checkbox" class="toggle" id="zl-{k}-{i}"{shown}>')
+    for i in range(n):
+        h.append(f'<input type="checkbox" class="toggle" id="zh-{k}-{i}" checked>')
+    h.append(f'<div class="loop-viewer"><div class="loop-frame">{svg}</div>'
+             '<div class="loop-legend"><strong>Layers</strong> (click to show or hide)')
+    for i, layer in enumerate(board.layers):
+        used = "" if i in info["layers"] else " <small>(not in the loop)</small>"
+        h.append(f'<label for="zl-{k}-{i}"><span class="sw" style="background:'
+                 f'{layer_colour(i, n)}"></span>{escape(layer.name)} copper{used}</label>')
+        if i in info["heat_layers"]:
+            h.append(f'<label for="zh-{k}-{i}"><span class="sw" style="background:'
+                     f'linear-gradient(90deg,{HEAT_COLOURS[2]},{HEAT_COLOURS[-2]})"></span>'
+                     f'{escape(layer.name)} current density</label>')
+    h.append('<p><strong>Drawn from the measurements</strong></p>')
+    if 'class="loop-path"' in svg:
+        h.append('<div><span class="sw" style="background:rgba(255,96,72,.5)"></span>'
+                 'traced loop path, its area shaded</div>')
+    else:
+        h.append("<div><em>loop not traced: its terminals are shown</em></div>")
+    if ind is not None and ind.detail.get("current_centroid"):
+        h.append('<div><span class="sw" style="background:#5cf2ff"></span>'
+                 'centroid line of the loop current</div>')
+    h.append('<div><span class="sw" style="border:1px solid #555"></span>'
+             'loop terminals and vias (hover for names)</div>')
+    scale = info.get("scale")
+    if scale is not None:
+        edges = scale.edges
+        h.append('<p><strong>Current density</strong> (A/mm per A in the loop, log scale)</p>'
+                 '<div class="heat-bar">' + "".join(f'<span style="background:{c}"></span>'
+                                                    for c in HEAT_COLOURS) + "</div>"
+                 f'<div class="heat-ticks"><span>{edges[0]:.3g}</span>'
+                 f'<span>{edges[len(edges) // 2]:.3g}</span><span>{edges[-1]:.3g}</span></div>')
+    else:
+        why = "the inductance was not measured"
+        if ind is not None and ind.value is not None:
+            method = ind.detail.get("inductance_method")
+            why = ("the inductance comes from the fast path estimate" if method == "fast"
+                   else "the measurement carries no current density")
+        h.append(f"<p><small>No current-density map: {escape(why)}.</small></p>")
+    if ind is not None and ind.value is not None:
+        method = ind.detail.get("inductance_method")
+        mesh = ind.detail.get("mesh") or {}
+        line = {"field": "field solve", "fast": "fast path estimate"}.get(method, method or "")
+        if line:
+            extra = ""
+            if mesh.get("fine_mm") is not None and mesh.get("cells") is not None:
+                extra = f"; mesh {mesh['fine_mm']:g} mm finest, {mesh['cells']} cells"
+            h.append(f"<p><small>Inductance by the {escape(line)}{escape(extra)}.</small></p>")
+    shares = _shares(ind)
+    if shares:
+        h.append('<p><strong>Where the inductance sits</strong></p><table class="shares">'
+                 "<thead><tr><th>part of the loop</th><th>share</th></tr></thead><tbody>")
+        shown = [s for s in shares if abs(float(s["share_pct"])) >= 0.05]
+        for s in shown:
+            h.append(f'<tr><td>{escape(str(s["part"]))}</td>'
+                     f'<td class="num">{float(s["share_pct"]):.1f} %</td></tr>')
+        h.append("</tbody></table>")
+        if len(shown) < len(shares):
+            rest = len(shares) - len(shown)
+            h.append(f"<p><small>and {rest} part{'s' if rest != 1 else ''} under 0.1 % "
+                     "(all in the JSON report)</small></p>")
+    h.append("</div></div></div>")
+    return "".join(h)
 
 
 def render_html(result: CheckResult) -> str:
@@ -113,7 +241,8 @@ def render_html(result: CheckResult) -> str:
     h.append("<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">")
     h.append('<meta name="viewport" content="width=device-width, initial-scale=1">')
     h.append(f"<title>loopcheck: {escape(board.name)}</title>")
-    h.append(f"<style>{REPORT_CSS}{_toggle_css(len(board.layers))}</style></head><body>")
+    h.append(f"<style>{REPORT_CSS}{_toggle_css(len(board.layers))}"
+             f"{_loop_toggle_css(len(a.stages), len(board.layers))}</style></head><body>")
 
     # --- header with the verdict ---
     counts = result.counts()
@@ -232,7 +361,7 @@ def render_html(result: CheckResult) -> str:
     h.append("</section>")
 
     # --- measurements per stage ---
-    for stage in a.stages:
+    for k, stage in enumerate(a.stages):
         h.append(f'<section id="stage-{escape(stage.name)}"><h2>Stage {escape(stage.name)}: '
                  f'{escape(stage.topology)}</h2>')
         nets = ", ".join(f"{k} <code>{escape(v)}</code>" for k, v in (
@@ -271,7 +400,9 @@ def render_html(result: CheckResult) -> str:
                          f'<td>{escape(limits_text(c, None))}</td>'
                          f'<td class="st-not-made">{escape(c.status)}</td>'
                          f'<td>{escape(c.rule)}</td></tr>')
-        h.append("</tbody></table></section>")
+        h.append("</tbody></table>")
+        h.append(_stage_loop_figure(result, stage, k))
+        h.append("</section>")
 
     # --- each layer on its own ---
     h.append('<section id="layers"><h2>Copper layers</h2><div class="layers">')

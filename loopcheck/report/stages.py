@@ -35,6 +35,10 @@ def stages_data(board_name: str, search: StageSearch) -> dict[str, Any]:
                        "confidence": r.confidence, "evidence": r.evidence} for r in st.roles],
             "hot_loop": list(st.hot_loop),
             "missing": list(st.missing),
+            "evidence": list(st.evidence),
+            "unsure": list(st.unsure),
+            "confirm_lines": list(st.confirm_lines),
+            "not_measured": st.not_measured or None,
             "operating_point": {f.name: getattr(op, f.name) for f in fields(OperatingPoint) if f.name != "sources"},
             "operating_point_sources": dict(op.sources),
         })
@@ -67,6 +71,8 @@ def render_text(board_name: str, search: StageSearch) -> str:
         lines.append(f"stage {st.name}: {st.topology}, {st.switching} switching (confidence {st.confidence:.2f})")
         lines.append(f"  nets: switch node {st.switch_node}, input {st.input_net}, output {st.output_net}, "
                      f"ground {st.ground_net}")
+        for e in st.evidence:
+            lines.append(f"  why: {e}")
         for r in st.roles:
             pins = "; ".join(f"{k} {','.join(v)}" for k, v in r.pins.items() if v)
             lines.append(f"  {r.name:<22} {r.ref:<6} {r.confidence:.2f}  {' '.join(r.terminals) if len(r.terminals) <= 4 else ''}"
@@ -80,6 +86,13 @@ def render_text(board_name: str, search: StageSearch) -> str:
             lines.append("  hot loop: not found")
         for m in st.missing:
             lines.append(f"  missing: {m}")
+        if st.not_measured:
+            lines.append(f"  not measured: {st.not_measured}")
+        for u in st.unsure:
+            lines.append(f"  unsure: {u}")
+        if st.confirm_lines:
+            lines.append("  confirm or correct in loopcheck.toml (stages --write-project writes these):")
+            lines += [f"    {x}" for x in st.confirm_lines]
         lines.append("  operating point: " + _op_text(st.operating_point))
     if search.messages:
         lines.append("")
@@ -148,7 +161,13 @@ def project_text(project, board, search: StageSearch, path: Path) -> str:
 
 def _stage_lines(stage: Stage) -> list[str]:
     name = _key(stage.name)
+    if stage.not_measured:
+        # a topology the project file cannot name (it is not measured): listed for the reader only
+        return [f"# {stage.name}: {stage.topology} at {stage.switch_node} "
+                f"({', '.join(r.ref for r in stage.roles)}): not measured", ""]
     out = [f"[stages.{name}]", f"topology = {_value(stage.topology)}"]
+    for u in stage.unsure:
+        out.append(f"# unsure: {u}: check it against the schematic")
     single = ("switch", "rectifier", "inductor", "sense_resistor", "controller", "controller_decoupling")
     for role in single:
         r = stage.role(role)

@@ -10,7 +10,7 @@ import textwrap
 from ..findings import SEVERITIES
 from .common import (CAUTION_LINE, CheckResult, checks_by_measurement, layout_loss_headline,
                      limits_text, not_made_groups, report_assumptions, path_label,
-                     sorted_findings, value_text)
+                     sorted_findings, top_shares_text, value_text)
 
 WIDTH = 100            # a terminal of 100 columns shows every line whole
 
@@ -57,6 +57,7 @@ def render_text(result: CheckResult) -> str:
             lines.append(f"  missing: {miss}")
         lines.append("  " + layout_loss_headline(a.measurement(stage.name, "layout_loss")))
         rows = [("measurement", "value", "limits", "status")]
+        after: dict[int, list[str]] = {}       # lines under a row: where the inductance sits
         for m in a.measurements_for(stage.name):
             if m.value is None:
                 continue                       # listed below, by module and reason
@@ -65,13 +66,16 @@ def render_text(result: CheckResult) -> str:
             status = _STATUS_WORD.get(check.status, check.status) if check else ""
             rows.append((path_label(m), value_text(m.value, m.unit), limits_text(check, m.unit),
                          status))
+            shares = top_shares_text(m)
+            if shares and m.quantity == "hot_loop.inductance":
+                after[len(rows) - 1] = [f"    largest shares: {shares}"]
         # rules the stage could not be checked on (no measurement at all)
         for c in result.evaluation.checks:
             if c.stage == stage.name and c.measurement is None:
                 rows.append((f"{c.rule}", "not measured", limits_text(c, None),
                              _STATUS_WORD.get(c.status, c.status)))
         if len(rows) > 1:
-            lines.extend(_table(rows, indent="  "))
+            lines.extend(_table(rows, indent="  ", after=after))
         mine = [g for g in groups if g.stage == stage.name]
         if mine:
             n = sum(len(g.labels) for g in mine)
@@ -178,15 +182,20 @@ def wrap_lines(lines: list[str], width: int = WIDTH) -> list[str]:
     return out
 
 
-def _table(rows: list[tuple[str, ...]], indent: str = "", width: int = WIDTH) -> list[str]:
-    """Columns padded to their widest cell; the first column wraps so the table fits ``width``."""
+def _table(rows: list[tuple[str, ...]], indent: str = "", width: int = WIDTH,
+           after: dict[int, list[str]] | None = None) -> list[str]:
+    """Columns padded to their widest cell; the first column wraps so the table fits ``width``.
+    ``after`` maps a row's index to lines printed under it (indented by ``indent``)."""
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     room = width - len(indent) - sum(widths[1:]) - 2 * (len(widths) - 1)
     widths[0] = max(min(widths[0], room), 20)
-    out = []
+    out: list[str] = []
+    out_rows: list[tuple[str, ...]] = []
     for r in rows:
         first = textwrap.wrap(r[0], widths[0], break_on_hyphens=False) or [""]
         cells = [first[0].ljust(widths[0])] + [c.ljust(w) for c, w in zip(r[1:], widths[1:])]
         out.append((indent + "  ".join(cells)).rstrip())
         out.extend((indent + "  " + more).rstrip() for more in first[1:])
+        out.extend(indent + extra for extra in (after or {}).get(len(out_rows), []))
+        out_rows.append(r)
     return out

@@ -90,20 +90,25 @@ _DOCS = (
     RuleDoc(
         name="hot-loop-inductance",
         title="Switching-loop inductance",
-        measures="A partial-inductance estimate, in nH, of the switching loop's copper and vias.",
+        measures="The switching loop's inductance, in nH, from a field solve of the copper around "
+                 "it (default; `--inductance fast` gives the path estimate instead).",
         why="The loop inductance times the current slew rate is the voltage spike the switch "
             "sees at each edge; with the switch capacitance it sets the ringing frequency; the "
             "energy it stores is lost or radiated every edge.",
         fix="Shorten the loop, widen its copper and run the return on the adjacent layer right "
             "under the outgoing path (a thin dielectric helps); use several vias in parallel "
-            "where the loop changes layer.",
-        formula="L = sum_i sum_j s_i s_j M_ij over the loop's straight segments: self partial "
-                "inductance of each flat strip (Grover's bar formula) and Neumann mutual "
-                "inductances between segments, plus 5.08 h [ln(4h/d) + 1] nH per via (h, d in "
-                "inches); a solid plane under the loop adds its mirror image.",
-        limits="Copper taken at its centre line with a uniform current; the capacitor and "
-               "switch package inductance is not included; high-frequency current crowding "
-               "is not modelled.",
+            "where the loop changes layer. The measurement lists the share of the inductance "
+            "in each stretch of copper, via group and part: fix the largest first.",
+        formula="Field (default): the copper within a window around the loop, on every layer, cut "
+                "into rectangular cells; L_p from the exact bar formula (Hoer and Love 1965) for "
+                "near cells and filaments for far ones; the current of least magnetic energy "
+                "under Kirchhoff's current law, C^T L_p C x = c_s, L = I^T L_p I for 1 A (Ruehli "
+                "1974; Kamon, Tsuk and White 1994). Fast: L = sum_i sum_j s_i s_j M_ij over the "
+                "traced path's flat-strip segments (Grover's bar formula, Neumann mutuals), "
+                "minus the mutual with its mirror image where a solid plane lies under it.",
+        limits="Field: copper beyond the window is not seen; parts are straight strips between "
+               "their pad centres (package inductance not included); the high-frequency limit "
+               "(no resistance). Fast: copper at its traced centre line with uniform current.",
         group="switching loop",
     ),
     RuleDoc(

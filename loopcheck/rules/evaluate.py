@@ -204,6 +204,18 @@ def _where(m: Measurement) -> str:
     return ""
 
 
+def _largest_share(m: Measurement) -> str:
+    """"; largest share: PART (x %)" naming the part of the loop that holds the largest share of
+    an inductance (the field solve's ``inductance_shares``), so the finding says what to fix;
+    "" when the measurement carries no shares."""
+    shares = [s for s in (m.detail.get("inductance_shares") or [])
+              if isinstance(s, dict) and "part" in s and "share_pct" in s]
+    if not shares:
+        return ""
+    top = max(shares, key=lambda s: float(s["share_pct"]))
+    return f"; largest share: {top['part']} ({fmt(float(top['share_pct']))} %)"
+
+
 def _finding(rule: Rule, m: Measurement, level: str, limit: float) -> Finding:
     word = "above" if rule.direction == "above" else "below"
     unit = m.unit if m.unit != "count" else ""
@@ -216,6 +228,7 @@ def _finding(rule: Rule, m: Measurement, level: str, limit: float) -> Finding:
     else:
         msg = f"{stage}{_label(rule, m, m.quantity)}{_where(m)} is {value_txt}, {word} the " \
               f"{level} limit of {limit_txt}"
+    msg += _largest_share(m)
     return Finding(rule=rule.name, severity=level, message=msg, stage=m.stage,
                    value=float(m.value), limit=limit, unit=m.unit, x_mm=m.x_mm, y_mm=m.y_mm,
                    layer=m.layer, nets=tuple(m.nets), terminals=tuple(m.terminals),

@@ -1,0 +1,435 @@
+"""The hot loop's inductance from a field solve of the copper around it (the default method).
+
+The copper within a window around the loop is meshed on every layer (``physics.loopsolve``):
+a rectilinear grid, fine at the edges of the loop's conductors and pads and coarser away from
+them, whose cells take the copper island their centre lies in. Islands of the loop's nets are
+joined through their vias and plated holes; the loop's parts are straight links between their
+pad centres; islands of other nets (planes, pours) are meshed the same way and carry only the
+eddy currents the loop induces in them. The current of least magnetic energy for 1 A in the
+loop gives the inductance, the current density per layer, the centroid line of the current
+in each leg of the loop, and the share of the inductance that sits in each stretch of copper,
+via group and part.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+from shapely.geometry import LineString, box
+
+from ..board import Pad
+from ..physics import loopsolve
+from .netcopper import MeasureContext, layer_thickness_m, layer_z_mm, pad_polygon
+
+MAX_BRANCHES = 3200        # cells of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
+MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy loop worth meshing
+EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
+EDGE_MAX_LINES = 24         # ... at most this many extra cell edges per axis, those nearest the loop first
+FINE_MM = (0.1, 0.4)        # finest cell: a third of the narrowest loop conductor, within these bounds
+PACKAGE_INDUCTANCE_NOTE = ("a part is a straight strip between its pad centres, as wide as its smaller pad; "
+                           "the package's own inductance beyond that strip is taken as zero (no table of "
+                           "package inductances is applied)")
+
+
+@dataclass
+class FieldLoop:
+    """Result of the field solve of one loop (lengths mm, inductance H, per 1 A in the loop)."""
+
+    inductance_h: float
+    assumptions: list[str]
+    detail: dict
+    centroid_legs: list[tuple[str, list[tuple[float, float]]]] = field(default_factory=list)
+    centroid_loop: list[tuple[float, float]] = field(default_factory=list)
+
+
+class FieldSolveError(Exception):
+    """The field solve could not be set up (no loop in the meshed copper); the reason in words."""
+
+
+def _legs(ctx: MeasureContext, terminals):
+    pads = [ctx.board.terminals[t] for t in terminals]
+    n = len(pads)
+    out = []
+    for k in range(n):
+        a, b = pads[k], pads[(k + 1) % n]
+        if a.ref and a.ref == b.ref:
+            out.append((a, b, "part"))
+        elif a.net == b.net:
+            out.append((a, b, "net"))
+        else:
+            out.append((a, b, "gap"))
+    return out
+
+
+def _pad_size(p: Pad) -> float:
+    dims = [x for x in (p.width_mm, p.height_mm) if x] or [x for x in (p.hole_mm,) if x]
+    return min(dims) if dims else 0.6
+
+
+def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float | None = None,
+               max_branches: int = MAX_BRANCHES):
+    """The sheet mesh of the window around ``loop`` (a hotloop.LoopPath); ``scale`` multiplies
+    the cell sizes (the mesh-convergence check halves it). Returns (mesh, island nets, notes)."""
+    board = ctx.board
+    z_mm = layer_z_mm(board)
+    nl = len(board.layers)
+    xs = [p[0] for p in loop.points]
+    ys = [p[1] for p in loop.points]
+    pads = [ctx.board.terminals[t] for t in loop.terminals]
+    span = max(max(xs) - min(xs), max(ys) - min(ys), 1.0)
+    stack = (max(z_mm) - min(z_mm)) if nl > 1 else 1.6
+    margin = margin_mm if margin_mm is not None else float(np.clip(max(0.3 * span, 2.5 * stack), 3.0, 10.0))
+    x0, x1 = min(xs) - margin, max(xs) + margin
+    y0, y1 = min(ys) - margin, max(ys) + margin
+    wmin = min([w for w in loop.widths_mm if w > 0] + [_pad_size(p) for p in pads])
+    hs = [abs(z_mm[k] - z_mm[k + 1]) for k in range(nl - 1)]
+    fine = float(np.clip(min(wmin / 3, min(hs) if hs else 1.0), *FINE_MM)) * scale
+    coarse = float(np.clip(span / 10, 0.8, 3.0)) * scale
+    fx, fy = [], []
+    path = LineString([(p[0], p[1]) for p in loop.points] + [loop.points[0][:2]])
+    n = len(loop.points)
+    for i in range(n):
+        a, b = loop.points[i], loop.points[(i + 1) % n]
+        w = loop.widths_mm[i] if i < len(loop.widths_mm) else wmin
+        dx, dy = abs(b[0] - a[0]), abs(b[1] - a[1])
+        for p in (a, b):
+            fx.append(p[0]); fy.append(p[1])
+        if dx >= dy:
+            fy += [a[1] - w / 2, a[1] + w / 2, b[1] - w / 2, b[1] + w / 2]
+        if dy >= dx:
+            fx += [a[0] - w / 2, a[0] + w / 2, b[0] - w / 2, b[0] + w / 2]
+    for p in pads:
+        s = pad_polygon(p).bounds
+        fx += [s[0], s[2]]; fy += [s[1], s[3]]
+    # the edges of the loop nets' copper near the loop: the high-frequency current crowds there
+    near = path.buffer(EDGE_REACH_MM)
+    edge_xy = []
+    for net in dict.fromkeys(p.net for p in pads):
+        for g in ctx.net_copper(net).values():
+            part = g.intersection(near)
+            if not part.is_empty:
+                edge_xy.append(shapely.get_coordinates(shapely.boundary(part)))
+    ex, ey = [], []
+    if edge_xy:
+        xy = np.vstack(edge_xy)
+        order = np.argsort(shapely.distance(path, shapely.points(xy)))
+        limit = int(round(EDGE_MAX_LINES / scale))
+        ex = _nearest_first(xy[order, 0], fx, fine, limit)
+        ey = _nearest_first(xy[order, 1], fy, fine, limit)
+    # nearby plated holes of the loop's nets: their cells are made to hold copper
+    window = box(x0, y0, x1, y1)
+    nets = list(dict.fromkeys(p.net for p in pads))
+    vias = []
+    for net in nets:
+        for (vx, vy, dia, layers) in ctx.via_sites(net):
+            if window.contains(shapely.points(vx, vy)):
+                vias.append((vx, vy, dia, layers, net))
+                if path.distance(shapely.points(vx, vy)) < 1.0:
+                    fx += [vx - dia / 2 - 0.1, vx + dia / 2 + 0.1]
+                    fy += [vy - dia / 2 - 0.1, vy + dia / 2 + 0.1]
+    # within the cell budget: first a faster growth, then without the copper-edge lines, then
+    # coarser cells (the finest kept below the narrowest loop conductor as long as possible)
+    plan = [(True, 1.5, 1.0, 1.0, 1.0), (True, 2.0, 1.0, 1.5, 1.0), (False, 2.0, 1.0, 1.5, 1.0),
+            (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 0.6), (False, 2.5, 1.0, 3.5, 0.35)]
+    plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 0.35) for k in range(1, 8)]
+    bx = (min(xs), min(ys), max(xs), max(ys))
+    for edges, growth, kf, kc, km in plan:
+        f, c = fine * kf, coarse * kc
+        m = max(1.5, margin * km)      # a smaller window before coarser cells: thin traces stay meshed
+        x0, y0, x1, y1 = bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m
+        window = box(x0, y0, x1, y1)
+        xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f, c, growth)
+        ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f, c, growth)
+        labels, island_net = _labels(ctx, xe, ye, window, nets)
+        ncell = int(np.sum(labels >= 0))
+        if 2 * ncell <= max_branches:
+            break
+    fine, coarse = f, c
+    vias = [v for v in vias if x0 < v[0] < x1 and y0 < v[1] < y1]
+    mesh = loopsolve.SheetMesh(np.asarray(xe) * 1e-3, np.asarray(ye) * 1e-3, labels,
+                               np.asarray(z_mm) * 1e-3, np.array([layer_thickness_m(board, k) for k in range(nl)]))
+    notes = [f"field solve window {x1 - x0:.1f} x {y1 - y0:.1f} mm around the loop, all {nl} copper layers; "
+             f"cells {fine:.2f} mm at the loop's conductor edges growing to {coarse:.2f} mm "
+             f"({int(np.sum(labels >= 0))} copper cells)"]
+    return mesh, island_net, vias, notes, (fine, coarse)
+
+
+def _nearest_first(values, existing, tol, limit: int = None) -> list[float]:
+    """Up to ``limit`` coordinates from ``values`` (nearest the loop first) that are not within
+    ``tol`` of one already taken: copper edges grade the mesh without flooding it with lines."""
+    limit = EDGE_MAX_LINES if limit is None else limit
+    taken = sorted(existing)
+    out: list[float] = []
+    arr = np.asarray(taken)
+    for v in values:
+        if len(out) >= limit:
+            break
+        if arr.size and np.min(np.abs(arr - v)) < tol:
+            continue
+        out.append(float(v))
+        arr = np.append(arr, v)
+    return out
+
+
+def _thin(values, tol):
+    """Feature coordinates closer than ``tol`` merged (a cell edge each)."""
+    v = np.sort(np.asarray(values, dtype=float))
+    if len(v) == 0:
+        return v
+    keep = np.concatenate([[True], np.diff(v) > tol])
+    return v[keep]
+
+
+def _labels(ctx: MeasureContext, xe, ye, window, nets):
+    """Island id per cell and layer (-1 no copper), and the net of each loop-net island (None other)."""
+    board = ctx.board
+    xc = 0.5 * (np.asarray(xe[1:]) + np.asarray(xe[:-1]))
+    yc = 0.5 * (np.asarray(ye[1:]) + np.asarray(ye[:-1]))
+    X, Y = np.meshgrid(xc, yc, indexing="ij")
+    labels = np.full((len(board.layers), len(xc), len(yc)), -1, dtype=int)
+    island_net: list[str | None] = []
+    net_cu = {net: ctx.net_copper(net) for net in nets}
+    for k in range(len(board.layers)):
+        polys, tree = ctx.islands(k)
+        if not polys:
+            continue
+        for idx in tree.query(window, predicate="intersects"):
+            poly = polys[int(idx)]
+            owner = None
+            claims = []
+            for net in nets:
+                g = net_cu[net].get(k)
+                if g is not None and poly.intersects(g):
+                    share = poly.intersection(g).area / max(poly.area, 1e-12)
+                    if share > 0.5 or poly.intersection(g).area > 0.5 * g.area:
+                        claims.append((share, net))
+            if len(claims) > 1:
+                raise FieldSolveError(
+                    f"the copper of {' and '.join(n for _, n in claims)} is one island on "
+                    f"{board.layers[k].name} (joined in the copper as read): the loop's nets cannot be told apart")
+            if claims:
+                owner = claims[0][1]
+            clip = poly.intersection(window)
+            if owner is None and clip.area < MIN_OTHER_ISLAND_MM2:
+                continue
+            b = clip.bounds
+            if not b or b[0] >= b[2]:
+                continue
+            i0, i1 = np.searchsorted(xc, b[0]), np.searchsorted(xc, b[2])
+            j0, j1 = np.searchsorted(yc, b[1]), np.searchsorted(yc, b[3])
+            if i1 <= i0 or j1 <= j0:
+                continue
+            sub = shapely.contains_xy(clip, X[i0:i1, j0:j1], Y[i0:i1, j0:j1])
+            if not sub.any():
+                continue
+            lab = len(island_net)
+            island_net.append(owner)
+            view = labels[k, i0:i1, j0:j1]
+            view[sub] = lab
+    return labels, island_net
+
+
+def _node_cell(mesh, k: int, x_mm: float, y_mm: float, want: set[int] | None, reach_mm: float):
+    """The labelled cell nearest (x, y) on layer k (its label in ``want`` if given) within reach."""
+    xc, yc = mesh.x_centres * 1e3, mesh.y_centres * 1e3
+    lab = mesh.labels[k]
+    i = int(np.clip(np.searchsorted(mesh.x_edges * 1e3, x_mm) - 1, 0, len(xc) - 1))
+    j = int(np.clip(np.searchsorted(mesh.y_edges * 1e3, y_mm) - 1, 0, len(yc) - 1))
+    if lab[i, j] >= 0 and (want is None or lab[i, j] in want):
+        return i, j
+    ii = np.nonzero(np.abs(xc - x_mm) <= reach_mm)[0]
+    jj = np.nonzero(np.abs(yc - y_mm) <= reach_mm)[0]
+    if len(ii) == 0 or len(jj) == 0:
+        return None
+    sub = lab[np.ix_(ii, jj)]
+    ok = sub >= 0
+    if want is not None:
+        ok &= np.isin(sub, list(want))
+    if not ok.any():
+        return None
+    d = (xc[ii][:, None] - x_mm) ** 2 + (yc[jj][None, :] - y_mm) ** 2
+    d = np.where(ok, d, np.inf)
+    a, b = np.unravel_index(int(np.argmin(d)), d.shape)
+    return int(ii[a]), int(jj[b])
+
+
+def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz: float | None = None,
+                     margin_mm: float | None = None, max_branches: int = MAX_BRANCHES) -> FieldLoop:
+    """Field solve of the closed loop ``loop`` (hotloop.LoopPath). Raises FieldSolveError.
+
+    ``scale`` multiplies the cell sizes and ``max_branches`` caps the cells (the mesh is
+    coarsened until it fits); the mesh-convergence check halves the cells with a raised cap."""
+    board = ctx.board
+    mesh, island_net, vias, notes, (fine, coarse) = build_mesh(ctx, loop, scale, margin_mm, max_branches)
+    names = [l.name for l in board.layers]
+    # islands of each loop net
+    net_islands: dict[str, set[int]] = {}
+    for lab, net in enumerate(island_net):
+        if net is not None:
+            net_islands.setdefault(net, set()).add(lab)
+    # vias: only where both ends land in the net's meshed copper
+    via_specs = []
+    via_net = []
+    for vx, vy, dia, layers, net in vias:
+        via_specs.append((vx * 1e-3, vy * 1e-3, tuple(layers), dia * 1e-3, net_islands.get(net, set())))
+        via_net.append(net)
+    links = []
+    link_names = []
+    legs = _legs(ctx, loop.terminals)
+    reach = max(1.5 * coarse, 1.0)
+    moved = 0
+    for a, b, kind in legs:
+        if kind == "net":
+            continue
+        common = [l for l in a.layers if l in b.layers]
+        ends = []
+        for p in (a, b):
+            layers = ([l for l in common if l in p.layers] or list(p.layers) or [0])
+            want = net_islands.get(p.net, set()) or None
+            cell = None
+            for l in layers:
+                cell = _node_cell(mesh, l, p.x_mm, p.y_mm, want, max(reach, _pad_size(p)))
+                if cell is not None:
+                    break
+            if cell is None:
+                raise FieldSolveError(f"no copper of {p.net} meshed under {p.terminal}")
+            i, j = cell
+            ends.append((float(mesh.x_centres[i]), float(mesh.y_centres[j]), l))
+        width = min(_pad_size(a), _pad_size(b)) * 1e-3
+        links.append((ends[0], ends[1], width, 0.0))
+        link_names.append(f"{a.terminal}-{b.terminal}" if kind == "part" else f"{a.terminal}~{b.terminal} (gap)")
+    if not links:
+        raise FieldSolveError("the loop passes no part: nothing to drive it")
+    con, via_branches, _ = loopsolve.sheet_conductors(mesh, _resistivity(board), via_specs, links)
+    try:
+        sol = loopsolve.solve_loop(con, 0, frequency_hz=frequency_hz)
+    except ValueError as exc:
+        raise FieldSolveError(str(exc)) from None
+    except np.linalg.LinAlgError as exc:
+        raise FieldSolveError(f"the loop equations are singular: {exc}") from None
+    L = sol.inductance_h
+    nb = len(con.bar_nodes)
+    # ---- where the inductance sits
+    node = mesh.node_index
+    kk, ii, jj = np.nonzero(node >= 0)
+    flat = np.full(con.n_nodes, -1)
+    flat[node[kk, ii, jj]] = np.arange(len(kk))
+    n0 = flat[con.bar_nodes[:, 0]]
+    bar_layer = kk[n0]
+    bar_label = mesh.labels[kk[n0], ii[n0], jj[n0]]
+    groups: dict[str, float] = {}
+    is_via = np.zeros(nb, dtype=bool)
+    for vb, net in zip(via_branches, via_net):
+        for b in vb:
+            is_via[b] = True
+            groups[f"vias of {net}"] = groups.get(f"vias of {net}", 0.0) + float(sol.energy_share[b])
+    for b in np.nonzero(~is_via)[0]:
+        net = island_net[bar_label[b]] if bar_label[b] >= 0 else None
+        key = f"{net} copper on {names[bar_layer[b]]}" if net else f"other copper on {names[bar_layer[b]]} (eddy)"
+        groups[key] = groups.get(key, 0.0) + float(sol.energy_share[b])
+    for k, nm in enumerate(link_names):
+        key = f"part {nm}"
+        groups[key] = groups.get(key, 0.0) + float(sol.energy_share[nb + k])
+    # copper carrying only eddy current has no share: at the least-energy current its loops
+    # satisfy C_e^T Lp I = 0, so sum I_e (Lp I)_e = 0; its effect shows as the lower mutual
+    # terms in the shares of the loop's own copper
+    shares = sorted(({"part": k, "share_pct": round(100 * v, 1)} for k, v in groups.items()
+                     if "(eddy)" not in k), key=lambda d: -abs(d["share_pct"]))
+    # ---- current density per layer and the centroid lines
+    J = loopsolve.sheet_current_density(mesh, con, sol.currents)
+    mag = np.hypot(J[..., 0], J[..., 1])
+    jmax = float(mag.max()) if mag.size else 0.0
+    dxm, dym = np.diff(mesh.x_edges) * 1e3, np.diff(mesh.y_edges) * 1e3
+    xcm, ycm = mesh.x_centres * 1e3, mesh.y_centres * 1e3
+    density: dict[str, list] = {}
+    for k in range(len(names)):
+        sel = np.nonzero(mag[k] > 0.02 * jmax)
+        if len(sel[0]) == 0:
+            continue
+        density[names[k]] = [[round(float(xcm[i]), 3), round(float(ycm[j]), 3), round(float(dxm[i]), 3),
+                              round(float(dym[j]), 3), round(float(J[k, i, j, 0]) * 1e-3, 4),
+                              round(float(J[k, i, j, 1]) * 1e-3, 4)] for i, j in zip(*sel)]
+    legs_out, loop_pts = _centroid_legs(ctx, loop, mesh, mag, legs)
+    notes += [
+        "partial-element field solve (Ruehli 1974; Kamon, Tsuk and White 1994): rectangular sheet cells with "
+        "exact bar partial inductances (Hoer and Love 1965) for near pairs, filaments for far ones; the "
+        "current of least magnetic energy (inductive limit, high frequency) for 1 A in the loop",
+        "copper of other nets in the window is meshed and carries the induced (eddy) current, no net current; "
+        "copper beyond the window is not seen (no images)",
+        "vias and plated holes of the loop's nets join their layers (a barrel of the drilled diameter)",
+        PACKAGE_INDUCTANCE_NOTE,
+    ]
+    detail = {
+        "inductance_method": "field",
+        "mesh": {"fine_mm": round(fine, 3), "coarse_mm": round(coarse, 3), "cells": int(nb),
+                 "links": len(links), "vias": sum(1 for v in via_branches if v), "loops": sol.n_loops},
+        "inductance_shares": shares,
+        "eddy_conductors": sum(1 for n in island_net if n is None),
+        "current_density_a_per_mm": density,   # per layer: [x, y, dx, dy, Jx, Jy] (mm, A/mm per A in the loop)
+        "current_centroid": [{"net": net, "points": [[round(x, 3), round(y, 3)] for x, y in pts]}
+                             for net, pts in legs_out],
+    }
+    if loop_pts:
+        from .hotloop import enclosed_area
+        area, _ = enclosed_area(loop_pts)
+        detail["centroid_area_mm2"] = round(area, 2)
+    if frequency_hz is not None:
+        detail["frequency_hz"] = frequency_hz
+        detail["resistance_mohm"] = sol.resistance_ohm * 1e3
+    return FieldLoop(L, notes, detail, legs_out, loop_pts)
+
+
+def _resistivity(board) -> float:
+    from ..physics.copper import resistivity
+    rho = board.stackup.resistivity_ohm_m
+    return float(rho) if rho else float(resistivity(20.0))
+
+
+def _centroid_legs(ctx: MeasureContext, loop, mesh, mag, legs):
+    """Centroid line of the current in each copper leg of the loop: the cells of the leg's net,
+    binned by where they project on the leg's route, each bin's current-weighted centre."""
+    out = []
+    pts: list[tuple[float, float]] = []
+    routes = {(r.start, r.end): r for r in loop.routes}
+    xcm, ycm = mesh.x_centres * 1e3, mesh.y_centres * 1e3
+    area = np.outer(np.diff(mesh.x_edges), np.diff(mesh.y_edges)) * 1e6
+    X, Y = np.meshgrid(xcm, ycm, indexing="ij")
+    for a, b, kind in legs:
+        if kind != "net" or (a.terminal, b.terminal) not in routes:
+            pts += [(a.x_mm, a.y_mm), (b.x_mm, b.y_mm)]
+            continue
+        r = routes[(a.terminal, b.terminal)]
+        line = LineString(r.xy) if len(r.points) > 1 else None
+        cu = ctx.net_copper(a.net)
+        wx, wy, ww, ss = [], [], [], []
+        for k, g in cu.items():
+            if k >= mesh.labels.shape[0]:
+                continue
+            m = (mesh.labels[k] >= 0) & (mag[k] > 0)
+            if not m.any():
+                continue
+            inside = m.copy()
+            inside[m] = shapely.contains_xy(g, X[m], Y[m])
+            if not inside.any():
+                continue
+            wx.append(X[inside]); wy.append(Y[inside]); ww.append(mag[k][inside] * area[inside])
+        if not wx or line is None or line.length == 0:
+            pts += [(a.x_mm, a.y_mm), (b.x_mm, b.y_mm)]
+            continue
+        x, y, w = np.concatenate(wx), np.concatenate(wy), np.concatenate(ww)
+        s = shapely.line_locate_point(line, shapely.points(x, y))
+        nbin = int(np.clip(line.length / 0.5, 3, 40))
+        edges = np.linspace(0, line.length, nbin + 1)
+        which = np.clip(np.searchsorted(edges, s) - 1, 0, nbin - 1)
+        leg = [(a.x_mm, a.y_mm)]
+        for q in range(nbin):
+            sel = which == q
+            if np.sum(w[sel]) > 0:
+                leg.append((float(np.average(x[sel], weights=w[sel])), float(np.average(y[sel], weights=w[sel]))))
+        leg.append((b.x_mm, b.y_mm))
+        out.append((a.net, leg))
+        pts += leg
+    return out, pts
