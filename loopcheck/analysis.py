@@ -53,12 +53,19 @@ METHOD_ASSUMPTIONS = (
     "routes: centreline-weighted shortest paths on a raster of each net's copper (0.05 mm pitch, "
     "coarser on large nets), layers joined at vias and plated holes",
     "switching-loop return current is drawn under the conductor that carries it out where the copper allows",
-    "inductance: partial-inductance sum of straight flat-strip segments; solid planes on the adjacent "
-    "layer (and a return plane the loop's current runs in) act as perfect-conductor images",
     "DC resistance and sense error: finite-volume DC solve of the copper sheets, pads as equipotential contacts",
     "temperature rise: IPC-2221 curve fit and an IPC-2152-style fit at the narrowest point of each path",
     "the tool estimates; it does not certify (mains-powered LED drivers need their own safety review)",
 )
+
+
+INDUCTANCE_METHODS = {
+    "field": "loop inductance: partial-element field solve of the loop's copper in a window around it "
+             "(sheet cells on every layer, vias, parts as straight links; other nets' copper carries eddy "
+             "current only); where it cannot run, the route estimate, saying so",
+    "fast": "loop inductance (--inductance fast): partial-inductance sum of straight flat-strip segments "
+            "along the traced route; solid planes on the adjacent layer act as perfect-conductor images",
+}
 
 
 def all_quantities() -> list[str]:
@@ -258,6 +265,7 @@ def analyse(board: Board, project: Any, *, deadline: float | None = None,
                 seen.add(text)
                 analysis.assumptions.append(text)
     analysis.assumptions += list(METHOD_ASSUMPTIONS)
+    analysis.assumptions.append(INDUCTANCE_METHODS["fast" if inductance_method == "fast" else "field"])
 
     if analysis.measurement_stopped:
         for stage in analysis.stages:

@@ -50,7 +50,10 @@ _DOCS = (
             "pad) and separate it; or regenerate the netlist if a net was renamed or merged on "
             "purpose (a net tie).",
         formula="As for netlist-open: an island holding pads of two or more nets is a short.",
-        limits="An intended net tie is reported like any short; waive it by net name.",
+        limits="A part whose own copper joins two of its nets (a net tie, a printed antenna's "
+               "feed and ground) is set aside when the Gerber's X2 attributes give that copper no "
+               "net, or, without X2, when its designator marks it (NT, AE, ANT, JP, SJ); any "
+               "other intended join is reported like a short: waive it by net name.",
         group="integrity",
     ),
     RuleDoc(
@@ -66,6 +69,25 @@ _DOCS = (
                 "layers the pad is on; a search over offsets, scales and a mirror suggests the "
                 "correction.",
         limits="A board with very little copper (an empty test panel) can trip it by chance.",
+        group="integrity",
+    ),
+    RuleDoc(
+        name="netlist-x2-mismatch",
+        title="Netlist and the copper's own net names disagree",
+        measures="Netlist pads whose copper carries a Gerber X2 net attribute (.N) naming another "
+                 "net than the netlist does.",
+        why="The Gerber files and the netlist were written from one design; where they name "
+            "different nets for the same copper, one of them is from another revision, or a net "
+            "was renamed after one was exported. Connectivity is judged from the netlist, so a "
+            "stale netlist can hide a real short or report a false one.",
+        fix="Export the Gerber files and the netlist again, together, from the same design "
+            "revision.",
+        formula="For each netlist pad, the X2 nets whose copper covers the pad's centre on its "
+                "layer; the netlist's name matches an X2 name equal to it (case and the writer's "
+                "space substitute ignored) or, for a name filling the 14-character IPC-D-356 "
+                "field, one ending in it. A warning by default: the board may be right.",
+        limits="Only where the Gerber files carry X2 object attributes; copper without a net "
+               "attribute (footprint copper, text) is not compared.",
         group="integrity",
     ),
     RuleDoc(
