@@ -109,6 +109,17 @@ MODULE_NAMES = ("hot loop", "input capacitor", "controller decoupling", "sense r
                 "high-current paths", "switch node", "layout loss")
 
 
+def _with_loop_capacitor(measure_hot_loop: Callable[..., list[Measurement]]) -> Callable[..., list[Measurement]]:
+    """The hot-loop module, preceded by the choice of the loop's capacitor (measure.loopcap):
+    the hot loop closes through it and the input-capacitor measurement (next) names it."""
+    from .measure.loopcap import settle_loop_capacitor
+
+    def hot_loop(ctx, stage: Stage) -> list[Measurement]:
+        settle_loop_capacitor(ctx, stage)
+        return measure_hot_loop(ctx, stage)
+    return hot_loop
+
+
 def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
     from .measure.current import measure_paths
     from .measure.decoupling import measure_controller_decoupling, measure_input_cap
@@ -117,7 +128,7 @@ def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
     from .measure.switchnode import measure_switch_node
 
     return [
-        ("hot loop", measure_hot_loop),
+        ("hot loop", _with_loop_capacitor(measure_hot_loop)),
         ("input capacitor", measure_input_cap),
         ("controller decoupling", measure_controller_decoupling),
         ("sense resistor", measure_sense),
@@ -272,7 +283,8 @@ def analyse(board: Board, project: Any, *, deadline: float | None = None,
             analysis.measurements += [not_made(q, stage, analysis.measurement_stopped) for q in all_quantities()]
         return analysis
     values, _ = component_values(board, project)
-    ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None)
+    ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None,
+                         stages=list(analysis.stages))
     if inductance_method is not None:
         # an optional field of the measurement context (the field solve's); set it whether or
         # not this version declares it, and the hot-loop measurement reads it when it can

@@ -24,7 +24,7 @@ and ground) is cut out and the board judged without it, when X2 gives that coppe
 without X2, its designator marks it; pads of one terminal at several places (a button's twin
 pins) are joined by the part.
 
-Findings (rule names from RULES.md):
+Findings (rule names as in the rule decks):
 
 - ``netlist-open`` (error): one net's pads fall in more than one copper group;
 - ``netlist-short`` (error): one copper group holds pads of two or more nets;

@@ -246,8 +246,10 @@ _DOCS = (
         name="trace-temperature-rise",
         title="Temperature rise of high-current copper",
         measures="The temperature rise, in C, at the narrowest point of each high-current path "
-                 "(input, switch node to inductor, output, ground return) at that path's RMS "
-                 "current, per IPC-2221.",
+                 "(input, switch node to inductor, output, and the two ground paths: the "
+                 "switching current's return from the rectifier or low-side switch to the input "
+                 "capacitor and input, and the load current's return) at that path's RMS current, "
+                 "per IPC-2221.",
         why="Copper that runs hot raises its own resistance (about 0.4 % per kelvin), heats "
             "the parts around it and ages the board; a narrow neck is where this happens first.",
         fix="Widen the narrowest part of the path, use a pour, or add copper on a second layer "
@@ -266,9 +268,12 @@ _DOCS = (
         why="This is efficiency the layout gives away: heat in the copper that the controller's "
             "efficiency curve does not include.",
         fix="Shorten and widen the paths that carry the most current (usually the output and "
-            "ground return); see which path dominates in the path losses reported.",
+            "the ground returns); see which path dominates in the path losses reported.",
         formula="P = sum over paths of I_rms^2 R(T); share = 100 P / (V_out I_out). In a buck "
-                "the input path carries I_out sqrt(D (1 + r^2/12)).",
+                "the input path and the switching current's ground return carry "
+                "I_out sqrt(D (1 + r^2/12)), the output path and the load's return about I_out. "
+                "DC current enters a net at its source (connector, upstream stage) and leaves at "
+                "its loads, never at a capacitor.",
         limits="DC resistance only (skin effect is small for 1-2 oz copper below a few MHz); "
                "the operating point comes from the project file or the defaults.",
         group="high-current paths",
