@@ -544,6 +544,8 @@ class _X2Nets:
             by_key.setdefault(_x2_key(n), set()).add(n)
         self._by_key = by_key
         self._cache: dict[str, frozenset[str]] = {}
+        # full names restored from X2 for cut netlist names (loopcheck.netnames), e.g. TAIL#1
+        self._full = dict(getattr(board, "net_full_names", None) or {})
 
     def __bool__(self) -> bool:
         return bool(self.layers)
@@ -558,6 +560,8 @@ class _X2Nets:
             for k, ns in self._by_key.items():
                 if k.endswith(key):
                     found |= ns
+        if net in self._full:
+            found.add(self._full[net])
         self._cache[net] = frozenset(found)
         return self._cache[net]
 

@@ -9,7 +9,9 @@ JSON contract (``schema`` = "loopcheck-inspect/1"): ``board``, ``source``, ``lay
 (count), ``pads``, ``vias``, ``outline`` (``source``, ``from_extent``, ``width_mm``, ``height_mm``,
 ``area_mm2``), ``netlist``, ``connectivity_checked``, ``aligned``, ``alignment_hint``, ``connectivity_notes`` (what the check decided without a finding),
 ``findings[]`` (``rule``, ``severity``, ``message`` and, where they apply, ``x_mm``, ``y_mm``,
-``layer``, ``nets``, ``terminals``), ``assumptions[]``, ``inputs`` (file -> role).
+``layer``, ``nets``, ``terminals``), ``assumptions[]``, ``inputs`` (file -> role),
+``net_full_names`` (netlist net name cut by its writer -> the full name from the copper's Gerber
+X2 net attributes; the text report says so in one assumption line).
 """
 
 from __future__ import annotations
@@ -73,6 +75,7 @@ def inspect_data(board: Board, result: ConnectivityResult) -> dict[str, Any]:
         "findings": findings,
         "assumptions": assumptions,
         "inputs": dict(sorted(board.inputs.items())),
+        "net_full_names": dict(sorted(board.net_full_names.items())),
     }
 
 
