@@ -53,12 +53,19 @@ METHOD_ASSUMPTIONS = (
     "routes: centreline-weighted shortest paths on a raster of each net's copper (0.05 mm pitch, "
     "coarser on large nets), layers joined at vias and plated holes",
     "switching-loop return current is drawn under the conductor that carries it out where the copper allows",
-    "inductance: partial-inductance sum of straight flat-strip segments; solid planes on the adjacent "
-    "layer (and a return plane the loop's current runs in) act as perfect-conductor images",
     "DC resistance and sense error: finite-volume DC solve of the copper sheets, pads as equipotential contacts",
     "temperature rise: IPC-2221 curve fit and an IPC-2152-style fit at the narrowest point of each path",
     "the tool estimates; it does not certify (mains-powered LED drivers need their own safety review)",
 )
+
+
+INDUCTANCE_METHODS = {
+    "field": "loop inductance: partial-element field solve of the loop's copper in a window around it "
+             "(sheet cells on every layer, vias, parts as straight links; other nets' copper carries eddy "
+             "current only); where it cannot run, the route estimate, saying so",
+    "fast": "loop inductance (--inductance fast): partial-inductance sum of straight flat-strip segments "
+            "along the traced route; solid planes on the adjacent layer act as perfect-conductor images",
+}
 
 
 def all_quantities() -> list[str]:
@@ -102,6 +109,17 @@ MODULE_NAMES = ("hot loop", "input capacitor", "controller decoupling", "sense r
                 "high-current paths", "switch node", "layout loss")
 
 
+def _with_loop_capacitor(measure_hot_loop: Callable[..., list[Measurement]]) -> Callable[..., list[Measurement]]:
+    """The hot-loop module, preceded by the choice of the loop's capacitor (measure.loopcap):
+    the hot loop closes through it and the input-capacitor measurement (next) names it."""
+    from .measure.loopcap import settle_loop_capacitor
+
+    def hot_loop(ctx, stage: Stage) -> list[Measurement]:
+        settle_loop_capacitor(ctx, stage)
+        return measure_hot_loop(ctx, stage)
+    return hot_loop
+
+
 def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
     from .measure.current import measure_paths
     from .measure.decoupling import measure_controller_decoupling, measure_input_cap
@@ -110,7 +128,7 @@ def _modules() -> list[tuple[str, Callable[..., list[Measurement]]]]:
     from .measure.switchnode import measure_switch_node
 
     return [
-        ("hot loop", measure_hot_loop),
+        ("hot loop", _with_loop_capacitor(measure_hot_loop)),
         ("input capacitor", measure_input_cap),
         ("controller decoupling", measure_controller_decoupling),
         ("sense resistor", measure_sense),
@@ -258,13 +276,15 @@ def analyse(board: Board, project: Any, *, deadline: float | None = None,
                 seen.add(text)
                 analysis.assumptions.append(text)
     analysis.assumptions += list(METHOD_ASSUMPTIONS)
+    analysis.assumptions.append(INDUCTANCE_METHODS["fast" if inductance_method == "fast" else "field"])
 
     if analysis.measurement_stopped:
         for stage in analysis.stages:
             analysis.measurements += [not_made(q, stage, analysis.measurement_stopped) for q in all_quantities()]
         return analysis
     values, _ = component_values(board, project)
-    ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None)
+    ctx = MeasureContext(board, values=dict(values), connectivity=conn if conn.checked else None,
+                         stages=list(analysis.stages))
     if inductance_method is not None:
         # an optional field of the measurement context (the field solve's); set it whether or
         # not this version declares it, and the hot-loop measurement reads it when it can

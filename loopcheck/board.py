@@ -113,6 +113,9 @@ class Board:
     source: str = ""                         # the folder, zip or project file given
     # each fab file read or set aside -> its role and how that was decided (for inspect)
     inputs: dict[str, str] = field(default_factory=dict)
+    # netlist net name (cut to 14 characters by its writer) -> the full name the copper's Gerber
+    # X2 net attributes give (loopcheck.netnames); the netlist name stays the net's name
+    net_full_names: dict[str, str] = field(default_factory=dict)
 
     @cached_property
     def nets(self) -> dict[str, list[Pad]]:

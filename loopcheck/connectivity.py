@@ -1,21 +1,43 @@
 """Copper islands against the netlist: which pads the copper really joins.
 
-Copper islands are the polygons of each layer's geometry. Plated holes (drills) and through pads
-and vias of the netlist join the islands they pierce on every layer; each netlist pad joins the
-island under it on its own layers. The joined islands form copper groups (union-find).
+Copper islands are the polygons of each layer's geometry. Plated holes (drills) and plated
+drilled pads of the netlist join the islands they pierce on every layer; the joined islands form
+copper groups (union-find). How a netlist pad is put on an island depends on its kind, because
+a record's size is not always its copper's (it may be the outer pad, the mask or paste opening):
 
-Findings (rule names from RULES.md, severity "error"):
+- a plated drilled pad: the island under its centre on each layer; where no copper is under
+  the centre (an inner layer whose unused pad was removed), only an island its hole touches;
+- an unplated hole: joins nothing, and needs no copper; nor does a pad with neither net nor
+  pin number (the way IPC-D-356 writers give mounting holes, connector shells, mechanical pads);
+- a surface pad: one island on one outer layer (a record that says both sides, or an inner
+  layer, is read on the outer layer it lands on); off copper, the island its size touches that
+  is nearest its centre (not the one it overlaps most: at fine pitch that is the neighbour's).
 
-- ``netlist-open``: one net's pads fall in more than one copper group;
-- ``netlist-short``: one copper group holds pads of two or more nets;
-- ``netlist-alignment``: netlist pads land on no copper, or on copper of the wrong nets. The
+Where the copper carries Gerber X2 net attributes (``.N``) they are a second opinion: a pad whose
+centre is on another net's copper while its own net's copper lies within its size is put on its
+own; where X2 still names another net, that is a finding of its own (``netlist-x2-mismatch``,
+a warning). A surface part whose records put two or more pads on other nets' copper is read
+mirrored, turned or on the other side when that puts every pad on its own net's copper (a
+footprint not flipped for the bottom); the board's pads are replaced and an assumption says so.
+A part's own copper that joins two of its nets on purpose (a net tie, a printed antenna's feed
+and ground) is cut out and the board judged without it, when X2 gives that copper no net or,
+without X2, its designator marks it; pads of one terminal at several places (a button's twin
+pins) are joined by the part.
+
+Findings (rule names as in the rule decks):
+
+- ``netlist-open`` (error): one net's pads fall in more than one copper group;
+- ``netlist-short`` (error): one copper group holds pads of two or more nets;
+- ``netlist-alignment`` (error): netlist pads land on no copper, or on copper of the wrong nets. The
   offset, inch/mm scale or mirror that would align them is searched for and named; a transform is
   judged by the share of pads it puts on copper of their own net (on each island, the pads of its
   most common net count), because on a board of planes and pours a shifted pad still lands on
   *some* copper. When such a transform is found, or most pads land on no copper, opens and shorts
-  are not judged (they would be noise) and ``aligned`` is False: measurement must stop.
+  are not judged (they would be noise) and ``aligned`` is False: measurement must stop;
+- ``netlist-x2-mismatch`` (warning): the netlist and the copper's X2 net names disagree.
 
 Pads with no net name (blank or N/C in the netlist) join copper but are never an open or a short.
+What was decided without a finding is in ``ConnectivityResult.notes``.
 """
 
 from __future__ import annotations
@@ -36,6 +58,7 @@ from .findings import Finding
 RULE_OPEN = "netlist-open"
 RULE_SHORT = "netlist-short"
 RULE_ALIGNMENT = "netlist-alignment"
+RULE_X2 = "netlist-x2-mismatch"
 
 ALIGNED_MIN_FRACTION = 0.5      # below this share of pads on copper the netlist is misaligned
 HINT_MIN_FRACTION = 0.9         # a transform is named when it lands at least this share ...
@@ -123,6 +146,13 @@ class ConnectivityResult:
     pad_islands: list[list[tuple[int, int]]] = field(default_factory=list)   # per board.pads index
     pad_group: list[int | None] = field(default_factory=list)
     landed_fraction: float = 1.0
+    # what the check decided that is not a finding (a net tie's own copper set aside, pads that
+    # need no copper), in plain words for the reports
+    notes: list[str] = field(default_factory=list)
+    # (pad index, layer index, X2 net names of the copper under the pad): the copper's own X2
+    # net attribute names another net than the netlist does
+    x2_disagreements: list[tuple[int, int, tuple[str, ...]]] = field(default_factory=list)
+    x2_agreements: int = 0                   # pads whose copper's X2 net is the netlist's
     _pad_index: dict[Pad, int] = field(default_factory=dict, repr=False)
 
     def copper_group_of_pad(self, pad: Pad) -> int | None:
@@ -205,7 +235,8 @@ class _UnionFind:
 class _Copper:
     """Islands and their STRtrees per layer, for point and shape queries."""
 
-    def __init__(self, board: Board):
+    def __init__(self, board: Board, islands: dict[int, list[Polygon]] | None = None):
+        self.board = board
         self.layers = [layer.index for layer in board.layers]
         self.islands: dict[int, list[Polygon]] = {}
         self.trees: dict[int, shapely.STRtree] = {}
@@ -213,7 +244,7 @@ class _Copper:
         self.arrays: dict[int, np.ndarray] = {}
         n = 0
         for layer in board.layers:
-            polys = _polygons(layer.geometry)
+            polys = _polygons(layer.geometry) if islands is None else islands[layer.index]
             self.islands[layer.index] = polys
             arr = np.array(polys, dtype=object)
             # a plane island can have 10^5 vertices: prepare it once, so that each point or hole
@@ -224,6 +255,23 @@ class _Copper:
             self.offset[layer.index] = n
             n += len(polys)
         self.count = n
+
+    def without(self, bridges: list["_Bridge"]) -> "_Copper":
+        """The same copper with each bridge's piece cut out of its island."""
+        cut: dict[tuple[int, int], list[BaseGeometry]] = {}
+        for b in bridges:
+            cut.setdefault((b.layer, b.island), []).append(b.piece)
+        islands = {}
+        for lay in self.layers:
+            polys = []
+            for k, poly in enumerate(self.islands[lay]):
+                if (lay, k) in cut:
+                    rest = poly.difference(shapely.union_all(cut[(lay, k)]).buffer(1e-4))
+                    polys.extend(_polygons(rest))
+                else:
+                    polys.append(poly)
+            islands[lay] = polys
+        return _Copper(self.board, islands)
 
     def node(self, layer: int, k: int) -> int:
         return self.offset[layer] + k
@@ -267,6 +315,45 @@ def _pad_shape(pad: Pad) -> BaseGeometry | None:
 def check_connectivity(board: Board) -> ConnectivityResult:
     """Copper groups against the netlist: opens, shorts and misalignment. See the module docstring."""
     copper = _Copper(board)
+    x2 = _X2Nets(board)
+    result = _build(board, copper, x2)
+    if not board.pads:
+        result.checked = False
+        result.not_checked_reason = "no netlist pads (no IPC-D-356 netlist and no X2 pin attributes)"
+        return result
+    reason = _why_x2_pads_cannot_be_checked(board)
+    if reason:
+        result.checked = False
+        result.not_checked_reason = reason
+        return result
+    # a surface part whose records are mirrored (a footprint not flipped for the bottom side)
+    # or name the other side: read the way that puts its pads on their own nets' copper
+    readings, why = _part_readings(board, result, copper, x2)
+    # many parts that fit only another way: the netlist as a whole does not fit (alignment judges it)
+    if readings and len(why) <= max(READING_MAX_PARTS, READING_MAX_SHARE * len(board.components)):
+        # the pads are replaced on the board itself: every later step (stages, measurements)
+        # must use the positions that agree with the copper
+        for i, pad in readings.items():
+            board.pads[i] = pad
+        for cached in ("nets", "components", "terminals"):
+            board.__dict__.pop(cached, None)
+        result = _build(board, copper, x2)
+        result.notes.extend(why)
+        board.assumptions.extend(why)
+    # a part whose own copper joins two of its nets on purpose (a net tie, a printed antenna):
+    # that copper is set aside and the board judged again without it
+    bridges = _part_bridges(board, result, copper, x2)
+    if bridges:
+        cut = copper.without(bridges)
+        again = _build(board, cut, x2)
+        if _mixed_groups(board, again) < _mixed_groups(board, result):
+            copper, result = cut, again
+            result.notes.extend(b.note for b in bridges)
+    return _judge(board, result, copper, x2)
+
+
+def _build(board: Board, copper: "_Copper", x2: "_X2Nets") -> ConnectivityResult:
+    """Pads on islands, islands joined into copper groups (no findings yet)."""
     pads = board.pads
     result = ConnectivityResult(findings=[], checked=bool(pads), islands=copper.islands)
     result._pad_index = {}
@@ -274,25 +361,13 @@ def check_connectivity(board: Board) -> ConnectivityResult:
         result._pad_index.setdefault(p, i)
     uf = _UnionFind(copper.count)
 
-    # pads -> islands under them
-    pad_islands: list[list[tuple[int, int]]] = [[] for _ in pads]
-    if pads:
-        xs = np.array([p.x_mm for p in pads])
-        ys = np.array([p.y_mm for p in pads])
-        for lay in copper.layers:
-            on = [i for i, p in enumerate(pads) if lay in p.layers]
-            if not on:
-                continue
-            hit = copper.points_on(lay, xs[on], ys[on])
-            for i, k in zip(on, hit):
-                if k >= 0:
-                    pad_islands[i].append((lay, int(k)))
-                else:
-                    k2 = _island_under_shape(copper, lay, pads[i])
-                    if k2 is not None:
-                        pad_islands[i].append((lay, k2))
-    # a pad joins all islands under it (a through pad: across the layers, by its plating)
-    for isl in pad_islands:
+    pad_islands, x2_disagree, result.x2_agreements = _match_pads(board, copper, x2)
+    result.x2_disagreements = x2_disagree
+    # a plated drilled pad joins the islands under it on every layer (by its plating); a surface
+    # pad lands on one island; an unplated hole joins nothing
+    for i, isl in enumerate(pad_islands):
+        if _kind(pads[i]) != "drilled":
+            continue
         for (la, ka), (lb, kb) in zip(isl, isl[1:]):
             uf.union(copper.node(la, ka), copper.node(lb, kb))
 
@@ -336,25 +411,35 @@ def check_connectivity(board: Board) -> ConnectivityResult:
     result.pad_islands = pad_islands
     result.pad_group = pad_group
 
-    if not pads:
-        result.checked = False
-        result.not_checked_reason = "no netlist pads (no IPC-D-356 netlist and no X2 pin attributes)"
-        return result
-    reason = _why_x2_pads_cannot_be_checked(board)
-    if reason:
-        result.checked = False
-        result.not_checked_reason = reason
-        return result
+    return result
 
+
+def _judge(board: Board, result: ConnectivityResult, copper: "_Copper", x2: "_X2Nets") -> ConnectivityResult:
+    """Findings from the groups: alignment first, then opens, shorts and X2 disagreements."""
+    pads = board.pads
     # alignment: pads on no copper, or so many opens and shorts that the netlist may simply sit
-    # in the wrong place (on a board of planes and pours a shifted pad still lands on copper)
-    unlanded = [i for i, g in enumerate(pad_group) if g is None]
-    landed_fraction = 1.0 - len(unlanded) / len(pads)
+    # in the wrong place (on a board of planes and pours a shifted pad still lands on copper).
+    # Unplated holes and pads with neither net nor pin number (mounting holes, shell and
+    # mechanical pads) need no copper: they are not counted.
+    optional = [i for i, p in enumerate(pads) if _optional(p)]
+    counted = len(pads) - len(optional)
+    optional_set = set(optional)
+    unlanded = [i for i, g in enumerate(result.pad_group) if g is None and i not in optional_set]
+    landed_fraction = 1.0 - len(unlanded) / counted if counted else 1.0
     result.landed_fraction = landed_fraction
+    off = sum(1 for i in optional if result.pad_group[i] is None)
+    summary = f"{len(pads) - len(unlanded) - off} of {len(pads)} netlist pads land on copper"
+    if x2:
+        summary += (f"; at {result.x2_agreements} of them the copper's X2 net attribute names the "
+                    "netlist's net")
+    result.notes.insert(0, summary)
+    if off:
+        result.notes.append(f"{off} unplated holes or pads with no net and no pin number (mounting holes, "
+                            "connector shells) land on no copper; they need none")
     opens = _opens(board, result)
     shorts = _shorts(board, result, copper)
     named_nets = sum(1 for n in board.nets if n)
-    suspicious = (len(unlanded) / len(pads) >= SEARCH_MIN_UNLANDED
+    suspicious = (counted and len(unlanded) / counted >= SEARCH_MIN_UNLANDED
                   or len(opens) + len(shorts) >= max(2, SEARCH_MIN_UNLANDED * named_nets))
     found = search_alignment(board, copper) if suspicious else None
     if (found is not None and not found.is_identity and found.landed_fraction >= HINT_MIN_FRACTION
@@ -365,7 +450,7 @@ def check_connectivity(board: Board) -> ConnectivityResult:
                                  f"copper of their own net (as given: {found.baseline_fraction:.0%})")
         skipped = len(opens) + len(shorts)
         result.findings.append(_alignment_finding(board, unlanded, landed_fraction, result.alignment_hint,
-                                                  stopped=True, skipped=skipped))
+                                                  stopped=True, skipped=skipped, counted=counted))
         return result
     result.aligned = landed_fraction >= ALIGNED_MIN_FRACTION
     if unlanded:
@@ -376,11 +461,13 @@ def check_connectivity(board: Board) -> ConnectivityResult:
             result.alignment_hint = hint
         result.findings.append(_alignment_finding(board, unlanded, landed_fraction, hint,
                                                   stopped=not result.aligned,
-                                                  skipped=0 if result.aligned else len(opens) + len(shorts)))
+                                                  skipped=0 if result.aligned else len(opens) + len(shorts),
+                                                  counted=counted))
     if not result.aligned:
         return result
     result.findings.extend(opens)
     result.findings.extend(shorts)
+    result.findings.extend(_x2_findings(board, result, x2))
     return result
 
 
@@ -402,15 +489,490 @@ def _why_x2_pads_cannot_be_checked(board: Board) -> str | None:
     return None
 
 
-def _island_under_shape(copper: _Copper, lay: int, pad: Pad) -> int | None:
-    shape = _pad_shape(pad)
+def _kind(pad: Pad) -> str:
+    """``"unplated"`` (a hole without plating: joins nothing), ``"drilled"`` (a plated hole: joins
+    its layers) or ``"surface"`` (no hole: one island on one outer layer)."""
+    if pad.hole_mm and pad.hole_mm > 0:
+        return "drilled" if pad.plated else "unplated"
+    return "surface"
+
+
+def _unnumbered(pin: str) -> bool:
+    """A pin field that names no pin: blank, or only punctuation (``-``, ``""``, ``~``)."""
+    return not any(ch.isalnum() for ch in (pin or ""))
+
+
+def _optional(pad: Pad) -> bool:
+    """A pad that needs no copper: an unplated hole, or a pad with neither net nor pin number
+    (IPC-D-356 writes mounting holes, shells and other mechanical pads so)."""
+    if pad.is_via:
+        return False
+    return _kind(pad) == "unplated" or (not pad.net and _unnumbered(pad.pin))
+
+
+def _x2_key(name: str) -> str:
+    """A net name as both files can be compared: case folded, and the characters that netlist
+    writers put for a space (``?``, ``_``) made one."""
+    return name.upper().replace("?", " ").replace("_", " ")
+
+
+class _X2Nets:
+    """The copper's own net names (Gerber X2 ``.N``) matched to the netlist's names.
+
+    The IPC-D-356 net field holds 14 characters: a writer cuts a longer name to its last 14 and
+    upper-cases it; a netlist name matches the X2 names equal to it or, when it fills the field,
+    ending in it (all of them, when a cut name is shared: any then agrees).
+    """
+
+    NO_NET = {"", "N/C"}
+
+    def __init__(self, board: Board):
+        self.layers: dict[int, tuple[list[str], np.ndarray, shapely.STRtree]] = {}
+        names: set[str] = set()
+        for layer in board.layers:
+            nc = {n: g for n, g in (layer.net_copper or {}).items()
+                  if n not in self.NO_NET and g is not None and not g.is_empty}
+            if not nc:
+                continue
+            keys = sorted(nc)
+            geoms = np.array([nc[k] for k in keys], dtype=object)
+            shapely.prepare(geoms)
+            self.layers[layer.index] = (keys, geoms, shapely.STRtree(geoms))
+            names.update(keys)
+        by_key: dict[str, set[str]] = {}
+        for n in names:
+            by_key.setdefault(_x2_key(n), set()).add(n)
+        self._by_key = by_key
+        self._cache: dict[str, frozenset[str]] = {}
+        # full names restored from X2 for cut netlist names (loopcheck.netnames), e.g. TAIL#1
+        self._full = dict(getattr(board, "net_full_names", None) or {})
+
+    def __bool__(self) -> bool:
+        return bool(self.layers)
+
+    def names_for(self, net: str) -> frozenset[str]:
+        """The X2 names that stand for a netlist net (empty: X2 does not know it)."""
+        if net in self._cache:
+            return self._cache[net]
+        key = _x2_key(net)
+        found = set(self._by_key.get(key, ()))
+        if not found and len(net) >= 14:
+            for k, ns in self._by_key.items():
+                if k.endswith(key):
+                    found |= ns
+        if net in self._full:
+            found.add(self._full[net])
+        self._cache[net] = frozenset(found)
+        return self._cache[net]
+
+    def nets_at(self, lay: int, x: np.ndarray, y: np.ndarray) -> list[list[str]]:
+        """For each point, the X2 nets whose copper covers it on the layer."""
+        out: list[list[str]] = [[] for _ in range(len(x))]
+        entry = self.layers.get(lay)
+        if entry is None or len(x) == 0:
+            return out
+        keys, geoms, tree = entry
+        pts = shapely.points(np.asarray(x, float), np.asarray(y, float))
+        pi, gi = tree.query(pts)
+        if len(pi):
+            ok = shapely.intersects(geoms[gi], pts[pi])
+            for a, g in zip(pi[ok].tolist(), gi[ok].tolist()):
+                out[a].append(keys[g])
+        return out
+
+    def copper_of(self, lay: int, names: frozenset[str]) -> list[BaseGeometry]:
+        entry = self.layers.get(lay)
+        if entry is None:
+            return []
+        keys, geoms, _ = entry
+        return [geoms[k] for k, n in enumerate(keys) if n in names]
+
+
+def _match_pads(board: Board, copper: _Copper, x2: _X2Nets):
+    """Each pad's islands, and the pads where X2 names another net for the copper under them.
+
+    - a plated drilled pad: on each of its layers the island under its centre; where no copper
+      is under the centre (an inner layer whose unused pad was removed), the island its drilled
+      hole touches (the plating meets it), never one that only its netlist size reaches (that size
+      is its outer pad's, or its mask opening's);
+    - an unplated hole: the island under its centre, if any (it needs none);
+    - a surface pad: one island on one layer. Its record's layer first; an access code of both
+      sides or of an inner layer (no surface pad is there) is read as the outer layer the pad
+      lands on. Where its centre misses copper (a pad drawn off its anchor), the island its
+      netlist size touches that is nearest the centre.
+    Where the copper carries X2 net attributes and the island under the centre is another net's
+    while the pad's own net's copper lies within its netlist size, that copper is taken.
+    """
+    pads = board.pads
+    n_layers = len(copper.layers)
+    outer = {copper.layers[0], copper.layers[-1]} if copper.layers else set()
+    kinds = [_kind(p) for p in pads]
+    cand: list[list[int]] = []
+    for p, kind in zip(pads, kinds):
+        lays = [lay for lay in p.layers if lay in copper.islands]
+        if kind == "surface" and (len(lays) > 1 or (lays and lays[0] not in outer)) and n_layers > 1:
+            stated = lays
+            lays = [lay for lay in copper.layers if lay in outer]
+            if any(lay in outer for lay in stated):      # both sides: the primary side first
+                lays.sort(key=lambda lay: (lay not in stated, lay))
+            else:                                        # an inner layer: read as the secondary side
+                lays.sort(key=lambda lay: -lay)
+        cand.append(lays)
+
+    xs = np.array([p.x_mm for p in pads]) if pads else np.zeros(0)
+    ys = np.array([p.y_mm for p in pads]) if pads else np.zeros(0)
+    found: dict[tuple[int, int], int] = {}          # (pad, layer) -> island
+    x2_here: dict[tuple[int, int], list[str]] = {}
+    for lay in copper.layers:
+        on = [i for i in range(len(pads)) if lay in cand[i]]
+        if not on:
+            continue
+        hit = copper.points_on(lay, xs[on], ys[on])
+        if x2 and lay in x2.layers:
+            named = [i for i in on if pads[i].net]
+            for i, nets in zip(named, x2.nets_at(lay, xs[named], ys[named])):
+                x2_here[(i, lay)] = nets
+        for i, k in zip(on, hit.tolist()):
+            kind = kinds[i]
+            p = pads[i]
+            if k >= 0:
+                if x2 and p.net and kind != "unplated":
+                    k = _x2_prefer(copper, x2, lay, p, k, x2_here.get((i, lay), []))
+                found[(i, lay)] = k
+                continue
+            if kind == "unplated":
+                continue
+            if kind == "drilled":
+                shape = Point(p.x_mm, p.y_mm).buffer(p.hole_mm / 2, 16)
+            else:
+                shape = _pad_shape(p)
+            k2 = _island_near(copper, x2, lay, p, shape)
+            if k2 is not None:
+                found[(i, lay)] = k2
+
+    pad_islands: list[list[tuple[int, int]]] = [[] for _ in pads]
+    disagree: list[tuple[int, int, tuple[str, ...]]] = []
+    agree = 0
+    for i, p in enumerate(pads):
+        lays = [lay for lay in cand[i] if (i, lay) in found]
+        if kinds[i] == "surface" and len(lays) > 1:
+            lays = [_best_layer(copper, x2, p, lays, found, i, x2_here)]
+        pad_islands[i] = [(lay, found[(i, lay)]) for lay in lays]
+        if x2 and p.net and kinds[i] != "unplated":
+            own = x2.names_for(p.net)
+            agreed = False
+            for lay in lays:
+                here = x2_here.get((i, lay))
+                if here and own & set(here):
+                    agreed = True
+                elif here and not _x2_own_within(copper, x2, lay, p, found[(i, lay)], own):
+                    disagree.append((i, lay, tuple(sorted(here))))
+            agree += agreed
+    return pad_islands, disagree, agree
+
+
+def _best_layer(copper, x2, p, lays, found, i, x2_here) -> int:
+    """Of the outer layers a surface pad lands on, the one whose copper X2 names its net, else
+    the first (the record's own side)."""
+    if x2 and p.net:
+        own = x2.names_for(p.net)
+        for lay in lays:
+            if own & set(x2_here.get((i, lay), [])):
+                return lay
+    return lays[0]
+
+
+def _x2_own_within(copper, x2, lay, p, k, own) -> bool:
+    island = copper.islands[lay][k]
+    shape = _pad_shape(p) or Point(p.x_mm, p.y_mm).buffer(0.05)
+    return any(g.intersects(shape) and g.intersects(island) for g in x2.copper_of(lay, own))
+
+
+def _x2_prefer(copper: _Copper, x2: _X2Nets, lay: int, p: Pad, k: int, here: list[str]) -> int:
+    """The island under the centre, unless X2 says it is another net's and the pad's own net's
+    copper lies within the pad's netlist size: then the island of that copper."""
+    own = x2.names_for(p.net)
+    if not own or not here or own & set(here):
+        return k
+    shape = _pad_shape(p)
+    if shape is None:
+        return k
+    best, best_area = k, 0.0
+    for g in x2.copper_of(lay, own):
+        part = g.intersection(shape)
+        if part.is_empty:
+            continue
+        for k2 in copper.hits(lay, np.array([part], dtype=object))[1].tolist():
+            area = copper.islands[lay][k2].intersection(part).area
+            if area > best_area:
+                best, best_area = int(k2), area
+    return best
+
+
+def _island_near(copper: _Copper, x2: _X2Nets, lay: int, p: Pad, shape: BaseGeometry | None) -> int | None:
+    """The island a pad's shape touches when its centre misses copper: the one carrying the
+    pad's own X2 net, else the one nearest the centre (not the one it overlaps most: a netlist
+    size larger than the copper reaches over the neighbours of a fine-pitch part)."""
     if shape is None or not copper.islands[lay]:
         return None
     _, cand = copper.hits(lay, np.array([shape], dtype=object))
     if len(cand) == 0:
         return None
-    best = max(cand, key=lambda k: copper.islands[lay][int(k)].intersection(shape).area)
-    return int(best)
+    cand = [int(c) for c in cand]
+    if len(cand) == 1:
+        return cand[0]
+    if x2 and p.net:
+        own = x2.copper_of(lay, x2.names_for(p.net))
+        mine = [c for c in cand if any(g.intersects(copper.islands[lay][c]) and
+                                       g.intersects(shape) for g in own)]
+        if len(mine) == 1:
+            return mine[0]
+        if mine:
+            cand = mine
+    centre = Point(p.x_mm, p.y_mm)
+    dist = shapely.distance(copper.arrays[lay][cand], centre)
+    return cand[int(np.argmin(dist))]
+
+
+# --- parts whose records are mirrored or on the other side -----------------------------------
+
+READING_MIN_PADS = 2
+READING_MAX_PARTS = 3          # parts re-read on any board ...
+READING_MAX_SHARE = 0.1        # ... or this share of its parts, whichever is more
+
+
+def _part_readings(board: Board, result: ConnectivityResult, copper: _Copper,
+                   x2: _X2Nets) -> tuple[dict[int, Pad], list[str]]:
+    """Surface parts whose pads land on other nets' copper, read another way when that way puts
+    every pad on copper of its own net.
+
+    A pad's evidence: the copper group it lands on holds pads of other parts; "own" when one of
+    them is on its net (or X2 names its net there), "other" when none is. A part with at least
+    two "other" pads (each a short, if the records are right) is tried mirrored in x or y about its centre,
+    turned 180 degrees, and on the other outer side (a footprint not flipped for the bottom
+    side, a record of the wrong side). A reading is taken only when it leaves no pad on other
+    nets' copper and lands more pads on their own nets than the records as given.
+    """
+    pads = board.pads
+    if len(copper.layers) < 1 or not result.groups:
+        return {}, []
+    group_nets: dict[int, dict[str, int]] = {}
+    for i, g in enumerate(result.pad_group):
+        if g is not None and pads[i].net:
+            d = group_nets.setdefault(g, {})
+            d[pads[i].net] = d.get(pads[i].net, 0) + 1
+    parts: dict[str, list[int]] = {}
+    for i, p in enumerate(pads):
+        if p.ref and not p.is_via and _kind(p) == "surface" and p.net and len(p.layers) == 1:
+            parts.setdefault(p.ref, []).append(i)
+    top, bottom = copper.layers[0], copper.layers[-1]
+    out: dict[int, Pad] = {}
+    notes: list[str] = []
+    for ref, idxs in parts.items():
+        if len(idxs) < READING_MIN_PADS or len({pads[i].layers[0] for i in idxs}) != 1:
+            continue
+        own_counts: dict[tuple[int, str], int] = {}
+        for i in idxs:
+            g = result.pad_group[i]
+            if g is not None:
+                own_counts[(g, pads[i].net)] = own_counts.get((g, pads[i].net), 0) + 1
+
+        def evidence(layer: int, xs: np.ndarray, ys: np.ndarray) -> tuple[int, int]:
+            hit = copper.points_on(layer, xs, ys)
+            x2_here = x2.nets_at(layer, xs, ys) if x2 and layer in x2.layers else None
+            own = other = 0
+            for n, (i, k) in enumerate(zip(idxs, hit.tolist())):
+                net = pads[i].net
+                if x2_here is not None and x2_here[n]:
+                    if x2.names_for(net) & set(x2_here[n]):
+                        own += 1
+                    else:
+                        other += 1
+                    continue
+                if k < 0:
+                    continue
+                g = result.island_group[(layer, k)]
+                nets = dict(group_nets.get(g, {}))
+                for (gg, nn), c in own_counts.items():      # leave the part's own pads out
+                    if gg == g:
+                        nets[nn] = nets.get(nn, 0) - c
+                nets = {nn: c for nn, c in nets.items() if c > 0}
+                if not nets:
+                    continue
+                if net in nets:
+                    own += 1
+                else:
+                    other += 1
+            return own, other
+
+        xs = np.array([pads[i].x_mm for i in idxs])
+        ys = np.array([pads[i].y_mm for i in idxs])
+        layer = pads[idxs[0]].layers[0]
+        own0, other0 = evidence(layer, xs, ys)
+        if other0 < READING_MIN_PADS:
+            continue
+        cx, cy = (xs.min() + xs.max()) / 2, (ys.min() + ys.max()) / 2
+        flipped = bottom if layer == top else top
+        tries = []
+        for side in ([layer, flipped] if flipped != layer else [layer]):
+            for name, tx, ty in (("as given", xs, ys), ("mirrored in x", 2 * cx - xs, ys),
+                                 ("mirrored in y", xs, 2 * cy - ys), ("turned 180 degrees", 2 * cx - xs, 2 * cy - ys)):
+                if side == layer and name == "as given":
+                    continue
+                own, other = evidence(side, tx, ty)
+                if other == 0 and own > own0 and own >= max(READING_MIN_PADS, len(idxs) // 2):
+                    tries.append((own, -len(tries), side, name, tx, ty))
+        if not tries:
+            continue
+        own, _, side, name, tx, ty = max(tries)
+        for n, i in enumerate(idxs):
+            out[i] = dataclasses.replace(pads[i], x_mm=float(tx[n]), y_mm=float(ty[n]), layers=(side,))
+        side_text = "on the other side, " if side != layer else ""
+        how = "as written" if name == "as given" else name
+        notes.append(f"{ref}: its netlist records put {other0} of its {len(idxs)} pads on other nets' "
+                     f"copper; read {side_text}{how} about the part's centre they put {own} on their own "
+                     "nets' copper (a footprint not flipped for the bottom side, or a record of the "
+                     "wrong side), and were read so")
+    return out, notes
+
+
+# --- a part's own copper that joins its nets on purpose ------------------------------------
+
+# designator letters of parts made to join two nets with their own copper: net ties, printed
+# antennas (feed and ground on one shape), solder jumpers closed by copper (common practice)
+JOINING_PREFIXES = ("NT", "NETTIE", "AE", "ANT", "JP", "SJ")
+PAD_CUT_MARGIN_MM = 0.05
+BRIDGE_WINDOW_MM = 40.0       # a part's own copper lies within this of its pads (a 2.4 GHz printed
+                              # antenna is about 15-30 mm long; from memory of common designs)
+BRIDGE_MAX_PADS = 8           # net ties, antennas and jumpers have a few pads
+BRIDGE_MAX_ISLANDS = 50       # more islands joining nets than this: the netlist does not fit
+
+
+@dataclass
+class _Bridge:
+    """Copper of one part, joining pads of that part on different nets and nothing else."""
+
+    ref: str
+    layer: int
+    island: int
+    piece: BaseGeometry
+    nets: tuple[str, ...]
+    evidence: str
+
+    @property
+    def note(self) -> str:
+        return (f"{self.ref}'s own copper joins {' and '.join(self.nets)} ({self.evidence}): a net tie or "
+                "printed antenna, set aside; the nets are judged without it")
+
+
+def _ref_prefix(ref: str) -> str:
+    return "".join(ch for ch in ref if ch.isalpha()).upper()
+
+
+def _part_bridges(board: Board, result: ConnectivityResult, copper: _Copper, x2: _X2Nets) -> list[_Bridge]:
+    """Copper that joins two nets only through one part's own pads.
+
+    For each island holding pads of two or more nets of one part: cut that part's pads (their
+    netlist size and a small margin) out of the island. A piece left over that touches the part's
+    pads of two nets, and no other pad, via or plated hole, is the part's own copper. It is taken
+    as joining the nets on purpose when the layer's X2 attributes give it no net (footprint copper,
+    not a trace or pour of a net), or, without X2, when the part's designator marks a net tie,
+    antenna or copper-closed jumper. Everything else stays a short.
+    """
+    pads = board.pads
+    out: list[_Bridge] = []
+    by_island: dict[tuple[int, int], list[int]] = {}
+    for i, isl in enumerate(result.pad_islands):
+        for key in isl:
+            by_island.setdefault(key, []).append(i)
+    mixed = [(key, idxs) for key, idxs in by_island.items()
+             if len({pads[i].net for i in idxs if pads[i].net}) >= 2]
+    if not mixed or len(mixed) > BRIDGE_MAX_ISLANDS:      # none, or a netlist that does not fit
+        return out
+    plated = [h for h in board.holes if h.plated]
+    hole_shapes = np.array([Point(h.x_mm, h.y_mm).buffer(max(h.diameter_mm / 2, 1e-3), 8) for h in plated],
+                           dtype=object)
+    hole_tree = shapely.STRtree(hole_shapes) if len(hole_shapes) else None
+    for (lay, k), idxs in mixed:
+        parts: dict[str, list[int]] = {}
+        for i in idxs:
+            if pads[i].ref and not pads[i].is_via:
+                parts.setdefault(pads[i].ref, []).append(i)
+        x2_here = bool(x2) and lay in x2.layers
+        for ref, mine in parts.items():
+            own_nets = {pads[i].net for i in mine if pads[i].net}
+            if len(own_nets) < 2 or len(mine) > BRIDGE_MAX_PADS:
+                continue
+            if not x2_here and _ref_prefix(ref) not in JOINING_PREFIXES:
+                continue                  # nothing could show the join is meant: a short
+            shapes = [_pad_shape(pads[i]) for i in mine]
+            if any(sh is None for sh in shapes):
+                continue
+            grown = [sh.buffer(PAD_CUT_MARGIN_MM, join_style="mitre") for sh in shapes]
+            # the part's neighbourhood only: a plane island can be the whole board
+            x0, y0, x1, y1 = shapely.union_all(grown).bounds
+            m = BRIDGE_WINDOW_MM
+            window = shapely.box(x0 - m, y0 - m, x1 + m, y1 + m)
+            island = shapely.clip_by_rect(copper.islands[lay][k], *window.bounds)
+            pieces = _polygons(island.difference(shapely.union_all(grown)))
+            others = [i for i in idxs if pads[i].ref != ref or pads[i].is_via]
+            other_pts = shapely.points([(pads[i].x_mm, pads[i].y_mm) for i in others]) if others else None
+            edge = window.exterior
+            for piece in pieces:
+                touched = {pads[i].net for i, g in zip(mine, grown) if pads[i].net
+                           and piece.distance(g.exterior) < 2 * PAD_CUT_MARGIN_MM}
+                if len(touched) < 2 or piece.distance(edge) < 1e-6:     # goes on beyond the window
+                    continue
+                if other_pts is not None and shapely.intersects(piece, other_pts).any():
+                    continue
+                if hole_tree is not None and len(hole_tree.query(piece, predicate="intersects")):
+                    continue
+                evidence = _bridge_evidence(x2, lay, ref, piece)
+                if evidence:
+                    out.append(_Bridge(ref, lay, k, piece, tuple(sorted(touched)), evidence))
+    return out
+
+
+def _bridge_evidence(x2: _X2Nets, lay: int, ref: str, piece: BaseGeometry) -> str | None:
+    """Why a part's own copper is taken as joining nets on purpose, or None."""
+    entry = x2.layers.get(lay) if x2 else None
+    if entry is not None:
+        _, geoms, tree = entry
+        named = sum(geoms[g].intersection(piece).area for g in tree.query(piece).tolist())
+        if named < 0.5 * piece.area:
+            return "its copper carries no X2 net attribute: footprint copper"
+        return None
+    prefix = _ref_prefix(ref)
+    if prefix in JOINING_PREFIXES:
+        return f"designator {prefix}: a net tie, antenna or jumper; no X2 net attributes to confirm"
+    return None
+
+
+def _x2_findings(board: Board, result: ConnectivityResult, x2: _X2Nets) -> list[Finding]:
+    """One finding per netlist net whose pads sit on copper that X2 gives to another net."""
+    if not result.x2_disagreements:
+        return []
+    by_net: dict[str, list[tuple[int, int, tuple[str, ...]]]] = {}
+    for i, lay, here in result.x2_disagreements:
+        by_net.setdefault(board.pads[i].net, []).append((i, lay, here))
+    out = []
+    for net, rows in sorted(by_net.items()):
+        i, lay, _ = rows[0]
+        p = board.pads[i]
+        copper_nets = sorted({n for _, _, here in rows for n in here})
+        idxs = sorted({r[0] for r in rows})
+        known = "" if x2.names_for(net) else f" (X2 names no net {net})"
+        out.append(Finding(
+            rule=RULE_X2, severity="warning",
+            message=(f"the netlist puts {_terminal_list(board, idxs, 6)} on net {net}, but the Gerber's X2 "
+                     f"net attributes give the copper under {'it' if len(idxs) == 1 else 'them'} to "
+                     f"{', '.join(copper_nets[:4])}{known}: one of the two files is from another "
+                     "revision or a net was renamed; connectivity is judged from the netlist"),
+            x_mm=round(p.x_mm, 4), y_mm=round(p.y_mm, 4), layer=_layer_name(board, lay),
+            nets=tuple([net] + copper_nets[:4]),
+            terminals=tuple(sorted({board.pads[j].terminal for j in idxs
+                                    if board.pads[j].ref and not board.pads[j].is_via}))))
+    return out
 
 
 # --- findings ------------------------------------------------------------------------------
@@ -442,9 +1004,33 @@ def _opens(board: Board, result: ConnectivityResult) -> list[Finding]:
         if not p.net or g is None:
             continue
         by_net.setdefault(p.net, {}).setdefault(g, []).append(i)
+    # pads of one terminal (ref and pin number) at several places are joined inside the part
+    # (a push button's two pins "2", a connector's twin shell tabs): their groups count as one
+    terminal_groups: dict[tuple[str, str, str], set[int]] = {}
+    for i, p in enumerate(board.pads):
+        g = result.pad_group[i]
+        if g is not None and p.net and p.ref and not p.is_via and not _unnumbered(p.pin):
+            terminal_groups.setdefault((p.net, p.ref, p.pin), set()).add(g)
     for net, parts in sorted(by_net.items()):
         if len(parts) < 2:
             continue
+        joined = _UnionFind(len(parts))
+        index = {g: k for k, g in enumerate(parts)}
+        for (tn, _, _), gs in terminal_groups.items():
+            if tn == net and len(gs) > 1:
+                gs = sorted(gs)
+                for a in gs[1:]:
+                    joined.union(index[gs[0]], index[a])
+        merged: dict[int, list[int]] = {}
+        for g, idxs in parts.items():
+            merged.setdefault(joined.find(index[g]), []).extend(idxs)
+        if len(merged) < len(parts):
+            twins = sorted(f"{r}.{pin}" for (tn, r, pin), gs in terminal_groups.items() if tn == net and len(gs) > 1)
+            result.notes.append(f"net {net}: pads of one pin at several places ({', '.join(twins[:4])}) are "
+                                "joined inside the part, not by copper")
+        if len(merged) < 2:
+            continue
+        parts = {k: sorted(v) for k, v in merged.items()}
         ordered = sorted(parts.values(), key=lambda idxs: (-len(idxs), min(idxs)))
         desc = "; ".join(f"[{_terminal_list(board, idxs)}]" for idxs in ordered)
         stray = ordered[-1]
@@ -457,6 +1043,11 @@ def _opens(board: Board, result: ConnectivityResult) -> list[Finding]:
             x_mm=round(p.x_mm, 4), y_mm=round(p.y_mm, 4), layer=_layer_name(board, p.layers[0]),
             nets=(net,), terminals=terminals))
     return out
+
+
+def _mixed_groups(board: Board, result: ConnectivityResult) -> int:
+    """How many copper groups hold pads of two or more nets (the shorts, before their finding)."""
+    return sum(1 for g in result.groups if len({board.pads[i].net for i in g.pads if board.pads[i].net}) > 1)
 
 
 def _shorts(board: Board, result: ConnectivityResult, copper: _Copper) -> list[Finding]:
@@ -520,29 +1111,48 @@ def _meeting_point(board: Board, result: ConnectivityResult, group: CopperGroup,
     island = shapely.union_all(island_geoms)
     # X2 net copper, where the Gerbers carry it
     nc = layer.net_copper or {}
-    if na in nc and nb in nc:
-        a = nc[na].intersection(island)
-        b = nc[nb].intersection(island)
-        touch = a.buffer(0.01).intersection(b.buffer(0.01))
-        if not touch.is_empty:
-            c = touch.representative_point()
-            return c.x, c.y, lay, (na, nb)
-        attributed = shapely.union_all(list(nc.values()))
-        loose = island.difference(attributed.buffer(0.005))
-        for part in _polygons(loose):
-            grown = part.buffer(0.02)
-            if grown.intersects(a) and grown.intersects(b):
-                c = part.representative_point()
-                return c.x, c.y, lay, (na, nb)
     pi, pj = board.pads[i], board.pads[j]
+    if na in nc and nb in nc:
+        # first near the closest pads of the two nets (a plane's whole copper is slow to grow),
+        # then everywhere
+        mx, my = (pi.x_mm + pj.x_mm) / 2, (pi.y_mm + pj.y_mm) / 2
+        r = max(3.0, 0.6 * float(np.hypot(pi.x_mm - pj.x_mm, pi.y_mm - pj.y_mm)))
+        for rect in ((mx - r, my - r, mx + r, my + r), None):
+            found = _x2_meeting(nc, na, nb, island, rect)
+            if found is not None:
+                return found[0], found[1], lay, (na, nb)
     mid = Point((pi.x_mm + pj.x_mm) / 2, (pi.y_mm + pj.y_mm) / 2)
     near = shapely.ops.nearest_points(island, mid)[0]
     return near.x, near.y, lay, (na, nb)
 
 
+def _x2_meeting(nc: dict[str, BaseGeometry], na: str, nb: str, island: BaseGeometry,
+                rect: tuple[float, float, float, float] | None) -> tuple[float, float] | None:
+    """Where X2 copper of two nets touches, or unattributed copper touches both (within rect)."""
+    clip = (lambda g: g) if rect is None else (lambda g: shapely.clip_by_rect(g, *rect))  # noqa: E731
+    isl = clip(island)
+    if isl.is_empty:
+        return None
+    a = clip(nc[na]).intersection(isl)
+    b = clip(nc[nb]).intersection(isl)
+    if shapely.dwithin(a, b, 0.02):
+        touch = a.buffer(0.01).intersection(b.buffer(0.01))
+        if not touch.is_empty:
+            c = touch.representative_point()
+            return c.x, c.y
+    attributed = shapely.union_all([clip(g) for g in nc.values()])
+    loose = isl.difference(attributed.buffer(0.005))
+    for part in _polygons(loose):
+        if part.distance(a) > 0.02 or part.distance(b) > 0.02:
+            continue
+        c = part.representative_point()
+        return c.x, c.y
+    return None
+
+
 def _alignment_finding(board: Board, unlanded: list[int], landed_fraction: float, hint: str | None,
-                       stopped: bool, skipped: int) -> Finding:
-    n = len(board.pads)
+                       stopped: bool, skipped: int, counted: int | None = None) -> Finding:
+    n = len(board.pads) if counted is None else counted
     if unlanded:
         examples = []
         for i in unlanded[:5]:
@@ -585,7 +1195,8 @@ def search_alignment(board: Board, copper: _Copper | None = None, *, seed: int =
     if not pads:
         return None
     rng = np.random.default_rng(seed)
-    idx = np.arange(len(pads))
+    # pads that need no copper (unplated holes, mechanical pads) say nothing about alignment
+    idx = np.array([i for i, p in enumerate(pads) if not _optional(p)] or list(range(len(pads))))
     if len(idx) > MAX_SAMPLE:
         idx = np.sort(rng.choice(idx, MAX_SAMPLE, replace=False))
     sample = [pads[i] for i in idx]

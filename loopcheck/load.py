@@ -291,12 +291,16 @@ def _load(project: Project, fab: FabSet, limits: InputLimits) -> Board:
         assumptions.append("plated holes are taken as through holes joining every copper layer "
                            "(blind and buried vias are not told apart)")
 
-    return Board(
+    board = Board(
         name=project.name, layers=layers, outline=outline, stackup=stackup, pads=pads, holes=holes,
         netlist_file=fab.relname(fab.netlist), drill_files=drill_files, component_values=values,
         component_packages=packages, component_sides=sides,
         assumptions=assumptions, source=str(project.path or project.fab), inputs=inputs,
     )
+    if netlist is not None and netlist.maybe_cut_names:
+        from .netnames import restore_cut_names
+        restore_cut_names(board, netlist.maybe_cut_names)
+    return board
 
 
 def _order_inner_by_access_codes(fab: FabSet, raw_layers: list, netlist) -> tuple[list, str | None]:

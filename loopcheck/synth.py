@@ -34,6 +34,8 @@ from .fileio import write_atomic
 Point = tuple[float, float]
 
 GENERATOR = "loopcheck,synth,0.1"
+ROUND_Y = ("size", "blank", "zero")                       # netlist_round_y choices
+LONG_NAMES = ("alias", "alias-short", "alias-comment", "cut", "cut-unique")   # netlist_long_names
 
 
 @dataclass
@@ -439,9 +441,17 @@ def _drill_text(board: SynthBoard) -> str:
 class _Ipc356Writer:
     """Formats IPC-D-356A records in the standard's fixed columns (1-based, inclusive)."""
 
-    def __init__(self, units: str, offset_mm: Point, mirror: bool):
+    def __init__(self, units: str, offset_mm: Point, mirror: bool, round_y: str = "size",
+                 long_names: str = "alias"):
         if units not in ("mm", "inch"):
             raise ValueError(f"netlist_units must be 'mm' or 'inch', not {units!r}")
+        if round_y not in ROUND_Y:
+            raise ValueError(f"netlist_round_y must be one of {', '.join(ROUND_Y)}, not {round_y!r}")
+        if long_names not in LONG_NAMES:
+            raise ValueError(f"netlist_long_names must be one of {', '.join(LONG_NAMES)}, not {long_names!r}")
+        self.round_y = round_y
+        self.long_names = long_names
+        self.cut: dict[str, str] = {}
         self.units = units
         # CUST 1: SI, coordinates in 0.001 mm; CUST 0: inch, coordinates in 0.0001 inch.
         self.per_mm = 1000.0 if units == "mm" else 10000.0 / 25.4
@@ -451,11 +461,36 @@ class _Ipc356Writer:
         self.comments: list[str] = []
 
     def net_field(self, net: str) -> str:
+        if self.long_names in ("cut", "cut-unique"):
+            return self._cut_name(net)
         if len(net) <= 14 and " " not in net:
             return net
         if net not in self.aliases:
-            self.aliases[net] = f"NNAME{len(self.aliases) + 1}"
+            k = len(self.aliases) + 1
+            self.aliases[net] = {"alias": f"NNAME{k}", "alias-short": f"M{k:04d}",
+                                 "alias-comment": f"m{k:04d}"}[self.long_names]
         return self.aliases[net]
+
+    def _cut_name(self, net: str) -> str:
+        """A writer without aliases: upper case, ``?`` for anything but printable ASCII, the
+        last 14 characters; "cut-unique" makes a repeated tail unique as its last 10 + ``#n``."""
+        if net in self.cut:
+            return self.cut[net]
+        name = "".join(ch if 33 <= ord(ch) <= 126 else "?" for ch in net).upper()[-14:]
+        if self.long_names == "cut-unique" and name in self.cut.values():
+            base, k = name[-10:], 1
+            while f"{base}#{k}" in self.cut.values():
+                k += 1
+            name = f"{base}#{k}"
+        self.cut[net] = name
+        return name
+
+    def alias_records(self) -> list[str]:
+        if self.long_names == "alias-comment":
+            return [f"C  NNAME{alias} {net}"[:80] for net, alias in self.aliases.items()]
+        if self.long_names == "alias-short":
+            return [f"P  NNAME{alias:<6}{net}"[:80] for net, alias in self.aliases.items()]
+        return [f"P  {alias:<11}{net}"[:80] for net, alias in self.aliases.items()]
 
     def _n(self, mm: float) -> int:
         return round(mm * self.per_mm)
@@ -482,7 +517,8 @@ class _Ipc356Writer:
 
     def test_record(self, *, code: str, net: str, ref: str, pin: str, hole_mm: float | None,
                     access: int, x_mm: float, y_mm: float, w_mm: float | None,
-                    h_mm: float | None, rotation: int = 0, soldermask: int = 0) -> str:
+                    h_mm: float | None, rotation: int = 0, soldermask: int = 0,
+                    round_feature: bool = False) -> str:
         if len(ref) > 6:
             raise ValueError(f"reference {ref!r} is longer than the 6 columns IPC-D-356 gives it")
         if len(pin) > 4:
@@ -502,7 +538,12 @@ class _Ipc356Writer:
         put(42, "X" + self._coord(x))
         put(50, "Y" + self._coord(y))
         put(58, "X" + self._size(w_mm, f"pad width of {ref}.{pin}").replace(" ", "0"))
-        put(63, "Y" + self._size(h_mm, f"pad height of {ref}.{pin}").replace(" ", "0"))
+        if round_feature and self.round_y == "blank":
+            put(63, "Y    ")
+        elif round_feature and self.round_y == "zero":
+            put(63, "Y0000")
+        else:
+            put(63, "Y" + self._size(h_mm, f"pad height of {ref}.{pin}").replace(" ", "0"))
         put(68, f"R{rotation:03d}")
         put(73, f"S{soldermask}")
         return "".join(cols).rstrip()
@@ -539,8 +580,8 @@ class _Ipc356Writer:
 
 
 def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool,
-                  conductors: bool = False) -> str:
-    w = _Ipc356Writer(units, offset_mm, mirror)
+                  conductors: bool = False, round_y: str = "size", long_names: str = "alias") -> str:
+    w = _Ipc356Writer(units, offset_mm, mirror, round_y, long_names)
     n = board.layer_count
     records: list[str] = []
     for comp in board.components:
@@ -549,16 +590,18 @@ def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool,
             if pad.hole_mm is not None:
                 records.append(w.test_record(code="317", net=pad.net, ref=comp.ref, pin=pad.pin,
                                              hole_mm=pad.hole_mm, access=0, x_mm=pad.x_mm,
-                                             y_mm=pad.y_mm, w_mm=pad.w_mm, h_mm=h))
+                                             y_mm=pad.y_mm, w_mm=pad.w_mm, h_mm=h,
+                                             round_feature=pad.shape == "circle"))
             else:
                 access = 1 if pad.layer == "top" else n
                 records.append(w.test_record(code="327", net=pad.net, ref=comp.ref, pin=pad.pin,
                                              hole_mm=None, access=access, x_mm=pad.x_mm,
-                                             y_mm=pad.y_mm, w_mm=pad.w_mm, h_mm=h))
+                                             y_mm=pad.y_mm, w_mm=pad.w_mm, h_mm=h,
+                                             round_feature=pad.shape == "circle"))
     for via in board.vias:
         records.append(w.test_record(code="317", net=via.net, ref="VIA", pin="", hole_mm=via.drill_mm,
                                      access=0, x_mm=via.x_mm, y_mm=via.y_mm, w_mm=via.pad_mm,
-                                     h_mm=via.pad_mm))
+                                     h_mm=via.pad_mm, round_feature=True))
     if conductors:
         for trace in board.traces:
             records += w.conductor_records(trace)
@@ -573,9 +616,7 @@ def _netlist_text(board: SynthBoard, units: str, offset_mm: Point, mirror: bool,
         "P  VER IPC-D-356A",
         "P  IMAGE PRIMARY",
     ]
-    for net, alias in w.aliases.items():
-        head.append(f"P  {alias:<11}{net}"[:80])
-    lines = head + w.comments + records + ["999"]
+    lines = head + w.alias_records() + w.comments + records + ["999"]
     return "\n".join(lines) + "\n"
 
 
@@ -600,7 +641,8 @@ def _check(board: SynthBoard) -> None:
 def write_fab(board: SynthBoard, folder: str | Path, *, netlist_units: str = "mm",
               netlist_offset_mm: Point = (0.0, 0.0), netlist_mirror: bool = False,
               gerber_units: str = "mm", netlist: bool = True,
-              netlist_conductors: bool = False) -> dict[str, Path]:
+              netlist_conductors: bool = False, netlist_round_y: str = "size",
+              netlist_long_names: str = "alias") -> dict[str, Path]:
     """Write the board's fab outputs into ``folder`` (created if missing).
 
     Parameters
@@ -614,6 +656,15 @@ def write_fab(board: SynthBoard, folder: str | Path, *, netlist_units: str = "mm
     gerber_units : "mm" or "inch" for the Gerber files.
     netlist : False to leave the netlist out.
     netlist_conductors : also write each trace as a 378 conductor record.
+    netlist_round_y : a round feature's (circle pad, via) Y size: "size" (written = X, the
+        default), "blank" (left blank, as the standard allows) or "zero" (0, as some writers do).
+    netlist_long_names : names longer than 14 characters (or with spaces): "alias" (the
+        standard's ``P  NNAME<n>`` records, ``NNAME<n>`` in the net field; the default),
+        "alias-short" (``P  NNAMEM<nnnn>`` and only ``M<nnnn>`` in the net field),
+        "alias-comment" (the alias in a ``C  NNAMEm<nnnn>`` comment line, ``m<nnnn>`` in the
+        field), "cut" (no aliases: every name upper-cased, non-printable characters as ``?``,
+        cut to its last 14 characters, so two names with the same tail become one) or
+        "cut-unique" (as "cut", but a repeated tail is made unique as its last 10 + ``#n``).
 
     Returns
     -------
@@ -631,7 +682,7 @@ def write_fab(board: SynthBoard, folder: str | Path, *, netlist_units: str = "mm
     if netlist:
         texts["netlist"] = (f"{board.name}-netlist.ipc",
                             _netlist_text(board, netlist_units, netlist_offset_mm, netlist_mirror,
-                                          netlist_conductors))
+                                          netlist_conductors, netlist_round_y, netlist_long_names))
     out: dict[str, Path] = {}
     for key, (name, text) in texts.items():
         path = folder / name

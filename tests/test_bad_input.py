@@ -263,6 +263,69 @@ def test_inconsistent_stackup_in_the_project_file_is_bad_input(board):
     assert "Traceback" not in msg
 
 
+# ---------------------------------------------------------------------------------------------
+# malformed Gerber statements: each kind is refused in one line that names the file and the
+# line of the statement, in the project's words (no library exception text)
+
+LIBRARY_WORDS = ("NoneType", "object has no attribute", "list index", "__init__", "positional argument",
+                 "could not convert", "This is garbage", "gerbonara", "Error:")
+
+# where: "start" = before any aperture is selected (after G75*), "end" = before M02*;
+# the snippet's first line is the statement the message must point at, unless `at` says
+BAD_GERBER = {
+    "invalid-d-code": ("end", "D0*", 0, "D0 is not a valid D code"),
+    "flash-before-aperture": ("start", "X1000000Y1000000D03*", 0, "flash (D03) before any aperture"),
+    "draw-before-aperture": ("start", "X1000000Y1000000D02*\nX2000000Y1000000D01*", 1,
+                             "draw (D01) before any aperture"),
+    "undefined-aperture": ("end", "D99*\nX1000000Y1000000D03*", 0, "D99 is selected but never defined"),
+    "unreadable-coordinate": ("end", "X1O00000Y0D01*", 0, "coordinate data that cannot be read"),
+    "invalid-operation-code": ("end", "X1000000Y0D04*", 0, "D04 is not an operation code"),
+    "coordinate-too-long": ("end", "X99999999999999999999Y0D01*", 0, "more than 14 digits"),
+    "aperture-parameters": ("end", "%ADD90R,1*%", 0, "a rectangle (R) takes 2 to 3 parameters"),
+    "aperture-not-a-number": ("end", "%ADD90C,0.5mm*%", 0, "parameter '0.5mm' is not a number"),
+    "aperture-negative": ("end", "%ADD90C,-0.5*%", 0, "negative size"),
+    "undefined-macro": ("end", "%ADD90NOSUCHMACRO,1X1*%", 0, "macro 'NOSUCHMACRO'"),
+    "macro-primitive": ("end", "%AMBAD*\n99,1,1*%", 0, "aperture macro primitive code 99"),
+    "macro-divides-by-zero": ("end", "%AMDIV*\n1,1,$1/0,0,0*%\n%ADD90DIV,1*%\nD90*\nX0Y0D03*", 2,
+                              "aperture D90 (macro DIV) divides by zero"),
+    "unreadable-format": ("end", "%FSLAX99Y99*%", 0, "the FS statement cannot be read"),
+    "unreadable-polarity": ("end", "%LPX*%", 0, "the LP statement cannot be read"),
+    "block-aperture": ("end", "%ABD90*%", 0, "block apertures (AB)"),
+    "nameless-attribute": ("end", "%TO*%", 0, "attribute statement without an attribute name"),
+    "g-code-with-data": ("end", "G99X0Y0D01*", 0, "G99 with data after it"),
+    "flash-in-region": ("end", "G36*\nX0Y0D02*\nX1000000Y0D01*\nX0Y0D03*\nG37*", 3, "flash (D03) inside a region"),
+}
+
+
+@pytest.mark.parametrize("kind", sorted(BAD_GERBER))
+def test_malformed_gerber_statement(board, kind):
+    folder, paths = board
+    top = paths["L1"]
+    lines = top.read_text().splitlines()
+    where, snippet, at, expected = BAD_GERBER[kind]
+    k = lines.index("G75*") + 1 if where == "start" else len(lines) - 1
+    assert where == "start" or lines[k] == "M02*"
+    lines[k:k] = snippet.split("\n")
+    top.write_text("\n".join(lines) + "\n")
+    msg = inspect_fails(folder, folder, f"{top.name}:{k + 1 + at}: ", expected)
+    assert not any(word in msg for word in LIBRARY_WORDS), msg
+
+
+def test_lone_unknown_statements_are_skipped_with_a_note(board):
+    # a job attribute some writers add, an unknown extended command, a lone unknown G code:
+    # none of them changes the image, so the layer is read and the notes say what was skipped
+    from loopcheck.readers.gerber import read_gerber
+    folder, paths = board
+    top = paths["L1"]
+    before = read_gerber(top).geometry.area
+    lines = top.read_text().splitlines()
+    lines[-1:-1] = ["%TJ.B_Owner,someone*%", "%XYZ123*%", "G99*"]
+    top.write_text("\n".join(lines) + "\n")
+    layer = read_gerber(top)
+    assert layer.geometry.area == pytest.approx(before)
+    assert sum("Unknown statement" in w for w in layer.warnings) == 3
+
+
 # --- refusals added with several boards per folder and drill files without their format -------
 
 def command_fails(args: list[str], watch: Path, *expected: str) -> str:

@@ -48,7 +48,7 @@ def test_a_case_per_rule_per_stage(tmp_path):
     assert "trace-temperature-rise [output path]" in names
     assert "trace-temperature-rise [input path]" in names
     assert [c.name for c in suites["led-sprawl.board"]] == ["netlist-open", "netlist-short",
-                                                            "netlist-alignment"]
+                                                            "netlist-alignment", "netlist-x2-mismatch"]
     assert xml.tests == sum(len(list(s)) for s in xml)
 
 

@@ -172,7 +172,7 @@ def test_no_hot_loop_is_not_made_with_reason():
 def test_circular_loop_vs_the_closed_form():
     # a ring trace of radius 10 mm, 0.5 mm wide, cut at 0 and 180 degrees into two nets joined by
     # two small parts: the loop through copper and parts against the circular loop of Grover
-    # (1946) / PHYSICS.md, L = mu0 R [ln(8R/r) - 2], with the strip's equivalent radius
+    # (1946), L = mu0 R [ln(8R/r) - 2], with the strip's equivalent radius
     from shapely.geometry import Point
     R, gap = 10.0, 1.0
     ring = Point(0, 0).buffer(R + W / 2, quad_segs=64).difference(Point(0, 0).buffer(R - W / 2, quad_segs=64))

@@ -11,6 +11,7 @@ from loopcheck.board import Pad
 from loopcheck.measure.current import measure_paths, rms_currents
 from loopcheck.measure.decoupling import measure_controller_decoupling, measure_input_cap
 from loopcheck.measure.netcopper import MeasureContext
+from loopcheck.measure.routes import route
 from loopcheck.measure.switchnode import measure_switch_node
 from loopcheck.powerstage import OperatingPoint, Role, Stage
 
@@ -38,7 +39,7 @@ def test_switch_node_path_resistance_and_ipc2221_rise():
                                                sw_stage(iout_a=1.0, ripple_ratio=0.0, vout_v=5.0,
                                                         ambient_c=25.0))}
     rise = ms["path.switch_node.temperature_rise"]
-    # IPC-2221 check value (PHYSICS.md, from I = 0.048 dT^0.44 A^0.725): 1 A, 10 C rise, external,
+    # IPC-2221 check value (IPC-2221 sec. 6.2, from I = 0.048 dT^0.44 A^0.725): 1 A, 10 C rise, external,
     # 1 oz = 1.378 mil -> A = 16.30 mil^2 = 11.83 mil wide = 0.300 mm
     assert rise.value == pytest.approx(10.0, rel=0.02)
     assert rise.detail["width_mm"] == pytest.approx(0.300, rel=0.01)
@@ -57,7 +58,7 @@ def test_switch_node_path_resistance_and_ipc2221_rise():
     assert ms["path.input.resistance"].value is None and ms["path.input.resistance"].not_made
 
 
-# RMS currents (PHYSICS.md "Switching consequences"; the waveform shapes are common practice):
+# RMS currents (derived in docs/physics.md "RMS currents"; the waveform shapes are common practice):
 # while a path conducts (a fraction F of the period: D for the buck's input, 1 - D for a boost's
 # rectifier, 1 for an inductor) its current ramps linearly from I (1 - r/2) to I (1 + r/2), r the
 # peak-to-peak ripple over the inductor's mean current I; the mean square of that ramp is
@@ -104,8 +105,13 @@ def test_input_caps_ranked_by_copper_path():
     assert p.value == pytest.approx(3.0, abs=0.1)
     rank = p.detail["ranking"]
     assert [r["ref"] for r in rank] == ["C1", "C2"]
-    # centreline 23 mm; the route may cut each of the two corners inside the 0.5 mm trace
-    assert 23 - 2 * 0.5 <= rank[1]["path_length_mm"] <= 23.1
+    assert rank[0]["rail_path_mm"] == pytest.approx(3.0, abs=0.1)
+    # C2 is farther in a straight line (rail + ground) than C1 by copper: not routed, and said so
+    assert rank[1]["path_length_mm"] is None and "straight line" in rank[1]["not_routed"]
+    # its copper path: centreline 23 mm; the route may cut each of the two corners inside the 0.5 mm trace
+    b = decoupling_board()
+    r2 = route(MeasureContext(b), b.terminals["C2.1"], b.terminals["Q1.3"])
+    assert 23 - 2 * 0.5 <= r2.length_mm <= 23.1
     assert ms["input_cap.straight_distance"].value == pytest.approx(3.0)
     assert p.detail["ground_path_mm"] == pytest.approx(5.0, abs=0.1)      # C1.2 (7, 2) to D1.2 (12, 2)
     L = ms["input_cap.inductance"]

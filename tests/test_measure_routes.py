@@ -8,7 +8,7 @@ from shapely.ops import unary_union
 
 from loopcheck.board import Pad
 from loopcheck.measure.netcopper import MeasureContext
-from loopcheck.measure.raster import grid_covering, rasterise
+from loopcheck.physics.raster import grid_covering, rasterise
 from loopcheck.measure.routes import Route, RouteError, narrowest_point, route
 
 from measure_boards import make_board, smd, square_pad, trace
@@ -94,3 +94,69 @@ def test_narrowest_point_finds_a_neck_but_not_a_pinch_between_holes():
     through = Route("G", "A.1", "B.1", [(2, 0, 0), (18, 0, 0)], [10.0], [], 16.0, 16.0, 0.05)
     w, *_ = narrowest_point(ctx, through)          # a route straight through the pinch
     assert w > 1.0
+
+
+# --- the route graph where via records coincide (issue 9 item 1) ------------------------------
+
+def _stitched_board(extra_pads=(), holes=()):
+    """Two stitched pours of one net (top and bottom), a pad on each layer, vias 0.1 mm apart in
+    a row (several to a raster cell at any pitch the routes use), a via listed twice (netlist
+    and drill, a few micrometres apart), a via in pad on both ends."""
+    from loopcheck.board import Hole
+
+    top = box(0, 0, 20, 10)
+    bot = box(0, 0, 20, 10)
+    pads = [smd("G", "A", 1, 2, 5), Pad("G", "B", "1", 18, 5, (1,), width_mm=1, height_mm=1)]
+    # stitching row
+    pads += [Pad("G", "", "", 6 + 0.1 * k, 2, (0, 1), hole_mm=0.2, is_via=True) for k in range(30)]
+    # one via, two records: the netlist's and the drill file's (slightly apart, both kept)
+    pads.append(Pad("G", "", "", 10, 8, (0, 1), hole_mm=0.3, is_via=True))
+    hs = [Hole(10.004, 8.0, 0.3, True), Hole(6.05, 2.0, 0.2, True)]
+    # via in pad under A and under B
+    pads += [Pad("G", "", "", 2, 5, (0, 1), hole_mm=0.3, is_via=True),
+             Pad("G", "", "", 18, 5, (0, 1), hole_mm=0.3, is_via=True)]
+    return make_board([top, bot], pads + list(extra_pads), holes=hs + list(holes))
+
+
+def test_unique_edges_keeps_each_pair_once_at_its_least_length():
+    import numpy as np
+    from loopcheck.measure.routes import unique_edges
+
+    a = np.array([0, 1, 2, 0, 3, 3])
+    b = np.array([1, 0, 3, 1, 2, 3])
+    ln = np.array([2.0, 1.5, 4.0, 3.0, 0.5, 1.0])
+    via = np.array([False, True, False, False, True, True])
+    ua, ub, ul, uv = unique_edges(a, b, ln, via)
+    got = {(int(x), int(y)): (float(l), bool(v)) for x, y, l, v in zip(ua, ub, ul, uv)}
+    # (0,1) three times -> 1.5 (the via record); (2,3) twice -> 0.5; the self-loop (3,3) dropped
+    assert got == {(0, 1): (1.5, True), (2, 3): (0.5, True)}
+
+
+@pytest.mark.parametrize("pitch", [None, 0.2, 0.5])
+def test_graph_weights_match_edges_with_coincident_vias(pitch):
+    import numpy as np
+    from loopcheck.measure.routes import net_raster
+
+    b = _stitched_board()
+    nr = net_raster(MeasureContext(b), "G", pitch)
+    g = nr.graph()
+    # every stored weight is its own edge's cost, both directions, each pair once
+    assert g.nnz == 2 * len(nr.edge_a)
+    w = nr.costs()
+    assert np.allclose(g[nr.edge_a, nr.edge_b].A1, w)
+    assert np.allclose(g[nr.edge_b, nr.edge_a].A1, w)
+    pairs = set(zip(np.minimum(nr.edge_a, nr.edge_b).tolist(), np.maximum(nr.edge_a, nr.edge_b).tolist()))
+    assert len(pairs) == len(nr.edge_a)
+    # an attraction factor goes through the same mapping
+    att = np.linspace(1, 3, len(nr.nodes))
+    assert np.allclose(nr.graph(att)[nr.edge_a, nr.edge_b].A1, nr.costs(att))
+
+
+@pytest.mark.parametrize("pitch", [None, 0.5])
+def test_route_across_stitched_pours_and_via_in_pad(pitch):
+    b = _stitched_board()
+    r = route(MeasureContext(b), b.terminals["A.1"], b.terminals["B.1"], pitch_mm=pitch)
+    # the via in pad A takes the current straight down (or B's up): one layer change, the
+    # straight line between the pads along the board
+    assert len(r.vias) == 1
+    assert r.length_mm == pytest.approx(16.0, abs=2 * r.pitch_mm + 0.05)

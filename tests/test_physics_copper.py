@@ -31,7 +31,7 @@ def test_resistivity_iacs_and_temperature_coefficient():
 
 
 def test_sheet_resistance_one_ounce():
-    # PHYSICS.md check worked from rho20 / t: 1 oz copper at 20 C gives about 0.495 mohm/sq
+    # check worked from rho20 / t (IACS 1913): 1 oz copper at 20 C gives about 0.495 mohm/sq
     # (0.4926 mohm/sq at 35.0 um; 0.4954 at 34.8 um).
     assert copper.sheet_resistance(34.8e-6) == pytest.approx(0.495e-3, rel=0.002)
     assert copper.sheet_resistance(OZ1) == pytest.approx(1.7241e-8 / OZ1, rel=1e-12)
@@ -50,7 +50,7 @@ def test_trace_resistance_ten_mil_one_inch():
 
 def test_via_resistance_annulus_and_thin_wall_limit():
     # Barrel as an annulus between d/2 and d/2 - t (exact geometry); thin-wall form
-    # rho h / (pi d t) for t << d (PHYSICS.md, via barrel).
+    # rho h / (pi d t) for t << d (thin-walled cylinder; plating thickness common practice).
     h, d, t = 1.6e-3, 0.3e-3, 25e-6
     r = copper.via_resistance(h, d, t)
     exact = 1.7241e-8 * h / (math.pi * ((d / 2) ** 2 - (d / 2 - t) ** 2))
@@ -60,7 +60,7 @@ def test_via_resistance_annulus_and_thin_wall_limit():
 
 
 @pytest.mark.parametrize("current, rise, internal, area_mil2, width_m", [
-    # PHYSICS.md checks worked from IPC-2221 sec. 6.2, I = k dT^0.44 A^0.725, 1 oz = 1.378 mil
+    # checks worked from IPC-2221 sec. 6.2, I = k dT^0.44 A^0.725, 1 oz = 1.378 mil
     (1.0, 10.0, False, 16.30, 0.300e-3),
     (3.0, 20.0, False, 48.70, 0.898e-3),
     (1.0, 10.0, True, 42.39, 0.781e-3),

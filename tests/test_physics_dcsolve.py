@@ -388,3 +388,33 @@ def test_zero_ohm_links_put_two_layers_in_parallel():
     expected = 1.0 / ((width / (length - 2)) * (1 / rs0 + 1 / rs1))
     assert rel(sol.resistance("a", "b"), expected) < 1e-6
     assert sol.contact_potential("a1") == pytest.approx(1.0)
+
+
+def test_a_pad_island_smaller_than_a_cell_joined_by_a_via_in_pad():
+    # a 0.1 mm top pad, its own island, on a via that lands in a bottom strip; on a 0.5 mm grid
+    # the pad crosses no cell face (the old solver refused it: "no grid cell"). Its cell becomes a
+    # node joined by the via: R = R_via + Rs L / W of the strip (exact, series), within the
+    # one-cell end effect of the coarse grid
+    rs, r_via = 0.5e-3, 0.01
+    top = shapely.box(1.7, 1.2, 1.8, 1.3)
+    bottom = shapely.box(0, 0, 20, 2)
+    pad = Contact("pad", 0, top)
+    end = Contact("end", 1, shapely.box(19, 0, 20, 2))
+    via = ViaLink(1.75, 1.25, 0, 1, r_via, radius_mm=0.05)
+    r = two_terminal_resistance([SheetLayer(top, rs), SheetLayer(bottom, rs)], pad, end, [via], pitch_mm=0.5)
+    expected = r_via + rs * (19 - 1.75) / 2
+    assert rel(r, expected) < 0.05
+
+
+def test_via_lands_on_a_coarse_grid_join_the_layers():
+    # vias whose lands are smaller than a cell (the centre rule finds no cell inside) and larger
+    # than several: both join the layers; with R_via >> copper, R -> R_via / N (bracket as above)
+    sheet = shapely.box(0, 0, 10, 10)
+    r_via = 0.05
+    for radius in (0.05, 0.8):
+        vias = [ViaLink(5, 2 + 2 * k, 0, 1, r_via, radius_mm=radius) for k in range(4)]
+        a = Contact("a", 0, shapely.box(0, 0, 1, 10))
+        b = Contact("b", 1, shapely.box(9, 0, 10, 10))
+        r = two_terminal_resistance([SheetLayer(sheet, 1e-3), SheetLayer(sheet, 1e-3)], a, b, vias,
+                                    pitch_mm=0.5)
+        assert r_via / 4 < r < r_via / 4 + 2e-3 * 9 / 10 * 1.5

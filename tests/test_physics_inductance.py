@@ -54,7 +54,7 @@ def neumann_reference(a0, a1, b0, b1, gmd=0.0):
 
 def test_bar_self_inductance_grover():
     # Grover, "Inductance Calculations" (1946), ch. 5, rectangular bar:
-    # l = 10 mm, w = 0.5 mm, t = 35 um -> 8.27 nH (PHYSICS.md check).
+    # l = 10 mm, w = 0.5 mm, t = 35 um -> 8.27 nH (Grover 1946, rectangular bar).
     assert ind.bar_self_inductance(10e-3, 0.5e-3, 35e-6) == pytest.approx(8.27e-9, rel=0.01)
 
 
@@ -84,7 +84,7 @@ def test_round_wire_limit_of_filament_engine():
 
 
 def test_reference_loop_formulas_check_values():
-    # Grover (1946) ch. 16 rectangle of round wire; ch. 13 circular ring (PHYSICS.md checks).
+    # Grover (1946) ch. 16 rectangle of round wire; ch. 13 circular ring (check values worked from Grover's formulas).
     assert ind.rectangular_loop_inductance(20e-3, 10e-3, R_WIRE) == pytest.approx(38.54e-9, rel=0.001)
     assert ind.rectangular_loop_inductance(10e-3, 10e-3, R_WIRE) == pytest.approx(23.32e-9, rel=0.001)
     # square form (2 mu0 a / pi)(ln(a/r) - 0.774), Grover ch. 16
@@ -148,7 +148,7 @@ def test_touching_filaments_closed_form_against_scipy(angle):
 
 
 def test_perpendicular_segments_have_no_mutual():
-    # Neumann integral: dl1 . dl2 = 0 (Grover 1946; PHYSICS.md).
+    # Neumann integral: dl1 . dl2 = 0 (Grover 1946).
     m = ind.segment_mutual_inductance([0, 0, 0], [1e-3, 0, 0], [2e-3, 0, 0], [2e-3, 3e-3, 0])
     assert m == 0.0
 

@@ -192,3 +192,17 @@ def test_energy_shares_sum_to_one_and_kirchhoff_holds():
     np.add.at(net, nodes[:, 1], sol.currents)
     assert np.max(np.abs(net)) < 1e-9
     assert sol.currents[len(con.bar_nodes)] == pytest.approx(1.0)
+
+
+def test_loop_basis_keeps_parallel_branches_apart():
+    # two branches between the same two nodes (two via records in one cell) and a third path:
+    # a graph with 3 nodes and 4 branches has 4 - 3 + 1 = 2 independent loops (Kirchhoff);
+    # a basis that summed the parallel pair indexed past its branches
+    import numpy as np
+
+    from loopcheck.physics.loopsolve import loop_basis
+
+    branches = np.array([[1, 2], [2, 0], [0, 1], [0, 1]])
+    C = loop_basis(3, branches).toarray()
+    assert C.shape == (4, 2)
+    assert np.linalg.matrix_rank(C) == 2

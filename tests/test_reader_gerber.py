@@ -578,3 +578,15 @@ def test_demo_board_area_agrees_with_gerbv_and_pygerber(rel):
         checked += 1
     if not checked:
         pytest.skip("neither gerbv nor pygerber available")
+
+
+def test_x2_net_copper_is_cut_only_by_clear_objects_that_come_after_it(tmp_path):
+    # a 10 x 10 mm GND region, a clear 2 x 2 mm hole in it, then a VIA pad (r 0.5) in the hole:
+    # the hole cuts GND's copper (drawn before it) but not the pad drawn after it
+    body = (f"%ADD10C,1*%\n%TO.N,GND*%\nG36*\nX0Y0D02*\nX{mm(10)}Y0D01*\nY{mm(10)}D01*\nX0D01*\n"
+            f"Y0D01*\nG37*\n%TD*%\n%LPC*%\nG36*\nX{mm(4)}Y{mm(4)}D02*\nX{mm(6)}D01*\nY{mm(6)}D01*\n"
+            f"X{mm(4)}D01*\nY{mm(4)}D01*\nG37*\n%LPD*%\n%TO.N,VIA_NET*%\nD10*\nX{mm(5)}Y{mm(5)}D03*\n%TD*%")
+    layer = read_gerber(gerber(tmp_path, body, header="%FSLAX46Y46*%\n%MOMM*%\n"))
+    assert layer.net_copper["GND"].area == pytest.approx(100.0 - 4.0, rel=1e-9)
+    assert layer.net_copper["VIA_NET"].area == pytest.approx(math.pi * 0.25, rel=1e-3)
+    assert layer.geometry.area == pytest.approx(96.0 + math.pi * 0.25, rel=1e-3)

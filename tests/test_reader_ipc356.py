@@ -399,3 +399,158 @@ def test_outline_without_a_size_word_is_read_when_only_that_closes(tmp_path):
     assert n.board_edge == [[(0, 0), (40, 0), (40, 30), (0, 30), (0, 0)]]
     assert n.outline[0].width_mm is None
     assert any("without a line-size word" in note for note in n.notes)
+
+
+# ---------------------------------------------------------------------------------------------
+# fields a writer may leave blank (IPC-D-356A, IPC, 1998: Y size of a round feature, rotation,
+# hole size, plating, access code and solder mask are optional), one hand-written case each
+
+BASE_327 = {1: "327", 4: "SW", 21: "U1", 27: "-", 28: "1", 39: "A01",
+            42: "X+010000", 50: "Y+020000"}
+
+
+def one(tmp_path, extra: dict[int, str], *head: str):
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", *head, card({**BASE_327, **extra}), "999"))
+    assert len(n.points) == 1
+    return n, n.points[0]
+
+
+def test_round_feature_with_a_blank_y_size(tmp_path):
+    n, p = one(tmp_path, {58: "X0110", 63: "Y    ", 68: "R090"})
+    assert (p.width_mm, p.height_mm, p.rotation_deg) == pytest.approx((0.110, 0.110, 90.0))
+    assert any("1 blank" in note and "round" in note for note in n.notes)
+
+
+def test_round_feature_with_a_zero_y_size(tmp_path):
+    n, p = one(tmp_path, {58: "X0110", 63: "Y0000", 68: "R000"})
+    assert (p.width_mm, p.height_mm) == pytest.approx((0.110, 0.110))
+    assert any("1 zero" in note for note in n.notes)
+
+
+def test_y_letter_at_the_end_of_the_line_is_a_blank_y_size(tmp_path):
+    _, p = one(tmp_path, {58: "X0110", 63: "Y"})
+    assert (p.width_mm, p.height_mm) == pytest.approx((0.110, 0.110))
+
+
+def test_blank_x_size_keeps_the_size_unknown(tmp_path):
+    _, p = one(tmp_path, {58: "X    ", 63: "Y    ", 68: "R   "})
+    assert p.width_mm is None and p.height_mm is None and p.rotation_deg == 0.0
+
+
+def test_blank_rotation(tmp_path):
+    _, p = one(tmp_path, {58: "X0200", 63: "Y0100", 68: "R   ", 73: "S0"})
+    assert p.rotation_deg == 0.0 and p.soldermask == 0 and p.height_mm == pytest.approx(0.1)
+
+
+def test_blank_hole_size_and_blank_plating(tmp_path):
+    n, p = one(tmp_path, {1: "317", 33: "D    P", 39: "A00", 58: "X0600"})
+    assert p.hole_mm is None and p.plated is True and p.access == 0
+    assert any("without a diameter" in note for note in n.notes)
+    _, q = one(tmp_path, {1: "317", 33: "D0300 ", 39: "A00", 58: "X0600"})
+    assert q.hole_mm == pytest.approx(0.3) and q.plated is None
+
+
+def test_blank_access_code_after_its_letter(tmp_path):
+    n, p = one(tmp_path, {39: "A  "})
+    assert p.access == 1
+    assert any("without an access code: read as top (01)" in note for note in n.notes)
+
+
+def test_blank_access_code_notes_are_counted_not_repeated(tmp_path):
+    rec = card({**BASE_327, 39: "   "})
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", *[rec] * 50, "999"))
+    assert len(n.points) == 50
+    assert sum("access code" in note for note in n.notes) == 1
+
+
+def test_solder_mask_blank_column_72_and_unreadable(tmp_path):
+    _, p = one(tmp_path, {58: "X0200", 63: "Y0100", 68: "R000", 73: "S "})
+    assert p.soldermask is None
+    n, q = one(tmp_path, {58: "X0200", 63: "Y0100", 68: "R000", 72: "S2"})
+    assert q.soldermask == 2 and any("column 72" in note for note in n.notes)
+    n, r = one(tmp_path, {58: "X0200", 63: "Y0000", 68: "R000", 72: "S-886273357"})
+    assert r.soldermask is None and r.height_mm == pytest.approx(0.2)
+    assert any("S-886273357" in note for note in n.notes)
+
+
+def test_digits_cut_by_the_end_of_the_line_are_still_an_error(tmp_path):
+    with pytest.raises(InputError, match="feature Y size") as err:
+        one(tmp_path, {58: "X0110", 63: "Y01"})
+    assert err.value.line == 2
+
+
+# ---------------------------------------------------------------------------------------------
+# long net names: aliases in the forms writers use
+
+
+def _named(tmp_path, field: str, *head: str):
+    n, p = one(tmp_path, {4: field}, *head)
+    return n, p.net
+
+
+def test_alias_parameter_record_whole_token(tmp_path):
+    _, net = _named(tmp_path, "NNAME1", "P  NNAME1     /POWER STAGE/SWITCH NODE")
+    assert net == "/POWER STAGE/SWITCH NODE"
+
+
+def test_alias_short_token_and_spaced_form(tmp_path):
+    _, net = _named(tmp_path, "M0000", "P  NNAMEM0000 /CONVERTER/BUCK_SW_LONG")
+    assert net == "/CONVERTER/BUCK_SW_LONG"
+    _, net = _named(tmp_path, "NNAME001", "P  NNAME 001 A_VERY_LONG_NET_NAME")
+    assert net == "A_VERY_LONG_NET_NAME"
+
+
+def test_alias_from_a_comment_line(tmp_path):
+    n, net = _named(tmp_path, "m0000", "C  NNAMEm0000 UNNAMED_2_VERY_LONG_NET")
+    assert net == "UNNAMED_2_VERY_LONG_NET"
+    assert any("comment lines" in note for note in n.notes)
+
+
+def test_short_token_is_not_taken_when_the_whole_token_is_used(tmp_path):
+    # "1" is a net of its own when the file writes its alias as NNAME1
+    recs = [card({**BASE_327, 4: "NNAME1"}), card({**BASE_327, 4: "1", 28: "2"})]
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", "P  NNAME1 LONG_NAME_OF_NET_ONE", *recs, "999"))
+    assert [p.net for p in n.points] == ["LONG_NAME_OF_NET_ONE", "1"]
+
+
+def test_two_aliases_with_the_same_full_name_stay_two_nets(tmp_path):
+    recs = [card({**BASE_327, 4: "NNAME1"}), card({**BASE_327, 4: "NNAME2", 28: "2"})]
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", "P  NNAME1 SAME_LONG_TAIL_NAME",
+                          "P  NNAME2 SAME_LONG_TAIL_NAME", *recs, "999"))
+    assert len(n.nets) == 2
+    assert sorted(n.nets) == ["SAME_LONG_TAIL_NAME [NNAME1]", "SAME_LONG_TAIL_NAME [NNAME2]"]
+    assert any("kept as its own net" in note for note in n.notes)
+
+
+def test_full_width_names_are_listed_for_restoring(tmp_path):
+    _, net = _named(tmp_path, "RADIO/PA_BOOST")
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", card({**BASE_327, 4: "RADIO/PA_BOOST"}), "999"))
+    assert n.maybe_cut_names == ["RADIO/PA_BOOST"]
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", card({**BASE_327, 4: "O/PA_BOOST#1"}), "999"))
+    assert n.maybe_cut_names == ["O/PA_BOOST#1"]
+
+
+# ---------------------------------------------------------------------------------------------
+# the real boards (KiCad 7 to 10): every record, every pin
+
+REALBOARDS = CORPUS.parent / "realboards"
+
+
+@pytest.mark.parametrize("board", ["bitaxe-ultra-acs", "led-boost-motionlight",
+                                   "underglow2-tps62172", "usbpd-hotplate-kicad10"])
+def test_realboard_netlists_read_every_record_and_pin(board):
+    path = REALBOARDS / board / "netlist.ipc"
+    if not path.exists():
+        pytest.skip(f"real board netlist not present at {path}")
+    lines = path.read_text(encoding="latin-1").splitlines()
+    records = [(k + 1, ln) for k, ln in enumerate(lines) if ln[:3] in ("317", "327", "367")]
+    n = read_ipc356(path)
+    assert [p.line for p in n.points] == [k for k, _ in records]
+    for (_, ln), p in zip(records, n.points):
+        assert p.pin == ln[27:31].strip() or p.is_via
+        assert p.ref == ("" if p.is_via else ln[20:26].strip())
+        assert p.width_mm and p.height_mm            # round features read as Y = X
+    # a round via: X0315Y0000 is 0.0315 inch both ways
+    vias = [p for p in n.points if p.is_via]
+    assert vias and all(p.height_mm == p.width_mm for p in vias)
+    assert all(len(p.net) <= 14 for p in n.points)

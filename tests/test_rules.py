@@ -1,6 +1,6 @@
 """Rule decks, thresholds, overrides, waivers and the evaluation of measurements into findings.
 
-The thresholds themselves are common practice (RULES.md); these tests check the machinery.
+The thresholds themselves are common practice; these tests check the machinery.
 """
 
 from __future__ import annotations

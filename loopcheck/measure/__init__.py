@@ -2,7 +2,8 @@
 
 Every measurement is a ``loopcheck.findings.Measurement`` whose ``quantity`` is one of the names
 below; the rule deck refers to these names, the reports print them. ``path.<name>`` stands for
-each high-current path: ``input``, ``switch_node``, ``output``, ``ground``.
+each high-current path: ``input``, ``switch_node``, ``output``, ``ground`` (the input
+current's return) and ``load_return`` (the load current's return).
 """
 
 # quantity -> (unit, plain label)
@@ -30,7 +31,7 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "switch_node.capacitance": ("pF", "switch-node copper capacitance to neighbouring planes"),
 }
 
-PATH_NAMES = ("input", "switch_node", "output", "ground")
+PATH_NAMES = ("input", "switch_node", "output", "ground", "load_return")
 
 
 def path_quantity(path: str, what: str) -> str:

@@ -57,14 +57,8 @@ def loop_ground_pad(ctx: MeasureContext, stage: Stage, exclude_ref: str) -> Pad 
     return None
 
 
-def measure_input_cap(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
-    names = ("input_cap.path_length", "input_cap.straight_distance", "input_cap.inductance")
-    caps = stage.roles_named("input_cap")
-    if not caps:
-        return [not_made(q, stage, "no input capacitor found for this stage") for q in names]
-    targets = switch_input_pads(ctx, stage)
-    if not targets:
-        return [not_made(q, stage, "the switch's input-rail terminal was not found") for q in names]
+def _rank_input_caps(ctx: MeasureContext, stage: Stage, caps, targets):
+    """Input capacitors ranked by the copper path from their input-rail pad to ``targets``."""
     ranked: list[tuple[float, str, Route | None, str | None, Pad | None]] = []
     for role in caps:
         cap_pads = ctx.board.components.get(role.ref, [])
@@ -84,18 +78,52 @@ def measure_input_cap(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
                 best = (r.length_mm, role.ref, r, None, p)
         ranked.append(best)
     ranked.sort(key=lambda t: (t[0], t[1]))
-    length, ref, r, why, cap_pad = ranked[0]
-    ranking = [{"ref": rf, "path_length_mm": (None if not math.isfinite(d) else round(d, 3)),
-                "not_routed": w} for d, rf, _, w, _ in ranked]
-    if r is None:
-        return [not_made(q, stage, f"no copper path from an input capacitor to the switch: {why}",
-                         refs=(ref,), detail={"ranking": ranking}) for q in names]
+    return ranked
+
+
+def measure_input_cap(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
+    """input_cap.path_length, .straight_distance, .inductance. Where the stage's hot loop closes
+    through an input capacitor (buck, buck-boost), it is the one ``loopcap`` chose for the loop,
+    so the loop and this measurement name the same part; a boost's input capacitor is ranked
+    here by its path to the inductor."""
+    from .loopcap import choose_loop_capacitor
+
+    names = ("input_cap.path_length", "input_cap.straight_distance", "input_cap.inductance")
+    choice = choose_loop_capacitor(ctx, stage) if stage.topology != "boost" else None
+    rg: Route | None = None
+    gpad: Pad | None = None
+    if choice is not None:
+        r = choice.rail_route
+        ref = choice.ref
+        cap_pad = ctx.board.terminals[r.start]
+        rg = choice.ground_route
+        gpad = ctx.board.terminals[rg.end]
+        ranking = choice.ranking
+        notes = ["capacitors across the input rail and ground ranked by the copper they add to the switching "
+                 "loop (input-rail path + ground path to the switch): " +
+                 ", ".join(f"{d['ref']} {d['path_length_mm']} mm" for d in ranking if d["path_length_mm"] is not None),
+                 "the nearest closes the hot loop and is reported here",
+                 "route: centreline-weighted shortest path through the copper raster"]
+    else:
+        caps = stage.roles_named("input_cap")
+        if not caps:
+            return [not_made(q, stage, "no input capacitor found for this stage") for q in names]
+        targets = switch_input_pads(ctx, stage)
+        if not targets:
+            return [not_made(q, stage, "the switch's input-rail terminal was not found") for q in names]
+        ranked = _rank_input_caps(ctx, stage, caps, targets)
+        length, ref, r, why, cap_pad = ranked[0]
+        ranking = [{"ref": rf, "path_length_mm": (None if not math.isfinite(d) else round(d, 3)),
+                    "not_routed": w} for d, rf, _, w, _ in ranked]
+        if r is None:
+            return [not_made(q, stage, f"no copper path from an input capacitor to the switch: {why}",
+                             refs=(ref,), detail={"ranking": ranking}) for q in names]
+        notes = [f"input capacitors ranked by copper path length to the switch: "
+                 + ", ".join(f"{d['ref']} {d['path_length_mm']} mm" for d in ranking),
+                 "route: centreline-weighted shortest path through the copper raster"]
     end = ctx.board.terminals[r.end]
     base = dict(refs=(ref,), terminals=(r.start, r.end), nets=(r.net,), x_mm=cap_pad.x_mm, y_mm=cap_pad.y_mm,
                 layer=ctx.board.layers[r.points[0][2]].name)
-    notes = [f"input capacitors ranked by copper path length to the switch: "
-             + ", ".join(f"{d['ref']} {d['path_length_mm']} mm" for d in ranking),
-             "route: centreline-weighted shortest path through the copper raster"]
     out = [measurement("input_cap.path_length", r.length_mm, stage, drawings=[polyline(r.points)],
                        assumptions=notes, detail={"ranking": ranking, "vias": len(r.vias),
                                                   "min_width_mm": r.min_width_mm}, **base),
@@ -103,21 +131,25 @@ def measure_input_cap(ctx: MeasureContext, stage: Stage) -> list[Measurement]:
                        drawings=[polyline([(cap_pad.x_mm, cap_pad.y_mm), (end.x_mm, end.y_mm)])],
                        assumptions=["pad centre to pad centre"], **base)]
     # connection inductance: the small loop through the capacitor and the switch
-    gpad = loop_ground_pad(ctx, stage, ref)
-    cap_g = [p for p in ctx.board.components.get(ref, []) if p.net == stage.ground_net]
-    if gpad is None or not cap_g:
-        out.append(not_made("input_cap.inductance", stage, "the ground side of the capacitor's loop was not found",
-                            **base))
-        return out
-    cg = min(cap_g, key=lambda p: math.hypot(p.x_mm - gpad.x_mm, p.y_mm - gpad.y_mm))
-    try:
-        rg = route(ctx, cg, gpad)
+    if rg is None:
+        gpad = loop_ground_pad(ctx, stage, ref)
+        cap_g = [p for p in ctx.board.components.get(ref, []) if p.net == stage.ground_net]
+        if gpad is None or not cap_g:
+            out.append(not_made("input_cap.inductance", stage, "the ground side of the capacitor's loop was not found",
+                                **base))
+            return out
+        cg = min(cap_g, key=lambda p: math.hypot(p.x_mm - gpad.x_mm, p.y_mm - gpad.y_mm))
+        try:
+            rg = route(ctx, cg, gpad)
+        except RouteError as exc:
+            out[0].detail["ground_path_mm"] = None
+            out[0].detail["ground_not_routed"] = str(exc)
+    else:
+        cg = ctx.board.terminals[rg.start]
+    if rg is not None:
         out[0].detail["ground_path_mm"] = rg.length_mm
-        out[0].detail["ground_terminals"] = [cg.terminal, gpad.terminal]
+        out[0].detail["ground_terminals"] = [rg.start, rg.end]
         out[0].drawings.append(polyline(rg.points))
-    except RouteError as exc:
-        out[0].detail["ground_path_mm"] = None
-        out[0].detail["ground_not_routed"] = str(exc)
     try:
         loop = build_loop(ctx, (cap_pad.terminal, end.terminal, gpad.terminal, cg.terminal))
         L, lnotes, det = loop_inductance_by_method(ctx, loop)

@@ -29,6 +29,8 @@ MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy 
 EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
 EDGE_MAX_LINES = 24         # ... at most this many extra cell edges per axis, those nearest the loop first
 FINE_MM = (0.1, 0.4)        # finest cell: a third of the narrowest loop conductor, within these bounds
+EDGE_FIRST = 1.0            # first cell at a copper edge, as a share of the finest cell (edge grading)
+GROWTH = 1.5                # growth of the cells away from the edges
 PACKAGE_INDUCTANCE_NOTE = ("a part is a straight strip between its pad centres, as wide as its smaller pad; "
                            "the package's own inductance beyond that strip is taken as zero (no table of "
                            "package inductances is applied)")
@@ -132,7 +134,7 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
                     fy += [vy - dia / 2 - 0.1, vy + dia / 2 + 0.1]
     # within the cell budget: first a faster growth, then without the copper-edge lines, then
     # coarser cells (the finest kept below the narrowest loop conductor as long as possible)
-    plan = [(True, 1.5, 1.0, 1.0, 1.0), (True, 2.0, 1.0, 1.5, 1.0), (False, 2.0, 1.0, 1.5, 1.0),
+    plan = [(True, GROWTH, 1.0, 1.0, 1.0), (True, 2.0, 1.0, 1.5, 1.0), (False, 2.0, 1.0, 1.5, 1.0),
             (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 0.6), (False, 2.5, 1.0, 3.5, 0.35)]
     plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 0.35) for k in range(1, 8)]
     bx = (min(xs), min(ys), max(xs), max(ys))
@@ -141,8 +143,8 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
         m = max(1.5, margin * km)      # a smaller window before coarser cells: thin traces stay meshed
         x0, y0, x1, y1 = bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m
         window = box(x0, y0, x1, y1)
-        xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f, c, growth)
-        ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f, c, growth)
+        xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f * EDGE_FIRST, c, growth)
+        ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f * EDGE_FIRST, c, growth)
         labels, island_net = _labels(ctx, xe, ye, window, nets)
         ncell = int(np.sum(labels >= 0))
         if 2 * ncell <= max_branches:
@@ -191,28 +193,33 @@ def _labels(ctx: MeasureContext, xe, ye, window, nets):
     X, Y = np.meshgrid(xc, yc, indexing="ij")
     labels = np.full((len(board.layers), len(xc), len(yc)), -1, dtype=int)
     island_net: list[str | None] = []
-    net_cu = {net: ctx.net_copper(net) for net in nets}
+    # ownership is judged inside the window only: a board-wide plane clipped to the window is a
+    # small polygon, and intersecting whole planes with whole nets' copper took seconds a loop
+    net_cu = {net: {k: g.intersection(window) for k, g in ctx.net_copper(net).items()} for net in nets}
     for k in range(len(board.layers)):
         polys, tree = ctx.islands(k)
         if not polys:
             continue
         for idx in tree.query(window, predicate="intersects"):
-            poly = polys[int(idx)]
+            clip = polys[int(idx)].intersection(window)
+            if clip.is_empty:
+                continue
             owner = None
             claims = []
             for net in nets:
                 g = net_cu[net].get(k)
-                if g is not None and poly.intersects(g):
-                    share = poly.intersection(g).area / max(poly.area, 1e-12)
-                    if share > 0.5 or poly.intersection(g).area > 0.5 * g.area:
-                        claims.append((share, net))
+                if g is None or g.is_empty or not clip.intersects(g):
+                    continue
+                common = clip.intersection(g).area
+                share = common / max(clip.area, 1e-12)
+                if share > 0.5 or common > 0.5 * g.area:
+                    claims.append((share, net))
             if len(claims) > 1:
                 raise FieldSolveError(
                     f"the copper of {' and '.join(n for _, n in claims)} is one island on "
                     f"{board.layers[k].name} (joined in the copper as read): the loop's nets cannot be told apart")
             if claims:
                 owner = claims[0][1]
-            clip = poly.intersection(window)
             if owner is None and clip.area < MIN_OTHER_ISLAND_MM2:
                 continue
             b = clip.bounds

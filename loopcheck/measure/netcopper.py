@@ -18,7 +18,7 @@ from shapely.ops import unary_union
 from shapely import affinity
 
 from ..board import Board, Pad
-from .raster import polygons_of
+from ..readers.fast_union import polygons_of
 
 DEFAULT_PAD_MM = 0.6            # pad size assumed where the netlist gives none
 
@@ -86,6 +86,7 @@ class MeasureContext:
     values: dict[str, str] = field(default_factory=dict)     # ref -> part value text (board, BOM, project)
     connectivity: Any = None       # a connectivity.ConnectivityResult: its copper groups give the nets' copper
     cache: dict[Any, Any] = field(default_factory=dict)
+    stages: list[Any] = field(default_factory=list)   # every stage of the board (dcflow: where current enters a rail)
     inductance_method: str = "field"   # hot-loop inductance: "field" (field solve) or "fast" (path sum)
 
     def value_of(self, ref: str) -> str | None:

@@ -30,7 +30,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import ndimage
-from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import dijkstra
 from shapely.geometry import LineString
 from shapely.geometry.base import BaseGeometry
@@ -38,7 +37,7 @@ from shapely.geometry.base import BaseGeometry
 from ..board import Pad
 from .common import MeasurementGap
 from .netcopper import MeasureContext, layer_z_mm
-from .raster import RasterGrid, cell_centre, grid_covering, rasterise
+from ..physics.raster import RasterGrid, cell_centre, grid_covering, rasterise
 
 ALPHA = 1.0            # centreline preference: cost weight of pitch / distance-to-edge
 MIN_PITCH_MM = 0.05
@@ -162,14 +161,26 @@ class NetRaster:
         return w
 
     def graph(self, attract: np.ndarray | None = None):
-        """The weighted graph (CSR); its structure is built once, only the weights change."""
+        """The weighted graph (CSR); its structure is built once, only the weights change.
+
+        The CSR arrays are built here from the (deduplicated, see ``unique_edges``) edge list, each
+        stored entry's edge id kept beside it, so the weights never depend on how a sparse-matrix
+        conversion orders or sums entries."""
         if getattr(self, "_csr", None) is None:
+            from scipy.sparse import coo_matrix
             N = len(self.nodes)
-            # both directions stored: dijkstra(directed=True) then needs no transpose per call
             E = len(self.edge_a)
-            order = np.concatenate([np.arange(1, E + 1), np.arange(1, E + 1)]).astype(float)
-            g = coo_matrix((order, (np.concatenate([self.edge_a, self.edge_b]),
-                                    np.concatenate([self.edge_b, self.edge_a]))), shape=(N, N)).tocsr()
+            # both directions stored: dijkstra(directed=True) then needs no transpose per call.
+            # Each stored entry carries its edge's id + 1 as its value, so the weights are put back
+            # by id whatever order the conversion leaves; the pairs are unique (``unique_edges``),
+            # and a conversion that merged entries (summing ids) is refused rather than used
+            ids = np.arange(1, E + 1, dtype=np.float64)
+            g = coo_matrix((np.concatenate([ids, ids]),
+                            (np.concatenate([self.edge_a, self.edge_b]),
+                             np.concatenate([self.edge_b, self.edge_a]))), shape=(N, N)).tocsr()
+            if g.nnz != 2 * E:
+                raise ValueError(f"route graph of net {self.net}: {2 * E - g.nnz} repeated node pairs "
+                                 "(edges must be unique)")
             self._perm = g.data.astype(np.int64) - 1
             self._csr = g
         if attract is None and getattr(self, "_plain", None) is not None:
@@ -179,6 +190,25 @@ class NetRaster:
         if attract is None:
             self._plain = g
         return g
+
+
+def unique_edges(a: np.ndarray, b: np.ndarray, length: np.ndarray,
+                 is_via: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """The undirected edge list with self-loops dropped and each node pair once, at its least
+    length (two via records in one raster cell, a via that is also a plated pad, stitching vias
+    give the same pair twice). A pair's via flag is that of its kept (shortest) record."""
+    a = np.asarray(a, dtype=np.int64)
+    b = np.asarray(b, dtype=np.int64)
+    length = np.asarray(length, dtype=float)
+    is_via = np.asarray(is_via, dtype=bool)
+    keep = a != b
+    a, b, length, is_via = a[keep], b[keep], length[keep], is_via[keep]
+    lo, hi = np.minimum(a, b), np.maximum(a, b)
+    order = np.lexsort((length, hi, lo))          # per pair, the shortest first
+    lo, hi, length, is_via = lo[order], hi[order], length[order], is_via[order]
+    first = np.ones(len(lo), dtype=bool)
+    first[1:] = (lo[1:] != lo[:-1]) | (hi[1:] != hi[:-1])
+    return lo[first], hi[first], length[first], is_via[first]
 
 
 def choose_pitch(area_mm2: float, min_width_mm: float | None = None) -> float:
@@ -191,8 +221,10 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
                window: tuple[float, float, float, float] | None = None) -> NetRaster:
     """The net's copper (within ``window`` [mm], if given) as a raster graph (cached in the context)."""
     key = ("raster", net, pitch_mm, window)
-    if key in ctx.cache:
-        return ctx.cache[key]
+    kept = _raster_cache(ctx)
+    if key in kept:
+        kept.move_to_end(key)
+        return kept[key]
     copper = ctx.net_copper(net)
     if not copper:
         raise RouteError(f"net {net} has no copper on any layer")
@@ -215,7 +247,7 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     grid = grid_covering((minx, miny, maxx, maxy), p)
     masks = np.stack([rasterise(copper[l], grid) for l in layers])
     edt = np.stack([(ndimage.distance_transform_edt(m) * p).astype(np.float32) for m in masks])
-    index = -np.ones(masks.shape, dtype=np.int64)
+    index = -np.ones(masks.shape, dtype=np.int32)
     nodes = np.argwhere(masks)
     index[masks] = np.arange(len(nodes))
     ea, eb, el = [], [], []
@@ -259,11 +291,37 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     is_via = np.zeros(len(edge_a), dtype=bool)
     if via_a:
         is_via[-len(via_a):] = True
+    if via_a:
+        # the in-layer edges are unique by construction (one per cell pair and offset); via
+        # records can repeat a pair: those are made unique here
+        va, vb, vl, vv = unique_edges(edge_a[is_via], edge_b[is_via], edge_len[is_via], is_via[is_via])
+        keep = ~is_via
+        edge_a = np.concatenate([edge_a[keep], va])
+        edge_b = np.concatenate([edge_b[keep], vb])
+        edge_len = np.concatenate([edge_len[keep], vl])
+        is_via = np.concatenate([is_via[keep], vv])
     e = edt[masks]
     base = 1.0 + ALPHA * p / np.maximum(e, p)
     out = NetRaster(net, grid, layers, masks, edt, index, nodes, edge_a, edge_b, edge_len, is_via, base, z)
-    ctx.cache[key] = out
+    kept[key] = out
+    while len(kept) > RASTERS_KEPT:
+        kept.popitem(last=False)
     return out
+
+
+RASTERS_KEPT = 3      # net rasters kept per board (the routes traced on them are kept apart)
+
+
+def _raster_cache(ctx: MeasureContext):
+    """The few net rasters last used (least recently used dropped first): a raster with its graph
+    is up to a couple of hundred MB, and each route window makes its own, so keeping them all
+    grows without bound on a board with many stages (routes themselves are cached in full)."""
+    from collections import OrderedDict
+
+    kept = ctx.cache.get("rasters")
+    if kept is None:
+        kept = ctx.cache["rasters"] = OrderedDict()
+    return kept
 
 
 def _attraction(nr: NetRaster, attract_to: BaseGeometry) -> np.ndarray:
@@ -535,10 +593,26 @@ def cast_width(copper: BaseGeometry, x: float, y: float, ux: float, uy: float,
     return None
 
 
+def _route_copper(ctx: MeasureContext, r: Route) -> dict[int, BaseGeometry]:
+    """The net's copper on the route's layers, clipped to the route's box grown by the cast reach
+    (a cut across the route never reaches farther; cutting a whole pour each time is slow)."""
+    import shapely
+
+    xs = [p[0] for p in r.points]
+    ys = [p[1] for p in r.points]
+    m = CAST_REACH_MM + 0.1
+    out = {}
+    for layer in {p[2] for p in r.points}:
+        g = ctx.net_copper(r.net).get(layer)
+        if g is not None:
+            out[layer] = shapely.clip_by_rect(g, min(xs) - m, min(ys) - m, max(xs) + m, max(ys) + m)
+    return out
+
+
 def segment_widths(ctx: MeasureContext, r: Route) -> list[float]:
     """Per-segment copper width [mm] measured on the geometry at each in-layer segment's midpoint
     (the raster width where the cut misses the copper, and for via crossings)."""
-    copper = ctx.net_copper(r.net)
+    copper = _route_copper(ctx, r)
     out = []
     for w, a, b in zip(r.widths_mm, r.points[:-1], r.points[1:]):
         L = math.hypot(b[0] - a[0], b[1] - a[1])
@@ -562,10 +636,10 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
     (it spreads around, and so does the heat)."""
     from shapely.geometry import Point
 
-    copper = ctx.net_copper(r.net)
     segs = [(a, b) for a, b in zip(r.points[:-1], r.points[1:]) if a[2] == b[2] and (a[0], a[1]) != (b[0], b[1])]
     if not segs:
         return r.narrowest()
+    copper = _route_copper(ctx, r)
     total = sum(math.hypot(b[0] - a[0], b[1] - a[1]) for a, b in segs)
     step = max(step_mm, total / max_casts)
     skip = []
@@ -578,9 +652,14 @@ def narrowest_point(ctx: MeasureContext, r: Route, step_mm: float = 0.25,
     def width_at(g, x, y, ux, uy):
         return cast_width(g, x, y, ux, uy)
 
+    # the raster already knows each segment's width within a pitch or two: cut only the segments
+    # that can hold the narrowest point (casts across large pours are slow)
+    raster_w = {(a, b): w for w, a, b in zip(r.widths_mm, r.points[:-1], r.points[1:])}
+    w_min = min(raster_w.get(sg, math.inf) for sg in segs)
+    near_neck = w_min * 1.5 + 2 * r.pitch_mm
     for a, b in segs:
         g = copper.get(a[2])
-        if g is None:
+        if g is None or raster_w.get((a, b), 0.0) > near_neck:
             continue
         L = math.hypot(b[0] - a[0], b[1] - a[1])
         ux, uy = (b[0] - a[0]) / L, (b[1] - a[1]) / L

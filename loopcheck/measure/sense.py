@@ -25,15 +25,15 @@ from ..findings import Measurement
 from ..powerstage import Stage
 from ..values import parse_value
 from .common import measurement, not_made, op_assumptions, point, polygon, polyline
-from .dcnet import pad_contact, sheets_and_vias
+from .dcflow import NetFlow, input_return, main_sink, main_source, net_flow
+from .dcnet import pad_contact, sheets_and_vias, solve_window, window_note
 from .hotloop import enclosed_area
 from .netcopper import MeasureContext
 from .routes import Route, RouteError, route
 
 FEEDBACK_NAMES = re.compile(r"(^|[^A-Z])(FB|VFB|FEEDBACK|ISNS|CS|SENSE)(\d*|[^A-Z].*)?$", re.I)
 DC_MAX_CELLS = 150_000      # raster cap for the DC solve of one sense net
-_PRIORITY = ("inductor", "switch", "rectifier", "input_cap", "output_cap")
-_CONNECTOR = re.compile(r"^(J|P|CN|X|TP|CON|LED|D)\d", re.I)
+_PRIORITY = ("inductor", "switch", "rectifier")     # a capacitor carries no DC: never a current terminal
 
 
 def _sense_nets(ctx: MeasureContext, stage: Stage, role) -> tuple[list[Pad], list[Pad]] | None:
@@ -50,10 +50,11 @@ def _sense_nets(ctx: MeasureContext, stage: Stage, role) -> tuple[list[Pad], lis
 
 
 def _current_terminal(ctx: MeasureContext, stage: Stage, net: str, exclude: set[str],
-                      near: Pad) -> tuple[list[Pad], str]:
-    """Where the load current enters or leaves ``net`` (other than the sense resistor): the
-    inductor's pad, else the switch's, rectifier's, the loop capacitors', a connector's, else the
-    pad farthest from the resistor."""
+                      near: Pad, leaving: bool) -> tuple[list[Pad], str]:
+    """Where the load current enters (``leaving`` False) or leaves ``net`` other than through the
+    sense resistor: the stage's inductor, switch or rectifier where one is on the net, else
+    ``dcflow``'s answer (a connector, the LEDs, a downstream stage, an IC's supply; on the ground
+    net the input supply's return). A capacitor carries no DC: never this terminal."""
     on_net = [p for p in ctx.board.nets.get(net, []) if p.ref and not p.is_via and p.ref not in exclude]
     for role_name in _PRIORITY:
         refs = {r.ref for r in stage.roles_named(role_name)}
@@ -61,12 +62,18 @@ def _current_terminal(ctx: MeasureContext, stage: Stage, net: str, exclude: set[
         if pads:
             ref = min(pads, key=lambda p: math.hypot(p.x_mm - near.x_mm, p.y_mm - near.y_mm)).ref
             return [p for p in pads if p.ref == ref], f"the {role_name.replace('_', ' ')} {ref}"
-    conn = [p for p in on_net if _CONNECTOR.match(p.ref)]
-    cands = conn or on_net
-    if not cands:
+    if net == stage.ground_net:
+        pads, why, assumed = input_return(ctx, stage)
+        pads = [p for p in pads if p.ref not in exclude]
+        if pads:
+            return pads[:1], why + (" (assumed)" if assumed else "")
         return [], ""
-    far = max(cands, key=lambda p: math.hypot(p.x_mm - near.x_mm, p.y_mm - near.y_mm))
-    return [far], f"{far.terminal} (the farthest {'connector ' if conn else ''}pad on {net})"
+    flow = net_flow(ctx, net, stage)
+    ends = [e for e in (flow.sinks if leaving else flow.sources) if e.ref not in exclude]
+    pick = (main_sink if leaving else main_source)(NetFlow(net, ends, ends), near)
+    if pick is None:
+        return [], ""
+    return pick.pads[:1], pick.evidence + (" (assumed)" if pick.assumed else "")
 
 
 def _taps(ctx: MeasureContext, stage: Stage, key: str, net: str) -> list[Pad]:
@@ -136,18 +143,30 @@ def _kelvin(ctx, stage, role, pa, pb, tap_a, tap_b, base) -> Measurement:
     current = op.iout_a if op.iout_a > 0 else 1.0
     temp = op.ambient_c
     excl = {role.ref} | {r.ref for r in stage.roles_named("controller")}
-    in_a, why_a = _current_terminal(ctx, stage, pa[0].net, excl, pa[0])
-    out_b, why_b = _current_terminal(ctx, stage, pb[0].net, excl, pb[0])
+    in_a, why_a = _current_terminal(ctx, stage, pa[0].net, excl, pa[0], leaving=False)
+    out_b, why_b = _current_terminal(ctx, stage, pb[0].net, excl, pb[0], leaving=True)
     if not in_a or not out_b:
         net = pa[0].net if not in_a else pb[0].net
         return not_made(q, stage, f"no terminal carries the load current on {net}", **base)
+    def window(pads: list[Pad], fr: Pad, taps: list[Pad], to: list[Pad]):
+        # the contacts and the copper paths between them (a sense trace may wander)
+        pts = [(p.x_mm, p.y_mm) for p in pads]
+        for ends in (taps, to):
+            try:
+                pts += route(ctx, fr, ends).xy
+            except RouteError:
+                pass
+        return solve_window(pts)
+
+    win_a = window(in_a + pa + tap_a, pa[0], tap_a, in_a)
+    win_b = window(out_b + pb + tap_b, pb[0], tap_b, out_b)
     try:
-        layers, vias, ix = sheets_and_vias(ctx, pa[0].net, temp)
+        layers, vias, ix = sheets_and_vias(ctx, pa[0].net, temp, win_a)
         sol = solve_dc(layers, [pad_contact(ctx, "in", in_a, ix, current_a=current),
                                 pad_contact(ctx, "rs", pa, ix, potential_v=0.0),
                                 pad_contact(ctx, "tap", tap_a, ix)], vias, max_cells=DC_MAX_CELLS)
         e_a = sol.contact_potential("tap") - sol.contact_potential("rs")
-        layers, vias, ix = sheets_and_vias(ctx, pb[0].net, temp)
+        layers, vias, ix = sheets_and_vias(ctx, pb[0].net, temp, win_b)
         sol_b = solve_dc(layers, [pad_contact(ctx, "rs", pb, ix, current_a=current),
                                   pad_contact(ctx, "out", out_b, ix, potential_v=0.0),
                                   pad_contact(ctx, "tap", tap_b, ix)], vias, max_cells=DC_MAX_CELLS)
@@ -163,7 +182,8 @@ def _kelvin(ctx, stage, role, pa, pb, tap_a, tap_b, base) -> Measurement:
     notes += [f"load current enters {pa[0].net} at {why_a} and leaves {pb[0].net} at {why_b}",
               f"copper at {temp:g} C (ambient); sense pins are floating taps (no current)",
               "resistor body lumped between its pads; ideal drop I R between the resistor's own pads",
-              "DC solve of each sense net's copper (finite differences on a raster)"] + \
+              "DC solve of each sense net's copper (finite differences on a raster)",
+              window_note(win_a)] + \
         op_assumptions(op, ("iout_a", "ambient_c"))
     tp = tap_a[0]
     return measurement(q, abs(pct), stage, drawings=[point(tp.x_mm, tp.y_mm), point(tap_b[0].x_mm, tap_b[0].y_mm)],

@@ -24,7 +24,7 @@ from ..findings import Measurement
 from ..powerstage import Stage
 from .common import measurement, not_made, polygon
 from .netcopper import MeasureContext, dielectric_between, pad_polygon
-from .raster import polygons_of
+from ..readers.fast_union import polygons_of
 
 
 def measure_switch_node(ctx: MeasureContext, stage: Stage) -> list[Measurement]:

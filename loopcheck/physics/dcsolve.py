@@ -560,6 +560,33 @@ def _nearest_active(grid: RasterGrid, active: np.ndarray, x: float, y: float, re
     return -1
 
 
+def _disk_cells(grid: RasterGrid, active: np.ndarray, x: float, y: float, radius_mm: float) -> np.ndarray:
+    """Flat indices (within the layer) of the active cells whose centres lie in the disk (a via's
+    land); when none does (a land smaller than a cell), the cell holding the centre if active,
+    else the active cell nearest the centre within 1.5 pitches, else the centre's own cell.
+
+    The same cells as "at least half inside" up to the cells the disk's edge cuts near their
+    centres, computed from the cell centres alone (vias are many: rasterising each land's
+    polygon was the solve's largest cost on real boards)."""
+    h = grid.pitch_mm
+    r = int(math.ceil(radius_mm / h)) + 1
+    i, j = grid.cell_of(x, y)
+    i0, i1 = max(i - r, 0), min(i + r + 1, grid.ny)
+    j0, j1 = max(j - r, 0), min(j + r + 1, grid.nx)
+    ii, jj = np.mgrid[i0:i1, j0:j1]
+    cy = grid.y0_mm + (ii + 0.5) * h
+    cx = grid.x0_mm + (jj + 0.5) * h
+    inside = ((cx - x) ** 2 + (cy - y) ** 2 <= radius_mm ** 2) & active[i0:i1, j0:j1]
+    if inside.any():
+        return (ii[inside] * grid.nx + jj[inside]).astype(np.int64)
+    if active[i, j]:
+        return np.array([i * grid.nx + j], dtype=np.int64)
+    near = _nearest_active(grid, active, x, y)
+    # else the land is on an island smaller than a cell: its own cell becomes a node (the merger
+    # keeps it), joined by the via and by a contact in the same cell
+    return np.array([near if near >= 0 else i * grid.nx + j], dtype=np.int64)
+
+
 def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
                   active: np.ndarray, what: str, weights: bool = True):
     """Cells of a polygonal region on copper.
@@ -584,7 +611,16 @@ def _region_cells(geom: BaseGeometry, copper: BaseGeometry, grid: RasterGrid,
     if not np.any(pick):
         m = np.where(act, cov, 0.0)
         if m.max() <= 0:
-            raise ValueError(f"{what} lies outside the copper (no grid cell; try a finer pitch_mm)")
+            # the region lies on copper that crosses no cell face: an island smaller than a cell
+            # (a pad joined to the rest of its net by a via in the pad, on a coarse grid). The
+            # cell under the region's centre stands for it: as an equipotential contact it
+            # becomes a node of its own, joined to the rest by the vias that land in it
+            if not weights:
+                raise ValueError(f"{what} lies outside the copper (no grid cell; try a finer pitch_mm)")
+            c = geom.centroid
+            i, j = grid.cell_of(float(c.x), float(c.y))
+            cells = np.array([i * grid.nx + j], dtype=np.int64)
+            return cells, cells, np.ones(1)
         pick = m >= m.max() * (1 - 1e-9)
     ii, jj = np.nonzero(pick)
     cells = (ii + i0) * grid.nx + (jj + j0)
@@ -799,14 +835,10 @@ def solve_dc(
             if not shapely.intersects(geoms[layer], pt):
                 raise ValueError(f"{what} lies outside the copper")
             if ln.radius_mm > 0:
+                cells = _disk_cells(grid, actives[layer], xy[0], xy[1], ln.radius_mm)
+                if len(cells) == 0:
+                    raise ValueError(f"{what} lies outside the copper")
                 disk = pt.buffer(ln.radius_mm, quad_segs=16)
-                try:
-                    cells, _, _ = _region_cells(disk, geoms[layer], grid, actives[layer], what,
-                                                weights=False)
-                except ValueError:
-                    cells = np.array([_nearest_active(grid, actives[layer], *xy)])
-                    if cells[0] < 0:
-                        raise
                 ends.append(("g", merger.add(cells + layer * n_cells, disk)))
             else:
                 cell = _nearest_active(grid, actives[layer], *xy)

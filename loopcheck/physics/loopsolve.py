@@ -389,15 +389,19 @@ def loop_basis(n_nodes: int, branch_nodes: np.ndarray, first: int | None = None)
     if first is not None:
         order = np.concatenate([order[order != first], [first]])
     # adjacency with branch ids; the forced branch last so that BFS prefers the others
-    adj = coo_matrix((np.concatenate([order, order]) + 1,
-                      (np.concatenate([u[order], v[order]]), np.concatenate([v[order], u[order]]))),
-                     shape=(n_nodes, n_nodes)).tocsr()
+    # built by hand, not through a sparse matrix: parallel branches between the same two nodes
+    # (two vias in one cell, a via and a pad link) must stay apart, a conversion would sum them
+    rows = np.concatenate([u[order], v[order]]).astype(np.int64)
+    srt = np.argsort(rows, kind="stable")
+    indices = np.concatenate([v[order], u[order]]).astype(np.int64)[srt]
+    data = np.concatenate([order, order]).astype(np.int64)[srt] + 1
+    indptr = np.zeros(n_nodes + 1, dtype=np.int64)
+    np.cumsum(np.bincount(rows, minlength=n_nodes), out=indptr[1:])
     parent = np.full(n_nodes, -1)
     parent_branch = np.full(n_nodes, -1)
     depth = np.zeros(n_nodes, dtype=int)
     seen = np.zeros(n_nodes, dtype=bool)
     in_tree = np.zeros(nbr, dtype=bool)
-    indptr, indices, data = adj.indptr, adj.indices, adj.data
     for root in range(n_nodes):
         if seen[root]:
             continue

@@ -9,7 +9,18 @@ Parsing is gerbonara's (``GerberParser``), with a thin subclass that
   * reads X2 attributes written inside comments (``G04 #@! TF...*``, ``G04 #@! TO...*``);
   * gives regions the object attributes (net, pin) that were current when they were drawn;
   * tolerates a %TD% of an attribute that was never set (harmless, and some writers do it);
-  * supports the LM / LR / LS aperture transformations (mirror, rotate, scale of flashes).
+  * supports the LM / LR / LS aperture transformations (mirror, rotate, scale of flashes);
+  * refuses every malformed statement in its own words, naming the file and the line: an
+    invalid D code (``D0``), an undefined aperture selected, a flash or draw before any aperture
+    is selected, coordinate words that cannot be read (or longer than 14 digits, the most a
+    format statement can declare), an operation code other than D01-D03, an aperture definition
+    with the wrong number of parameters, a negative size or an undefined macro, a macro that
+    cannot be parsed or evaluated (the message names the aperture's definition line),
+    unreadable FS / MO / LP / LM / LR / LS / SR statements, block apertures (AB, not supported),
+    attribute statements without a name and unknown G codes with data. gerbonara's exception
+    text never reaches the user (``_REASONS`` translates the ones it raises). A lone unknown
+    statement that cannot change the image (a job attribute, an unknown extended command, a
+    lone unknown G code) is skipped with a note.
 
 Geometry is built here: each aperture's shape once (``aperture_shapes``), flashes stamped
 vectorised, strokes with round apertures buffered (round caps), strokes with other apertures swept
@@ -17,7 +28,9 @@ as the convex hull of the aperture at both ends, arcs and region arcs approximat
 sagitta below ``tol_mm`` (default 5 um; circles are area-equivalent polygons), regions repaired
 with ``make_valid`` (cut-ins). Polarity follows file order exactly: the image is the union over
 dark runs of each run minus every clear run after it (``fast_union.compose``: each dark shape cut
-only by the later clear shapes it meets, then one clustered union of everything).
+only by the later clear shapes it meets, then one clustered union of everything). The copper of
+each X2 net (``%TO.N%``) follows the same rule: each of its parts is cut by the clear shapes that
+come after it and meet it, and by nothing else (``_Image.net_copper``).
 
 References
 ----------
@@ -87,6 +100,19 @@ class _LimitExceeded(Exception):
     pass
 
 
+class _Malformed(Exception):
+    """A statement the Gerber format does not allow; the message is ours (never a library's)."""
+
+
+class _ApertureFailure(Exception):
+    """An aperture whose shape cannot be built (a macro that divides by zero, ...)."""
+
+    def __init__(self, aperture, cause: Exception):
+        super().__init__(type(cause).__name__)
+        self.aperture = aperture
+        self.cause = cause
+
+
 class _ObjectList(list):
     """gerbonara's parser appends every finished object here: stamp regions, count objects."""
 
@@ -119,6 +145,9 @@ class _Parser(GerberParser):
     STATEMENT_REGEXES["load_mirroring"] = r"^LM(?P<mirror>N|XY|X|Y)$"
     STATEMENT_REGEXES["load_rotation"] = fr"^LR(?P<angle>{_DEC})$"
     STATEMENT_REGEXES["load_scaling"] = fr"^LS(?P<scale>{_DEC})$"
+    # coordinate numbers of at most 14 digits (7 + 7, the most an FS statement declares): a
+    # longer word is not matched, and the unknown-statement check below refuses it
+    STATEMENT_REGEXES["coord"] = GerberParser.STATEMENT_REGEXES["coord"].replace(r"[\+-]?\d+", r"[\+-]?\d{1,14}")
 
     def __init__(self, target, limits: InputLimits):
         super().__init__(target)
@@ -137,6 +166,7 @@ class _Parser(GerberParser):
         self._zero_width: dict[int, bool] = {}
         self._value_key = None
         self._value_scale = None
+        self.aperture_lines: dict[int, tuple[int, int]] = {}   # id(aperture) -> (D number, line)
 
     # -- the common case fast: a linear D01 (a trace segment, or a region contour point) is handled
     #    here with what gerbonara would do for it, minus its per-statement checks that cannot fire
@@ -166,6 +196,11 @@ class _Parser(GerberParser):
     def _parse_coord(self, match):
         interp, x_s, x, y_s, y, i_s, i, j_s, j, op = match.groups()
         gs = self.graphics_state
+        if gs.aperture is None and self.current_region is None:
+            if op == "3":
+                raise _Malformed("a flash (D03) before any aperture is selected (Dnn, nn >= 10)")
+            if op == "1" or (op is None and (x or y) and self.last_operation == "1"):
+                raise _Malformed("a draw (D01) before any aperture is selected (Dnn, nn >= 10)")
         if (op == "3" and interp is None and not i and not j and self.current_region is None
                 and gs.point is not None and gs.unit is not None and gs.aperture is not None
                 and not self.step_repeat_objects):
@@ -229,9 +264,86 @@ class _Parser(GerberParser):
                                             polarity_dark=gs._polarity_dark, unit=gs.unit,
                                             attrs=dict(gs.object_attrs)))
 
+    # -- apertures: checked here so that a bad definition or selection is named in our words
+    _SHAPE_PARAMS = {"C": ("circle", 1, 2), "R": ("rectangle", 2, 3), "O": ("obround", 2, 3),
+                     "P": ("polygon", 2, 4)}
+
+    def _parse_aperture_definition(self, match):
+        number, shape, mods = int(match["number"]), match["shape"], match["modifiers"]
+        if number < 10:
+            raise _Malformed(f"aperture number D{number}: apertures are numbered from D10")
+        values = []
+        for word in (mods.strip(" ,").split("X") if mods and mods.strip(" ,") else []):
+            try:
+                values.append(float(word))
+            except ValueError:
+                raise _Malformed(f"aperture D{number}: parameter {word!r} is not a number") from None
+            if not math.isfinite(values[-1]):
+                raise _Malformed(f"aperture D{number}: parameter {word!r} is not a finite number")
+        if shape in self._SHAPE_PARAMS:
+            name, lo, hi = self._SHAPE_PARAMS[shape]
+            if not lo <= len(values) <= hi:
+                raise _Malformed(f"aperture D{number}: a {name} ({shape}) takes {lo} to {hi} "
+                                 f"parameters, {len(values)} given")
+            if any(v < 0 for v in values[:1 if shape in "CP" else 2]) or (shape == "P" and values[1] < 3):
+                raise _Malformed(f"aperture D{number}: a {name} with a negative size"
+                                 + (" or fewer than 3 vertices" if shape == "P" else ""))
+        elif shape not in self.aperture_macros:
+            raise _Malformed(f"aperture D{number} uses the macro {shape!r}, which no AM statement "
+                             "before it defines")
+        super()._parse_aperture_definition(match)
+        self.aperture_lines[id(self.aperture_map[number])] = (number, self.lineno)
+
+    def _parse_aperture(self, match):
+        number = int(match["number"])
+        if number < 10:
+            raise _Malformed(f"D{number} is not a valid D code (D01, D02 and D03 are operations "
+                             "and come after coordinates; apertures are numbered from D10)")
+        if number not in self.aperture_map and not (number == 10 and "zuken" in self.generator_hints):
+            raise _Malformed(f"aperture D{number} is selected but never defined (no %ADD{number}...*% "
+                             "before it)")
+        super()._parse_aperture(match)
+
+    def _parse_attribute(self, match):
+        if not match["name"] and match["type"] != "TD":
+            raise _Malformed(f"a {match['type']} attribute statement without an attribute name")
+        if match["type"] != "TD" and match["value"] is None:
+            # a named attribute without a value: read as one empty field
+            match = re.match(self.STATEMENT_REGEXES["attribute"], f"{match['type']}{match['name']},")
+        if match["type"] == "TD" and match["name"]:
+            name = match["name"]
+            if name not in self.graphics_state.object_attrs and name not in self.aperture_attrs:
+                return   # deleting what was never set, or a file attribute: nothing to do
+        super()._parse_attribute(match)
+
+    # statements gerbonara does not know: those that would change the image are refused; others
+    # (job attributes, unknown extended commands, a lone unknown G code) are noted and skipped
+    _DATA_STATEMENT = re.compile(r"^(?:G0*\d+)?\s*(?:[XYIJ][+-]?[\d.]|[XYIJ].*D0*\d+$)")
+    _IMAGE_STATEMENT = re.compile(r"^(FS|MO|LP|LM|LR|LS|AD|AM|SR|AB|IP|OF|SF|MI|IR|AS)")
+
+    def _unknown_statement(self, stmt: str) -> None:
+        m = re.search(r"D0*(\d+)$", stmt)
+        if m and re.match(r"^(?:G0*\d+)?\s*(?:[XYIJ][+-]?\d{1,14})*D", stmt) and int(m[1]) in (0, 4, 5, 6, 7, 8, 9):
+            raise _Malformed(f"D{int(m[1]):02d} is not an operation code (D01 draw, D02 move, D03 flash)")
+        if re.search(r"\d{15}", stmt):
+            raise _Malformed("a coordinate word of more than 14 digits")
+        m = self._IMAGE_STATEMENT.match(stmt)
+        if m:
+            if m[1] == "AB":
+                raise _Malformed("block apertures (AB) are not supported by this reader")
+            raise _Malformed(f"the {m[1]} statement cannot be read")
+        m = re.match(r"^G0*(\d+)(.*)$", stmt)
+        if m and m[2].strip():
+            raise _Malformed(f"G{int(m[1]):02d} with data after it: not a G code of the Gerber format")
+        if self._DATA_STATEMENT.search(stmt):
+            raise _Malformed("coordinate data that cannot be read (X, Y, I, J words of digits "
+                             "with an optional sign, then D01, D02 or D03)")
+
     # -- warnings: kept on the parser (a few, for the layer's notes), not through the warnings
     #    module: some files raise one per coordinate statement
     def warn(self, msg, kls=SyntaxWarning):
+        if msg.startswith("Unknown statement found"):
+            self._unknown_statement(self.line or "")
         if "missing mandatory M02" in msg:
             self.missing_eof = True
         elif len(self.notes) < 20:
@@ -290,13 +402,6 @@ class _Parser(GerberParser):
                 self._parse_attribute(am)
                 return
         super()._parse_comment(match)
-
-    def _parse_attribute(self, match):
-        if match["type"] == "TD" and match["name"]:
-            name = match["name"]
-            if name not in self.graphics_state.object_attrs and name not in self.aperture_attrs:
-                return   # deleting what was never set, or a file attribute: nothing to do
-        super()._parse_attribute(match)
 
     # -- aperture transformations (gerbonara 1.5.0 has none)
     def _update_transform(self):
@@ -380,18 +485,19 @@ def _parse(path: Path, text: str, limits: InputLimits) -> tuple[GerberFile, _Par
             parser._close_sr()
         except _LimitExceeded as e:
             raise InputError(str(e), path=str(path), line=parser.lineno or None) from None
+        except _Malformed as e:
+            raise _statement_error(path, parser, str(e)) from None
         except SyntaxError as e:
             cause = e.__cause__
             if isinstance(cause, _LimitExceeded):
                 raise InputError(str(cause), path=str(path), line=_line_of(e, parser)) from None
-            detail = _one_line(str(cause) if cause is not None else str(e))
-            raise InputError(f"Gerber syntax error: {detail}", path=str(path),
-                             line=_line_of(e, parser)) from None
+            if isinstance(cause, _Malformed):
+                raise _statement_error(path, parser, str(cause)) from None
+            raise _statement_error(path, parser, _reason(cause if cause is not None else e)) from None
         except RecursionError:
             raise InputError("Gerber file too deeply nested", path=str(path)) from None
         except Exception as e:  # gerbonara raises assorted types on malformed input
-            raise InputError(f"cannot parse Gerber: {type(e).__name__}: {_one_line(str(e))}",
-                             path=str(path), line=parser.lineno or None) from None
+            raise _statement_error(path, parser, _reason(e)) from None
     if parser.missing_eof:
         raise InputError("Gerber file ends without M02: truncated or incomplete", path=str(path))
     notes = list(parser.notes)
@@ -400,6 +506,45 @@ def _parse(path: Path, text: str, limits: InputLimits) -> tuple[GerberFile, _Par
     if target.unit is None and len(target.objects) == 0 and "%FS" not in text and "%MO" not in text:
         raise InputError("not a Gerber file (no format or unit statement, no graphics)", path=str(path))
     return target, parser, notes
+
+
+# gerbonara's messages for malformed statements, in the project's words (its text never reaches
+# the user: a message not listed here gets the general wording)
+_REASONS = [
+    (r"does not contain a unit definition", "graphics before the unit statement (%MOMM*% or %MOIN*%)"),
+    (r"Interpolation attempted without selecting aperture", "a draw (D01) before any aperture is selected"),
+    (r"i/j coordinates given for linear", "I/J offsets on a linear draw (I and J belong to arcs, G02/G03)"),
+    (r"G74/G75 combined with coord", "G74/G75 with coordinates (the quadrant mode stands alone)"),
+    (r"Ambiguous coordinate statement", "coordinates without an operation code (D01, D02 or D03) after a move or flash"),
+    (r"DO3 flash statement inside region", "a flash (D03) inside a region (G36 ... G37)"),
+    (r"different coordinate formats for X and Y", "the format statement gives X and Y different digit counts"),
+    (r"Region end command \(G37\) outside", "G37 ends a region that no G36 started"),
+    (r"TD attribute deletion command must not contain", "an attribute deletion (TD) with values"),
+    (r"Attempt to TD delete file attribute", "an attribute deletion (TD) of a file attribute"),
+    (r"SR step-repeat called inside", "a step and repeat (SR) opened inside another"),
+    (r"SR step-repeat X and Y values", "a step and repeat (SR) with fewer than one copy"),
+    (r"Unknown aperture macro primitive code (\d+)", "an aperture macro primitive code {0} (the format defines 0, 1, 4, 5, 6, 7, 20, 21, 22)"),
+    (r"aperture macro expression|parsing variable definition", "an aperture macro expression that cannot be read"),
+    (r"include", "an include statement (IF), which this reader does not follow"),
+    (r"image_polarity|image_rotation", "an image polarity or rotation value the format does not define"),
+]
+
+
+def _reason(e: BaseException) -> str:
+    text = str(e)
+    for pattern, reason in _REASONS:
+        m = re.search(pattern, text)
+        if m:
+            return reason.format(*m.groups())
+    return "a statement that cannot be read as the Gerber format defines it"
+
+
+def _statement_error(path: Path, parser: _Parser, reason: str) -> InputError:
+    stmt = _one_line(parser.line or "")
+    if len(stmt) > 60:
+        stmt = stmt[:57] + "..."
+    where = f"malformed statement {stmt!r}: " if stmt else "malformed statement: "
+    return InputError(where + reason, path=str(path), line=parser.lineno or None)
 
 
 def _one_line(text: str) -> str:
@@ -428,9 +573,13 @@ class _Shapes:
         key = (id(aperture), transform)
         info = self._cache.get(key)
         if info is None:
-            info = aperture_info(aperture, self.tol)
-            if transform is not None:
-                info = _transformed(info, transform, self.tol)
+            try:
+                info = aperture_info(aperture, self.tol)
+                if transform is not None:
+                    info = _transformed(info, transform, self.tol)
+            except (ValueError, TypeError, IndexError, KeyError, ZeroDivisionError, OverflowError,
+                    AttributeError, shapely.errors.GEOSException) as e:
+                raise _ApertureFailure(aperture, e) from None
             self._cache[key] = (info, aperture)   # keep the aperture alive: ids stay unique
             return info
         return info[0]
@@ -709,6 +858,11 @@ class _Image:
         self.bounds = [math.inf, math.inf, -math.inf, -math.inf]
         self.cleared = False          # a clear run came after some dark copper
         self._has_dark = False
+        self._run_no = 0
+        self._last_clear = -1         # run number of the last clear run
+        self._net_runs: dict[str, list[int]] = {}   # net -> run number of each of its parts
+        self._clear: list = []        # clear shapes after some dark copper, and their run numbers
+        self._clear_no: list[int] = []
 
     def apply(self, run: _Run, offset=(0.0, 0.0)):
         geoms = run.geoms
@@ -723,13 +877,49 @@ class _Image:
         self.bounds = [min(self.bounds[0], b[0]), min(self.bounds[1], b[1]),
                        max(self.bounds[2], b[2]), max(self.bounds[3], b[3])]
         self.runs.append((run.dark, geoms))
+        self._run_no += 1
         if run.dark:
             self._has_dark = True
             for g, net in zip(geoms, run.nets):
                 if net is not None:
-                    self.net_parts.setdefault(net, []).append(g)
+                    parts = self.net_parts.get(net)
+                    if parts is None:
+                        parts = self.net_parts[net] = []
+                        self._net_runs[net] = []
+                    parts.append(g)
+                    self._net_runs[net].append(self._run_no)
         elif self._has_dark:
             self.cleared = True
+            self._last_clear = self._run_no
+            self._clear.extend(geoms)
+            self._clear_no.extend([self._run_no] * len(geoms))
+
+    def net_copper(self, cut: bool = True) -> dict[str, BaseGeometry]:
+        """Each X2 net's copper: its parts, each cut by the clear shapes that come after it in
+        the file (and only those: a pad drawn in a clearance hole after the hole stays whole,
+        and another net's copper drawn later never adds to this one's). ``cut=False`` (a
+        negative image): the parts as drawn."""
+        out: dict[str, BaseGeometry] = {}
+        tree = clear = clear_no = None
+        for net, parts in self.net_parts.items():
+            runs = self._net_runs[net]
+            if cut and runs[0] < self._last_clear:
+                if tree is None:
+                    clear = np.asarray(self._clear, dtype=object)
+                    clear_no = np.asarray(self._clear_no)
+                    tree = shapely.STRtree(clear)
+                part_no = np.asarray(runs)
+                pi, ci = tree.query(np.asarray(parts, dtype=object), predicate="intersects")
+                later = clear_no[ci] > part_no[pi]
+                pi, ci = pi[later], ci[later]
+                if len(pi):
+                    parts = list(parts)
+                    for k in np.unique(pi).tolist():
+                        hits = clear[ci[pi == k]]
+                        parts[k] = shapely.difference(parts[k], hits[0] if len(hits) == 1
+                                                      else shapely.union_all(hits))
+            out[net] = fu.union_many(parts)
+        return out
 
     def geometry(self) -> BaseGeometry:
         return fu.compose(self.runs)
@@ -839,8 +1029,16 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
         image = _build_image(objects, parser.sr_blocks, f_sr, shapes)
         geometry = image.geometry()
         pins, values, footprints = _pin_flashes_and_values(objects, parser.sr_blocks, f_sr)
+    except _ApertureFailure as e:
+        number, line = parser.aperture_lines.get(id(e.aperture), (None, None))
+        macro = getattr(getattr(e.aperture, "macro", None), "name", None)
+        what = "divides by zero" if isinstance(e.cause, ZeroDivisionError) else "gives no shape that can be drawn"
+        name = f"aperture D{number}" if number is not None else "an aperture"
+        raise InputError(f"{name} {f'(macro {macro}) ' if macro else ''}{what}", path=str(path),
+                         line=line) from None
     except (ValueError, TypeError, IndexError, KeyError, ZeroDivisionError) as e:
-        raise InputError(f"cannot build Gerber geometry: {type(e).__name__}: {e}", path=str(path)) from None
+        raise InputError(f"cannot build the layer's geometry from its statements ({type(e).__name__})",
+                         path=str(path)) from None
     except shapely.errors.GEOSException as e:
         raise InputError(f"geometry error while building the layer: {e}", path=str(path)) from None
 
@@ -863,16 +1061,7 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
             frame = EMPTY
         geometry = shapely.difference(frame, geometry) if not frame.is_empty else EMPTY
 
-    net_copper = {}
-    layer_parts = tree = None
-    if image.cleared and not negative and image.net_parts:
-        layer_parts = np.asarray(fu.polygons_of(geometry), dtype=object)
-        tree = shapely.STRtree(layer_parts)
-    for net, parts in image.net_parts.items():
-        g = fu.union_many(parts)
-        if tree is not None:
-            g = fu.clip(g, geometry, layer_parts, tree)   # later clear objects cut it too
-        net_copper[net] = g
+    net_copper = image.net_copper(cut=not negative)
 
     return GerberLayer(
         path=str(path),

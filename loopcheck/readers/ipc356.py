@@ -36,10 +36,10 @@ cols     field
 58       ``X``
 59-62    feature size along X (4 digits)
 63       ``Y`` (absent: a round feature of the X size)
-64-67    feature size along Y
+64-67    feature size along Y (blank or zero: a round feature, Y = X)
 68       ``R``
-69-71    rotation (3 digits)
-72       blank
+69-71    rotation (3 digits; blank: 0)
+72       blank (some writers put the ``S`` here)
 73       ``S``
 74       solder mask: 0 none, 1 primary side, 2 secondary side, 3 both
 75-80    optional information (not read)
@@ -52,10 +52,22 @@ Dimensions are integers in the units of the ``P  UNITS`` parameter record:
 a UNITS record is read as ``CUST 0`` and says so in a note. Hole, location and feature size
 use the same resolution.
 
+Blank fields: every field after the location may be left blank (or the line may end before
+it): feature sizes (a blank or zero Y size is a round feature, Y = X), rotation (0), hole
+diameter (a hole of unknown size), plating code, access code (through for 317/367, top for
+327) and the solder mask code (None; an unreadable code is noted, never an error, since
+nothing here uses it). Each kind of blank field is counted in one note. A field whose digits
+are cut by the end of the line is an error.
+
 Net names: the field holds 14 characters, so IPC-D-356A gives longer names (or names with
-spaces) as aliases: a parameter record ``P  NNAME<n> <full name>`` and ``NNAME<n>`` in the
-net-name field of the test records. Both are resolved here; a name that fills all 14 columns
-without an alias may have been cut by the writer, and a note says so.
+spaces) as aliases: a parameter record ``P  NNAME<id> <full name>`` (also ``P  NNAME <id>
+<name>``, and a comment ``C  NNAME<id> <name>`` in some writers' files) and the alias in the
+net-name field of the test records, either the whole token ``NNAME<id>`` or only ``<id>``.
+They are resolved to the full names (see ``_Parser.resolve_aliases``); two aliases of one
+full name stay two nets. A name that fills all 14 columns without an alias may have been cut
+by the writer to its last 14 characters: a note says so, and ``Netlist.full_width_names``
+(with names ending ``#<n>``, the form some writers give
+two cut names that would be equal) lists these names for a later step (``loopcheck.netnames``) to restore from Gerber X2 names.
 
 Conductor records 378 (cols 4-17 net, cols 19-21 ``L`` + layer) and outline records 389
 (cols 4-17 ``BOARD_EDGE``, ``PANEL_EDGE``, ``SCORE_LINE``, ``OTHER_FAB``) carry free-form
@@ -78,7 +90,8 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass, field
+from collections import Counter
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from loopcheck.errors import InputError
@@ -152,6 +165,9 @@ class Netlist:
     parameters: dict[str, str] = field(default_factory=dict)   # P records: JOB, VER, ...
     aliases: dict[str, str] = field(default_factory=dict)      # NNAME1 -> full net name
     ended: bool = False                     # the 999 end record was found
+    # net names (no alias) that fill all 14 columns of the net field, or end in "#<n>": the
+    # writer may have cut them (loopcheck.netnames restores them from Gerber X2 names)
+    maybe_cut_names: list[str] = field(default_factory=list)
 
     @property
     def nets(self) -> dict[str, list[NetPoint]]:
@@ -187,7 +203,9 @@ _UNITS = {
 }
 
 _WORD = re.compile(r"\*|[XY][+-]?\d+")
-_NNAME = re.compile(r"NNAME\d+$", re.IGNORECASE)
+_NNAME = re.compile(r"NNAME[0-9A-Z_]*$", re.IGNORECASE)
+_UNIQUIFIED = re.compile(r".{1,12}#\d+$")      # a cut name a writer made unique: TAIL#1
+_NNAME_COMMENT = re.compile(r"C\s+(NNAME[0-9A-Z_]+)\s+(\S.*)$", re.IGNORECASE)
 
 
 class _Parser:
@@ -212,6 +230,10 @@ class _Parser:
         self.unaliased_nname: set[str] = set()
         self.max_layer = 0
         self.open_free: dict | None = None   # the 378/389 record a 078/089 line continues
+        self.kept_apart: list[str] = []
+        self.uniquified: set[str] = set()
+        self.counts: Counter[str] = Counter()   # blank or odd fields, for one note each
+        self.mask_example = ""
 
     # fields ------------------------------------------------------------------------------
     def error(self, lineno: int, msg: str) -> InputError:
@@ -242,16 +264,22 @@ class _Parser:
         return units * self.units.mm_per_unit
 
     def net_name(self, raw: str) -> str:
+        """The net field as written ("" for blank or N/C); aliases are resolved at the end."""
         name = raw.strip()
-        if name.upper() == "N/C":
-            return ""
-        if _NNAME.match(name):
-            if name.upper() in self.aliases:
-                return self.aliases[name.upper()]
-            self.unaliased_nname.add(name)
-        elif len(name) == 14:
-            self.full_width_names.add(name)
-        return name
+        return "" if name.upper() == "N/C" else name
+
+    def alias(self, key: str, value: str, lineno: int, source: str) -> None:
+        """Record ``NNAME<id> <full name>`` (a P record, or a comment some writers use)."""
+        key_u = key.upper()
+        if key_u == "NNAME":              # spaced form: NNAME <id> <full name>
+            ident, _, value = value.strip().partition(" ")
+            key_u = "NNAME" + ident.upper()
+        value = value.strip()
+        if key_u == "NNAME" or not value:
+            raise self.error(lineno, f"net name alias {key} gives no name")
+        self.aliases[key_u] = value
+        if source == "comment":
+            self.counts["alias comment"] += 1
 
     # records -----------------------------------------------------------------------------
     def parameter(self, line: str, lineno: int) -> None:
@@ -261,9 +289,7 @@ class _Parser:
         key, _, value = body.partition(" ")
         key_u, value = key.upper(), value.strip()
         if _NNAME.match(key_u):
-            if not value:
-                raise self.error(lineno, f"net name alias {key} gives no name")
-            self.aliases[key_u] = value
+            self.alias(key, value, lineno, "parameter")
             return
         self.parameters[key_u] = value
         if key_u == "UNITS":
@@ -285,6 +311,16 @@ class _Parser:
         elif key_u == "IMAGE":
             self.image_skip = value.split()[:1] != ["PRIMARY"] if value else False
 
+    def blank_or_number(self, line: str, lineno: int, first: int, last: int, what: str,
+                        signed: bool = False) -> int | None:
+        """A numeric field the standard lets a writer leave blank: None when its columns are
+        blank or lie past the end of the line; an error when the line ends inside its digits."""
+        text = self.cols(line, first, last)
+        if not text.strip():
+            return None
+        self.need(line, lineno, first, last, what)
+        return self.number(text, lineno, what, first, signed=signed)
+
     def test_record(self, line: str, lineno: int, code: str) -> None:
         if len(line) < 57:
             raise self.error(lineno, f"test record {code} has {len(line)} columns; its X/Y "
@@ -296,42 +332,50 @@ class _Parser:
         midpoint = c(32, 32) == "M"
         hole_mm = plated = None
         if c(33, 33) == "D":
-            hole_mm = self.mm(self.number(c(34, 37), lineno, "hole diameter", 34))
-            plated = {"P": True, "U": False}.get(c(38, 38))
-            if plated is None:
-                raise self.error(lineno, f"plating code {c(38, 38)!r} in column 38 is not P or U")
+            # the diameter and the plating code may each be left blank: a hole of unknown size
+            d = self.blank_or_number(line, lineno, 34, 37, "hole diameter")
+            hole_mm = self.mm(d) if d is not None else None
+            if d is None:
+                self.counts["hole size blank"] += 1
+            code38 = c(38, 38)
+            if code38 in ("P", "U"):
+                plated = code38 == "P"
+            elif code38.strip():
+                raise self.error(lineno, f"plating code {code38!r} in column 38 is not P or U")
         elif c(33, 38).strip() and c(33, 33) != " ":
             raise self.error(lineno, f"column 33 is {c(33, 33)!r}; a hole field starts with D")
-        if c(39, 39) == "A":
+        if c(39, 39) == "A" and c(40, 41).strip():
             access = self.number(c(40, 41), lineno, "access code", 40)
-        elif c(39, 41).strip():
+        elif c(39, 41).strip() not in ("", "A"):
             raise self.error(lineno, f"columns 39-41 {c(39, 41)!r}: an access code is A + 2 digits")
         else:
             access = 0 if code[1] != "2" else 1
-            self.notes.append(f"line {lineno}: no access code; read as "
-                              f"{'top (01)' if access else 'through (00)'}")
+            self.counts["access blank " + ("top (01)" if access else "through (00)")] += 1
         if c(42, 42) != "X" or c(50, 50) != "Y":
             raise self.error(lineno, "the location must be X in column 42 and Y in column 50, "
                                      f"found {c(42, 42)!r} and {c(50, 50)!r}")
         x = self.mm(self.number(c(43, 49), lineno, "X location", 43, signed=True))
         y = self.mm(self.number(c(51, 57), lineno, "Y location", 51, signed=True))
         width = height = None
-        if len(line) >= 58 and c(58, 58) == "X":
-            self.need(line, lineno, 59, 62, "feature X size")
-            width = self.mm(self.number(c(59, 62), lineno, "feature X size", 59))
+        if c(58, 58) == "X":
+            w = self.blank_or_number(line, lineno, 59, 62, "feature X size")
+            width = self.mm(w) if w is not None else None
+        h = None
+        if c(63, 63) == "Y":
+            h = self.blank_or_number(line, lineno, 64, 67, "feature Y size")
+        if h is None or h == 0:
+            # a round feature: the standard leaves its Y size blank; some writers write zero
             height = width
-        if len(line) >= 63 and c(63, 63) == "Y":
-            self.need(line, lineno, 64, 67, "feature Y size")
-            height = self.mm(self.number(c(64, 67), lineno, "feature Y size", 64))
+            if width is not None and c(63, 63) == "Y":
+                self.counts["round blank" if h is None else "round zero"] += 1
+        else:
+            height = self.mm(h)
         rotation = 0.0
-        if len(line) >= 68 and c(68, 68) == "R":
-            self.need(line, lineno, 69, 71, "rotation")
-            r = self.number(c(69, 71), lineno, "rotation", 69)
-            rotation = math.degrees(r) if self.units.radians else float(r)
-        soldermask = None
-        if len(line) >= 73 and c(73, 73) == "S":
-            self.need(line, lineno, 74, 74, "solder mask")
-            soldermask = self.number(c(74, 74), lineno, "solder mask code", 74)
+        if c(68, 68) == "R":
+            r = self.blank_or_number(line, lineno, 69, 71, "rotation", signed=True)
+            if r is not None:
+                rotation = (math.degrees(r) if self.units.radians else float(r)) % 360.0
+        soldermask = self.soldermask(line)
         is_via = ref.upper() == "VIA"
         if is_via:
             ref, pin = "", ""
@@ -341,6 +385,25 @@ class _Parser:
                                     height_mm=height, rotation_deg=rotation, is_via=is_via,
                                     midpoint=midpoint, line=lineno, record=code,
                                     soldermask=soldermask))
+
+    def soldermask(self, line: str) -> int | None:
+        """The solder mask code: ``S`` in column 73 and a digit 0-3 in 74 (the standard); some
+        writers put the ``S`` in column 72. Blank: None. The code is informative (nothing here
+        uses it), so an unreadable one is counted in a note, never an error."""
+        if self.cols(line, 73, 73) == "S":
+            value = line[73:].split()[0] if line[73:].strip() else ""
+        elif self.cols(line, 72, 72) == "S":
+            value = line[72:].split()[0] if line[72:].strip() else ""
+            self.counts["mask column 72"] += 1
+        else:
+            return None
+        if value == "":
+            return None
+        if value[:1] in "0123" and (len(value) == 1 or not value[1:2].isdigit()):
+            return int(value[0])
+        self.counts["mask unreadable"] += 1
+        self.mask_example = self.mask_example or value
+        return None
 
     def free_start(self, line: str, lineno: int, code: str) -> None:
         if code == "378":
@@ -444,6 +507,9 @@ class _Parser:
             self.free_close()
             if line[0] == "C":
                 self.comments += 1
+                m = _NNAME_COMMENT.match(line)
+                if m:
+                    self.alias(m[1], m[2], lineno, "comment")
             elif line[0] == "P" and line[1:3].strip() == "":
                 self.parameter(line, lineno)
             elif code == "999":
@@ -459,7 +525,53 @@ class _Parser:
         self.free_close()
         return self.finish(long_lines)
 
+    def resolve_aliases(self) -> None:
+        """Replace alias tokens in the net fields by the full names of their NNAME records.
+
+        A record names an alias either by the whole token (``NNAME1``, the standard's form) or
+        by the part after ``NNAME`` (``M0000`` for ``NNAMEM0000``, as some writers do); the
+        short form is taken only for an alias whose whole token no record uses. Two aliases
+        whose full names are equal (a writer that cut long names to fit its alias record), or an
+        alias whose full name is also written plainly, stay two nets: the alias gets its token
+        appended in brackets, and a note says so.
+        """
+        fields = {p.net for p in self.points if p.net} | {c.net for c in self.conductors if c.net}
+        upper = {f.upper() for f in fields}
+        mapping: dict[str, str] = {}
+        for f in sorted(fields):
+            u = f.upper()
+            if u in self.aliases:
+                mapping[f] = u
+            elif "NNAME" + u in self.aliases and "NNAME" + u not in upper:
+                mapping[f] = "NNAME" + u
+                self.counts["alias short token"] += 1
+        by_name: dict[str, list[str]] = {}
+        for f, key in mapping.items():
+            by_name.setdefault(self.aliases[key], []).append(f)
+        plain = fields - set(mapping)
+        resolved: dict[str, str] = {}
+        for name, tokens in by_name.items():
+            if len(tokens) == 1 and name not in plain:
+                resolved[tokens[0]] = name
+            else:
+                for f in tokens:
+                    resolved[f] = f"{name} [{f}]"
+                self.kept_apart.append(name)
+        for f in plain:
+            if _NNAME.match(f):
+                self.unaliased_nname.add(f)
+            elif len(f) == 14:
+                self.full_width_names.add(f)
+            elif _UNIQUIFIED.fullmatch(f):
+                self.uniquified.add(f)
+        if resolved:
+            self.points = [replace(p, net=resolved[p.net]) if p.net in resolved else p
+                           for p in self.points]
+            self.conductors = [replace(c, net=resolved[c.net]) if c.net in resolved else c
+                               for c in self.conductors]
+
     def finish(self, long_lines: int) -> Netlist:
+        self.resolve_aliases()
         notes = self.notes
         if not self.units_given:
             notes.insert(0, "no UNITS record: read as CUST 0 (inch, 0.0001 inch)")
@@ -481,6 +593,31 @@ class _Parser:
                          f"(e.g. {sorted(self.full_width_names)[0]!r})")
         if self.unaliased_nname:
             notes.append(f"net alias(es) without a P NNAME record: {', '.join(sorted(self.unaliased_nname))}")
+        if self.kept_apart:
+            notes.append(f"{len(self.kept_apart)} long net names are given by more than one alias "
+                         f"(e.g. {self.kept_apart[0]!r}); each alias is kept as its own net, named "
+                         "with its alias in brackets")
+        if self.counts["alias comment"]:
+            notes.append(f"{self.counts['alias comment']} net name aliases read from comment lines "
+                         "(C  NNAME...), not from P records")
+        c = self.counts
+        round_features = c["round blank"] + c["round zero"]
+        if round_features:
+            notes.append(f"{round_features} features give no Y size ({c['round blank']} blank, "
+                         f"{c['round zero']} zero): read as round, Y = X")
+        for what in ("through (00)", "top (01)"):
+            if c["access blank " + what]:
+                notes.append(f"{c['access blank ' + what]} test records without an access code: "
+                             f"read as {what}")
+        if c["hole size blank"]:
+            notes.append(f"{c['hole size blank']} holes without a diameter (hole field D with a "
+                         "blank size)")
+        if c["mask column 72"]:
+            notes.append(f"{c['mask column 72']} solder mask codes written from column 72 "
+                         "(the standard: S in column 73)")
+        if c["mask unreadable"]:
+            notes.append(f"{c['mask unreadable']} solder mask codes are not 0-3 (e.g. "
+                         f"S{self.mask_example}); solder mask codes are not used")
         holes = [p.hole_mm for p in self.points if p.hole_mm]
         tiny = [h for h in holes if h < 0.1]
         if tiny:
@@ -491,7 +628,8 @@ class _Parser:
         return Netlist(path=self.path, units=self.units.name, points=self.points,
                        layer_count=layer_count, conductors=self.conductors, outline=self.outline,
                        notes=notes, parameters=self.parameters, aliases=self.aliases,
-                       ended=self.ended)
+                       ended=self.ended,
+                       maybe_cut_names=sorted(self.full_width_names | self.uniquified))
 
 
 def read_ipc356(path: str | Path, limits: InputLimits = DEFAULT_LIMITS) -> Netlist:

@@ -263,6 +263,10 @@ def stage_summary(analysis: Analysis, stage: Stage) -> dict[str, Any]:
         "copper_loss_pct": _val(_first(ms, "copper_loss")),
         "layout_loss": layout_loss,
         "missing": list(stage.missing),
+        "confidence": stage.confidence,
+        "unsure": list(stage.unsure),
+        "confirm_lines": list(stage.confirm_lines),
+        "not_measured": stage.not_measured or None,
     }
 
 

@@ -7,9 +7,11 @@ JSON contract (``schema`` = "loopcheck-inspect/1"): ``board``, ``source``, ``lay
 ``name``, ``file``, ``thickness_um``, ``copper_area_mm2``, ``clipped_area_mm2``), ``holes``
 (``plated``, ``non_plated``, ``slots``, ``files``), ``nets`` (count of named nets), ``components``
 (count), ``pads``, ``vias``, ``outline`` (``source``, ``from_extent``, ``width_mm``, ``height_mm``,
-``area_mm2``), ``netlist``, ``connectivity_checked``, ``aligned``, ``alignment_hint``,
+``area_mm2``), ``netlist``, ``connectivity_checked``, ``aligned``, ``alignment_hint``, ``connectivity_notes`` (what the check decided without a finding),
 ``findings[]`` (``rule``, ``severity``, ``message`` and, where they apply, ``x_mm``, ``y_mm``,
-``layer``, ``nets``, ``terminals``), ``assumptions[]``, ``inputs`` (file -> role).
+``layer``, ``nets``, ``terminals``), ``assumptions[]``, ``inputs`` (file -> role),
+``net_full_names`` (netlist net name cut by its writer -> the full name from the copper's Gerber
+X2 net attributes; the text report says so in one assumption line).
 """
 
 from __future__ import annotations
@@ -69,9 +71,11 @@ def inspect_data(board: Board, result: ConnectivityResult) -> dict[str, Any]:
         "connectivity_checked": bool(result.checked),
         "aligned": bool(result.aligned),
         "alignment_hint": result.alignment_hint,
+        "connectivity_notes": list(getattr(result, "notes", [])),
         "findings": findings,
         "assumptions": assumptions,
         "inputs": dict(sorted(board.inputs.items())),
+        "net_full_names": dict(sorted(board.net_full_names.items())),
     }
 
 
@@ -111,6 +115,8 @@ def render_text(data: dict[str, Any]) -> str:
             f" ({errors} error{'s' if errors != 1 else ''})")
         if not data["aligned"]:
             add("  the netlist does not line up with the copper: measurements would be meaningless")
+    for note in data.get("connectivity_notes") or []:
+        add(f"  note: {note}")
     for f in data["findings"]:
         where = ""
         if f.get("x_mm") is not None:

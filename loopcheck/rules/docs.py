@@ -50,7 +50,10 @@ _DOCS = (
             "pad) and separate it; or regenerate the netlist if a net was renamed or merged on "
             "purpose (a net tie).",
         formula="As for netlist-open: an island holding pads of two or more nets is a short.",
-        limits="An intended net tie is reported like any short; waive it by net name.",
+        limits="A part whose own copper joins two of its nets (a net tie, a printed antenna's "
+               "feed and ground) is set aside when the Gerber's X2 attributes give that copper no "
+               "net, or, without X2, when its designator marks it (NT, AE, ANT, JP, SJ); any "
+               "other intended join is reported like a short: waive it by net name.",
         group="integrity",
     ),
     RuleDoc(
@@ -66,6 +69,25 @@ _DOCS = (
                 "layers the pad is on; a search over offsets, scales and a mirror suggests the "
                 "correction.",
         limits="A board with very little copper (an empty test panel) can trip it by chance.",
+        group="integrity",
+    ),
+    RuleDoc(
+        name="netlist-x2-mismatch",
+        title="Netlist and the copper's own net names disagree",
+        measures="Netlist pads whose copper carries a Gerber X2 net attribute (.N) naming another "
+                 "net than the netlist does.",
+        why="The Gerber files and the netlist were written from one design; where they name "
+            "different nets for the same copper, one of them is from another revision, or a net "
+            "was renamed after one was exported. Connectivity is judged from the netlist, so a "
+            "stale netlist can hide a real short or report a false one.",
+        fix="Export the Gerber files and the netlist again, together, from the same design "
+            "revision.",
+        formula="For each netlist pad, the X2 nets whose copper covers the pad's centre on its "
+                "layer; the netlist's name matches an X2 name equal to it (case and the writer's "
+                "space substitute ignored) or, for a name filling the 14-character IPC-D-356 "
+                "field, one ending in it. A warning by default: the board may be right.",
+        limits="Only where the Gerber files carry X2 object attributes; copper without a net "
+               "attribute (footprint copper, text) is not compared.",
         group="integrity",
     ),
     RuleDoc(
@@ -224,8 +246,10 @@ _DOCS = (
         name="trace-temperature-rise",
         title="Temperature rise of high-current copper",
         measures="The temperature rise, in C, at the narrowest point of each high-current path "
-                 "(input, switch node to inductor, output, ground return) at that path's RMS "
-                 "current, per IPC-2221.",
+                 "(input, switch node to inductor, output, and the two ground paths: the "
+                 "switching current's return from the rectifier or low-side switch to the input "
+                 "capacitor and input, and the load current's return) at that path's RMS current, "
+                 "per IPC-2221.",
         why="Copper that runs hot raises its own resistance (about 0.4 % per kelvin), heats "
             "the parts around it and ages the board; a narrow neck is where this happens first.",
         fix="Widen the narrowest part of the path, use a pour, or add copper on a second layer "
@@ -244,9 +268,12 @@ _DOCS = (
         why="This is efficiency the layout gives away: heat in the copper that the controller's "
             "efficiency curve does not include.",
         fix="Shorten and widen the paths that carry the most current (usually the output and "
-            "ground return); see which path dominates in the path losses reported.",
+            "the ground returns); see which path dominates in the path losses reported.",
         formula="P = sum over paths of I_rms^2 R(T); share = 100 P / (V_out I_out). In a buck "
-                "the input path carries I_out sqrt(D (1 + r^2/12)).",
+                "the input path and the switching current's ground return carry "
+                "I_out sqrt(D (1 + r^2/12)), the output path and the load's return about I_out. "
+                "DC current enters a net at its source (connector, upstream stage) and leaves at "
+                "its loads, never at a capacitor.",
         limits="DC resistance only (skin effect is small for 1-2 oz copper below a few MHz); "
                "the operating point comes from the project file or the defaults.",
         group="high-current paths",
