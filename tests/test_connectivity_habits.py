@@ -58,7 +58,7 @@ def plane_board(extra_pads=()):
 
 
 def test_unplated_hole_joins_nothing_and_needs_no_copper():
-    # the netlist's record of a mounting hole (KiCad: 367 N/C, no pin, D...U, A00): its size
+    # the netlist's record of a mounting hole (one writer: 367 N/C, no pin, D...U, A00): its size
     # (here 4 mm, as some writers give the pad or keep-out) reaches the plane around the hole
     hole = Pad(net="", ref="H1", pin="", x_mm=40, y_mm=25, layers=(0, 1), hole_mm=3.0, plated=False,
                width_mm=4.0, height_mm=0.0)
@@ -301,7 +301,7 @@ def test_x2_names_cut_to_fourteen_characters_match():
 
 # --- the same habits read from files -------------------------------------------------------
 
-def _kicad_npth_record(ref: str, x_mm: float, y_mm: float, d_mm: float) -> str:
+def _unplated_hole_record(ref: str, x_mm: float, y_mm: float, d_mm: float) -> str:
     """A test record as one design program writes an unplated hole (from a real board's netlist:
     ``367N/C              J8          D0256UA00X+050174Y-035262X0256Y0000R090S0``), CUST 1."""
     d = round(d_mm * 1000)
@@ -327,7 +327,7 @@ def test_unplated_and_unnumbered_records_in_a_netlist_file(tmp_path):
     netlist = folder / "sync-buck-4layer-netlist.ipc"
     lines = netlist.read_text().splitlines()
     shell = f"327{'N/C':<14}   {'J9':<6}            A01X+008000Y+005000X1000Y1500R000S1"
-    lines[-1:-1] = [_kicad_npth_record("H1", 40.0, 5.0, 3.0), shell]
+    lines[-1:-1] = [_unplated_hole_record("H1", 40.0, 5.0, 3.0), shell]
     netlist.write_text("\n".join(lines) + "\n")
     b = load_board(load_project(folder))
     hole = next(p for p in b.pads if p.ref == "H1")

@@ -39,7 +39,7 @@ def test_format_stated_in_the_file(tmp_path):
     assert not d.format_candidates and d.number_format.source == "the drill file"
 
 
-def test_kicad_suppressed_zeros_comment():
+def test_format_comment_with_suppressed_zeros():
     fmt = drill_format.in_file(";FORMAT={3:3/ absolute / metric / suppress trailing zeros}\nMETRIC\n")
     assert (fmt.units, fmt.integer_digits, fmt.decimal_digits, fmt.zeros) == ("mm", 3, 3, "trailing")
 

@@ -148,7 +148,7 @@ def beside(path: Path) -> DrillFormat | None:
     for name in PARAMETER_FILES:
         p = path.parent / name
         if p.is_file():
-            fmt = _allegro_style(_text(p))
+            fmt = _keyword_parameters(_text(p))
             if fmt is not None:
                 return replace(fmt, source=f"the parameter file {name}")
     for p in sorted(path.parent.glob(path.stem + ".*")):
@@ -167,7 +167,7 @@ def _text(p: Path) -> str:
         return ""
 
 
-def _allegro_style(text: str) -> DrillFormat | None:
+def _keyword_parameters(text: str) -> DrillFormat | None:
     units = zeros = None
     integer = decimal = None
     lead = trail = None
