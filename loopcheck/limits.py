@@ -17,7 +17,7 @@ class InputLimits:
     max_objects_per_layer: int = 5_000_000
     # drawn lines and arcs of an outline (profile) layer, step-and-repeat copies counted: joining
     # them into faces is the slow part (40 000 took half a minute); real outlines draw hundreds
-    max_profile_segments: int = 20_000
+    max_profile_segments: int = 100_000
 
 
 DEFAULT_LIMITS = InputLimits()

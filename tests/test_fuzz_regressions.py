@@ -148,17 +148,18 @@ def test_one_flash_repeated_twenty_thousand_times(tmp_path):
            [(f["rule"], f["severity"], f["stage"]) for f in want["findings"]]
 
 
-def test_outline_drawn_twenty_four_thousand_times_by_step_and_repeat(tmp_path):
+def test_outline_drawn_thirty_thousand_times_by_step_and_repeat(tmp_path):
     """Fuzz kind step-repeat on the profile (seed 3, case 0): 100 000 copies of the outline made
     400 000 lines to join, past 60 s and 4 GB. An outline layer may now draw at most
-    InputLimits.max_profile_segments lines and arcs (copies counted): 6 000 copies of a 4-line
+    InputLimits.max_profile_segments lines and arcs (copies counted; 100 000, above the 33 000 of
+    a real 14-layer board's mechanical outline layer in the corpus): 30 000 copies of a 4-line
     outline are refused in one line naming the file."""
     board = tmp_path / "board"
     profile = write_buck(board)["profile"]
     lines = profile.read_text().splitlines(keepends=True)
     k = next(i for i, line in enumerate(lines) if line.endswith("D02*\n"))
     end = next(i for i, line in enumerate(lines) if line.startswith("M02"))
-    profile.write_text("".join(lines[:k + 1] + ["%SRX1Y6000I1J1*%\n"] + lines[k + 1:end]
+    profile.write_text("".join(lines[:k + 1] + ["%SRX1Y30000I1J1*%\n"] + lines[k + 1:end]
                                + ["%SR*%\n"] + lines[end:]))
     msg = check_refuses(board, tmp_path, profile.name)
     assert "outline" in msg and "limit" in msg
