@@ -583,3 +583,28 @@ def test_clue_power_connectors():
     assert E.power_connectors(nl, "VIN", "GND") == ["J1"]
     assert E.power_connectors(nl, "VCC", "GND") == []           # an I/O header that also carries VCC
     assert E.power_connectors(nl, "VBUS", "GND") == ["J3"]       # USB-C: VBUS and GND on several pins
+
+
+def test_findings_on_an_unsure_stage_say_so():
+    """A verdict on a stage found from weak evidence carries what is unsure (issue: an unsure
+    stage never yields a silent verdict)."""
+    from loopcheck.analysis import Analysis
+    from loopcheck.findings import Measurement
+    from loopcheck.rules.deck import load_deck
+    from loopcheck.rules.evaluate import evaluate
+
+    parts = {"Q1": [(1, "GA", 10, 14), (2, "N1", 12, 14), (3, "NA", 12, 16)],
+             "Q2": [(1, "GB", 10, 10), (2, "N0", 12, 10), (3, "N1", 12, 12)],
+             "L1": [(1, "N1", 14, 12), (2, "NB", 16, 12)],
+             "C1": [(1, "NA", 4, 12), (2, "N0", 4, 8)], "C2": [(1, "NB", 20, 12), (2, "N0", 20, 8)],
+             "U1": [(1, "GA", 5, 30), (2, "GB", 6, 30), (3, "N0", 7, 30), (4, "X", 8, 30), (5, "Y", 9, 30)]}
+    b = board(parts)
+    st = find_stages(b, project()).stages[0]
+    assert st.unsure
+    area = Measurement("hot_loop.area", 400.0, "mm2", "hot-loop area", stage=st.name)
+    an = Analysis(board=b, integrity=[], stages=[st], measurements=[area])
+    f = next(f for f in evaluate(an, load_deck("default")) if f.rule == "hot-loop-area")
+    assert f.severity == "error" and "the stage itself is unsure" in f.message
+    st.unsure = []
+    f = next(f for f in evaluate(an, load_deck("default")) if f.rule == "hot-loop-area")
+    assert "unsure" not in f.message

@@ -117,6 +117,12 @@ def evaluate_all(analysis: Analysis, deck: Deck, project: Any = None) -> Evaluat
                         check.status = level
                         check.finding = _finding(rule, m, level, limit)
                 stage_checks.append(check)
+        unsure = next((st.unsure for st in analysis.stages if st.name == stage and st.unsure), None)
+        for c in stage_checks:
+            if c.finding is not None and unsure:
+                # a verdict on a stage found from weak evidence says so (the project-file lines
+                # that settle it are in the report's gaps)
+                c.finding.message += f"; the stage itself is unsure ({'; '.join(unsure)})"
         checks.extend(stage_checks)
         findings.extend(c.finding for c in stage_checks if c.finding is not None)
 
