@@ -270,3 +270,32 @@ def test_second_board_refused_after_the_first_was_checked(tmp_path):
     (outside / "outside-copper.gbr").write_bytes(paths["L2"].read_bytes())   # bottom layer, top name
     os.symlink(outside / "outside-copper.gbr", board / "extra-copper-L1-top.gbr")
     check_refuses(board, tmp_path, "extra")
+
+
+def test_drill_repeat_code_with_a_huge_count(tmp_path):
+    """Fuzz kind drill repeat (seed 20261202, cases 26 and 35): an Excellon repeat code
+    ``R99999999999X0.01Y0.01`` made the drill parser expand a hundred billion holes until memory
+    ran out (a MemoryError traceback after 50 s). Repeat codes are now counted against the
+    step-and-repeat limit before parsing, and the refusal names the file and the line."""
+    board = tmp_path / "board"
+    drill = write_buck(board)["drill"]
+    lines = drill.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("X"))
+    drill.write_text("".join(lines[:k + 1] + ["R99999999999X0.01Y0.01\n"] + lines[k + 1:]))
+    msg = check_refuses(board, tmp_path, drill.name, lines=range(k + 2, k + 3))
+    assert "repeat" in msg and "limit" in msg
+
+
+def test_gerber_statement_two_million_characters_long(tmp_path):
+    """Fuzz kind encoding long-line (seed 20261202, case 138): two million characters after an
+    attribute with no '*' to end them kept the parser's statement splitter busy for hours (its
+    time grows with the square of the run). A statement longer than 10,000 characters is now
+    refused before parsing, naming the file and the line."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("%TA"))
+    lines[k] = lines[k].rstrip("\n") + "0" * 2_000_000 + "\n"
+    top.write_text("".join(lines))
+    msg = check_refuses(board, tmp_path, top.name, lines=range(k + 1, k + 2))
+    assert "statement" in msg

@@ -166,6 +166,7 @@ def read_excellon(path, limits: InputLimits = DEFAULT_LIMITS, number_format: Dri
         cands = drill_format.candidates(known, digits_needed)
         known = cands[0]
     attributes, tool_plating, lines, origin, arcs = _prescan(text.splitlines())
+    _check_repeats(path, lines, origin, limits)
     parser = ExcellonParser(_settings(known))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -247,6 +248,23 @@ def _statement_error(exc: Exception, parser: ExcellonParser, lines: list[str]) -
     if "G93" in text or "zero set" in text:
         return f"a G93 zero-set with a non-zero offset is not supported (statement {stmt!r})"
     return f"statement not understood as Excellon: {stmt!r}"
+
+
+_REPEAT = re.compile(r"R(\d+)")
+
+
+def _check_repeats(path: Path, lines: list[str], origin: list[int], limits: InputLimits) -> None:
+    """Refuse Excellon repeat codes (``R<n>X..Y..``: the last hole n more times) that would
+    expand past the step-and-repeat limit before the parser expands them into memory."""
+    total = 0
+    for i, line in enumerate(lines):
+        m = _REPEAT.match(line.strip())
+        if m is None:
+            continue
+        total += int(m[1][:12])
+        if total > limits.max_step_repeat_objects:
+            raise InputError(f"repeat codes (R) would make more than {limits.max_step_repeat_objects} "
+                             "holes (limit)", path=str(path), line=origin[i] if i < len(origin) else None)
 
 
 def _read_gerber_drill(path: Path, limits: InputLimits) -> DrillFile:

@@ -474,7 +474,23 @@ def _attr_fields(attrs: dict, name: str) -> tuple[str, ...] | None:
 _LINE_IN_MESSAGE = re.compile(r":(\d+) \"")
 
 
+# One statement's text between its delimiters (* or %). Real statements are short (none in the
+# corpus or the real boards reaches 2,000 characters); the parser's statement splitter takes time
+# that grows with the square of an unterminated run (40,000 characters: 6 s), so a longer run is
+# refused before parsing.
+MAX_STATEMENT_CHARS = 10_000
+_LONG_STATEMENT = re.compile(r"[^*%%]{%d}" % (MAX_STATEMENT_CHARS + 1))
+
+
+def _check_statement_length(path: Path, text: str) -> None:
+    m = _LONG_STATEMENT.search(text)
+    if m is not None:
+        raise InputError(f"a statement runs past {MAX_STATEMENT_CHARS} characters without its end "
+                         "('*' or '%')", path=str(path), line=text.count("\n", 0, m.start()) + 1)
+
+
 def _parse(path: Path, text: str, limits: InputLimits) -> tuple[GerberFile, _Parser, list[str]]:
+    _check_statement_length(path, text)
     target = GerberFile()
     parser = _Parser(target, limits)
     target.objects = _ObjectList(parser)
