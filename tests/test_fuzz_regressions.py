@@ -299,3 +299,25 @@ def test_gerber_statement_two_million_characters_long(tmp_path):
     top.write_text("".join(lines))
     msg = check_refuses(board, tmp_path, top.name, lines=range(k + 1, k + 2))
     assert "statement" in msg
+
+
+def test_zip_with_a_damaged_deflate_stream(tmp_path):
+    """Fuzz kind zip-corrupt flip (seed 20261202, case 131): a flipped byte inside a member's
+    compressed data raised zlib.error, which is not an OSError, and the run ended as an internal
+    error (exit 3). A damaged stream is now bad input naming the archive."""
+    import zipfile
+    board = tmp_path / "board"
+    write_buck(board)
+    archive = tmp_path / "fab.zip"
+    with zipfile.ZipFile(archive, "w", zipfile.ZIP_DEFLATED) as zf:
+        for p in sorted(board.iterdir()):
+            zf.write(p, p.name)
+    data = bytearray(archive.read_bytes())
+    with zipfile.ZipFile(archive) as zf:
+        info = max(zf.infolist(), key=lambda m: m.compress_size)
+    start = info.header_offset + 30 + len(info.filename.encode()) + len(info.extra)
+    for k in range(start + 10, start + min(info.compress_size, 400), 7):
+        data[k] ^= 0x5A
+    archive.write_bytes(bytes(data))
+    msg = check_refuses(archive, tmp_path, archive.name)
+    assert "cannot extract" in msg or "refused" in msg

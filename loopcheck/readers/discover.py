@@ -25,11 +25,13 @@ directory that :meth:`FabSet.close` removes. Nothing is ever written beside the 
 
 from __future__ import annotations
 
+import lzma
 import re
 import stat
 import tempfile
 import warnings
 import zipfile
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 
@@ -341,7 +343,8 @@ def _extract_zip(zip_path: Path, dest: Path, limits: InputLimits) -> None:
                             raise InputError(f"refused: more than {limits.max_zip_uncompressed_bytes} "
                                              f"bytes uncompressed", path=str(zip_path))
                         out.write(chunk)
-            except (zipfile.BadZipFile, EOFError, NotImplementedError, RuntimeError) as exc:
+            except (zipfile.BadZipFile, EOFError, NotImplementedError, RuntimeError, zlib.error,
+                    lzma.LZMAError) as exc:   # a damaged deflate or LZMA stream
                 raise InputError(f"cannot extract {m.filename!r}: {exc}", path=str(zip_path)) from None
             except OSError as exc:   # zlib errors are OSError subclasses (e.g. a bad CRC)
                 raise InputError(f"cannot extract {m.filename!r}: {exc}", path=str(zip_path)) from None
