@@ -321,3 +321,33 @@ def test_zip_with_a_damaged_deflate_stream(tmp_path):
     archive.write_bytes(bytes(data))
     msg = check_refuses(archive, tmp_path, archive.name)
     assert "cannot extract" in msg or "refused" in msg
+
+
+def test_step_and_repeat_copies_stacked_a_thousand_deep(tmp_path):
+    """Fuzz kind step-repeat (seed 20261202, case 408): %SRX1000Y1I0.001J1*% around a layer's
+    pour made a thousand copies 1 um apart, under the object limit, whose merge ran for minutes.
+    Copies that lie on one another more than 64 deep are refused, naming the file and line."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("G01")) - 1   # the graphics follow
+    end = next(i for i, line in enumerate(lines) if line.startswith("M02"))
+    top.write_text("".join(lines[:k + 1] + ["%SRX1000Y1I0.001J1*%\n"] + lines[k + 1:end]
+                           + ["%SR*%\n"] + lines[end:]))
+    msg = check_refuses(board, tmp_path, top.name)
+    assert "on top of each other" in msg and "limit" in msg
+
+
+def test_a_panel_of_side_by_side_copies_still_reads(tmp_path):
+    """The overlap guard leaves a true panel alone: four copies of a board stepped by more
+    than its size overlap nowhere (depth 1) and read."""
+    from loopcheck.readers.gerber import read_gerber
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    end = next(i for i, line in enumerate(lines) if line.startswith("M02"))
+    k = next(i for i, line in enumerate(lines) if line.startswith("G01")) - 1
+    top.write_text("".join(lines[:k + 1] + ["%SRX2Y2I200.0J200.0*%\n"] + lines[k + 1:end]
+                           + ["%SR*%\n"] + lines[end:]))
+    single = read_gerber(write_buck(tmp_path / "one")["L1"]).geometry.area
+    assert abs(read_gerber(top).geometry.area - 4 * single) < 1e-6 * single
