@@ -342,18 +342,22 @@ def test_a_rail_another_stage_makes_is_this_stage_input():
     assert (st.topology, st.input_net, st.output_net) == ("buck", MEANINGLESS["VOUT"], "VLOW")
 
 
+# a synchronous pair with nothing to tell buck from boost (meaningless names, no values)
+UNDECIDED_SYNC_PAIR = {
+    "Q1": [(1, "GA", 10, 14), (2, "N1", 12, 14), (3, "NA", 12, 16)],
+    "Q2": [(1, "GB", 10, 10), (2, "N0", 12, 10), (3, "N1", 12, 12)],
+    "L1": [(1, "N1", 14, 12), (2, "NB", 16, 12)],
+    "C1": [(1, "NA", 4, 12), (2, "N0", 4, 8)], "C2": [(1, "NB", 20, 12), (2, "N0", 20, 8)],
+    "U1": [(1, "GA", 5, 30), (2, "GB", 6, 30), (3, "N0", 7, 30), (4, "X", 8, 30), (5, "Y", 9, 30)]}
+
+
 def test_unsure_stage_says_so_and_counts_as_incomplete():
     """A synchronous pair with nothing to tell buck from boost: reported unsure, with the
     loopcheck.toml lines that would settle it, and a check over it is INCOMPLETE."""
     from loopcheck.analysis import Analysis
     from loopcheck.report.common import CheckResult
 
-    parts = {"Q1": [(1, "GA", 10, 14), (2, "N1", 12, 14), (3, "NA", 12, 16)],
-             "Q2": [(1, "GB", 10, 10), (2, "N0", 12, 10), (3, "N1", 12, 12)],
-             "L1": [(1, "N1", 14, 12), (2, "NB", 16, 12)],
-             "C1": [(1, "NA", 4, 12), (2, "N0", 4, 8)], "C2": [(1, "NB", 20, 12), (2, "N0", 20, 8)],
-             "U1": [(1, "GA", 5, 30), (2, "GB", 6, 30), (3, "N0", 7, 30), (4, "X", 8, 30), (5, "Y", 9, 30)]}
-    b = board(parts)
+    b = board(UNDECIDED_SYNC_PAIR)
     st = find_stages(b, project()).stages[0]
     assert st.unsure and "topology" in st.unsure[0]
     assert st.confirm_lines[0] == "[stages.stage1]" and 'switch_node = "N1"' in st.confirm_lines
@@ -464,12 +468,7 @@ def test_half_bridge_check_says_not_measured_and_incomplete(tmp_path):
 def test_stages_report_prints_the_lines_that_settle_an_unsure_stage(tmp_path):
     from loopcheck.report.stages import project_text, render_text, stages_data
 
-    parts = {"Q1": [(1, "GA", 10, 14), (2, "N1", 12, 14), (3, "NA", 12, 16)],
-             "Q2": [(1, "GB", 10, 10), (2, "N0", 12, 10), (3, "N1", 12, 12)],
-             "L1": [(1, "N1", 14, 12), (2, "NB", 16, 12)],
-             "C1": [(1, "NA", 4, 12), (2, "N0", 4, 8)], "C2": [(1, "NB", 20, 12), (2, "N0", 20, 8)],
-             "U1": [(1, "GA", 5, 30), (2, "GB", 6, 30), (3, "N0", 7, 30), (4, "X", 8, 30), (5, "Y", 9, 30)]}
-    b = board(parts)
+    b = board(UNDECIDED_SYNC_PAIR)
     p = project()
     search = find_stages(b, p)
     text = render_text("t", search)
@@ -593,12 +592,7 @@ def test_findings_on_an_unsure_stage_say_so():
     from loopcheck.rules.deck import load_deck
     from loopcheck.rules.evaluate import evaluate
 
-    parts = {"Q1": [(1, "GA", 10, 14), (2, "N1", 12, 14), (3, "NA", 12, 16)],
-             "Q2": [(1, "GB", 10, 10), (2, "N0", 12, 10), (3, "N1", 12, 12)],
-             "L1": [(1, "N1", 14, 12), (2, "NB", 16, 12)],
-             "C1": [(1, "NA", 4, 12), (2, "N0", 4, 8)], "C2": [(1, "NB", 20, 12), (2, "N0", 20, 8)],
-             "U1": [(1, "GA", 5, 30), (2, "GB", 6, 30), (3, "N0", 7, 30), (4, "X", 8, 30), (5, "Y", 9, 30)]}
-    b = board(parts)
+    b = board(UNDECIDED_SYNC_PAIR)
     st = find_stages(b, project()).stages[0]
     assert st.unsure
     area = Measurement("hot_loop.area", 400.0, "mm2", "hot-loop area", stage=st.name)
