@@ -84,3 +84,11 @@ def pygerber_area_mm2(path, dpmm: int = 40) -> float:
 
 def relative_difference(value: float, reference: float) -> float:
     return abs(value - reference) / reference if reference else abs(value)
+
+
+def gerbv_area_of(path, geometry, max_pixels: float = 16e6) -> tuple[float, int]:
+    """gerbv's copper area [mm2] of ``path`` at the highest dpi that keeps an image of
+    ``geometry``'s extent under ``max_pixels``, and that dpi."""
+    x0, y0, x1, y1 = geometry.bounds
+    dpi = choose_dpi(x1 - x0, y1 - y0, max_pixels=max_pixels)
+    return gerbv_area_mm2(path, dpi), dpi

@@ -467,9 +467,7 @@ def test_corpus_area_agrees_with_gerbv(rel):
         pytest.skip("gerbv not installed (Debian package gerbv)")
     p = corpus_file(rel)
     layer = read_corpus(rel)
-    x0, y0, x1, y1 = layer.geometry.bounds
-    dpi = ref.choose_dpi(x1 - x0, y1 - y0, max_pixels=16e6)
-    expect = ref.gerbv_area_mm2(p, dpi)
+    expect, dpi = ref.gerbv_area_of(p, layer.geometry)
     assert ref.relative_difference(layer.geometry.area, expect) < BAND, \
         f"{ref.GERBV_NAME} at {dpi} dpi: {expect:.3f} mm2, loopcheck {layer.geometry.area:.3f} mm2"
 
@@ -567,9 +565,7 @@ def test_demo_board_area_agrees_with_gerbv_and_pygerber(rel):
     a = layer.geometry.area
     checked = 0
     if ref.gerbv_available():
-        x0, y0, x1, y1 = layer.geometry.bounds
-        dpi = ref.choose_dpi(x1 - x0, y1 - y0, max_pixels=16e6)
-        g = ref.gerbv_area_mm2(p, dpi)
+        g, _ = ref.gerbv_area_of(p, layer.geometry)
         assert ref.relative_difference(a, g) < BAND, f"{ref.GERBV_NAME}: {g:.3f} vs {a:.3f} mm2"
         checked += 1
     if ref.pygerber_available():

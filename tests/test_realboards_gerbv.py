@@ -51,8 +51,6 @@ def test_real_board_copper_area_agrees_with_gerbv(rel):
         pytest.skip("gerbv not installed (Debian package gerbv)")
     p = REALBOARDS / rel
     layer = read_gerber(p)
-    x0, y0, x1, y1 = layer.geometry.bounds
-    dpi = ref.choose_dpi(x1 - x0, y1 - y0, max_pixels=16e6)
-    expect = ref.gerbv_area_mm2(p, dpi)
+    expect, dpi = ref.gerbv_area_of(p, layer.geometry)
     assert ref.relative_difference(layer.geometry.area, expect) < BAND, \
         f"{ref.GERBV_NAME} at {dpi} dpi: {expect:.3f} mm2, loopcheck {layer.geometry.area:.3f} mm2"
