@@ -286,9 +286,17 @@ class _Checker:
             raise self.fail(keys, "expected a string")
         return value
 
+    def as_float(self, value: int | float, keys: tuple[str, ...]) -> float:
+        # a TOML integer has no size limit; one past the float range is bad input, not a crash
+        try:
+            return float(value)
+        except OverflowError:
+            raise self.fail(keys, f"number out of range ({len(str(abs(value)))} digits)") from None
+
     def number(self, value: Any, keys: tuple[str, ...], positive: bool = False, finite: bool = False) -> float:
         if not _is_number(value):
             raise self.fail(keys, "expected a number")
+        value = self.as_float(value, keys)
         if finite and not math.isfinite(value):
             raise self.fail(keys, f"expected a finite number, got {value}")
         if positive and not value > 0:
@@ -299,6 +307,7 @@ class _Checker:
                 finite: bool = False) -> list[float]:
         if not isinstance(value, list) or not value or not all(_is_number(v) for v in value):
             raise self.fail(keys, "expected a list of numbers")
+        value = [self.as_float(v, keys) for v in value]
         if finite and not all(math.isfinite(v) for v in value):
             raise self.fail(keys, "expected a list of finite numbers")
         if positive and not all(v > 0 for v in value):

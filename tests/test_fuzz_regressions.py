@@ -351,3 +351,18 @@ def test_a_panel_of_side_by_side_copies_still_reads(tmp_path):
                            + ["%SR*%\n"] + lines[end:]))
     single = read_gerber(write_buck(tmp_path / "one")["L1"]).geometry.area
     assert abs(read_gerber(top).geometry.area - 4 * single) < 1e-6 * single
+
+
+def test_operating_point_integer_past_the_float_range(tmp_path):
+    """Fuzz kind huge-number (seed 20261202, case 1666): ``vout_v = 999...9`` (400 digits) in
+    loopcheck.toml is a valid TOML integer that no float holds; float() raised OverflowError
+    and the run ended as an internal error. It is bad input naming the file, line and key."""
+    import shutil
+    board = tmp_path / "board"
+    shutil.copytree(REPO / "boards" / "led-driver-tidy", board)
+    toml = board / "loopcheck.toml"
+    text = toml.read_text()
+    assert re.search(r"(?m)^vout_v = ", text)
+    toml.write_text(re.sub(r"(?m)^vout_v = .*$", "vout_v = " + "9" * 400, text))
+    msg = check_refuses(board, tmp_path, "loopcheck.toml")
+    assert "vout_v" in msg and "out of range" in msg
