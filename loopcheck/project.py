@@ -378,7 +378,7 @@ def _from_file(path: Path) -> Project:
         raise InputError("not a text file (expected UTF-8 TOML)", path=str(path)) from None
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
+    except (tomllib.TOMLDecodeError, ValueError) as exc:    # ValueError: an integer of over 4300 digits
         msg = str(exc)
         m = re.search(r"\(at line (\d+), column \d+\)", msg)
         line = int(m.group(1)) if m else None

@@ -164,7 +164,7 @@ def _load_deck_file(spec: str, base_dir: Path | None, depth: int) -> Deck:
     path, text = _resolve(spec, base_dir)
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
+    except (tomllib.TOMLDecodeError, ValueError) as exc:    # ValueError: an integer of over 4300 digits
         raise _toml_error(exc, path) from None
     unknown = set(data) - {"deck", "rules"}
     if unknown:
@@ -343,10 +343,14 @@ def _table(value: Any, key: str, path: str) -> dict:
 
 
 def _number(value: Any, key: str, path: str) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or \
-            not math.isfinite(float(value)):
-        raise InputError(f"{key}: expected a finite number, got {value!r}", path=path)
-    return float(value)
+    try:
+        number = float(value)          # a TOML integer has no size limit
+    except (TypeError, ValueError, OverflowError):
+        number = math.nan
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(number):
+        shown = value if not isinstance(value, int) or number == number else f"an integer of {len(str(value))} digits"
+        raise InputError(f"{key}: expected a finite number, got {shown!r}", path=path)
+    return number
 
 
 def _string(value: Any, key: str, path: str) -> str:
