@@ -43,11 +43,11 @@ def default_boards() -> list[Path]:
     return out
 
 
-def timed_solve(ctx, loop, scale: float, cap: int):
+def timed_solve(ctx, loop, scale: float, cap: int, plan_index: int | None = None):
     tracemalloc.start()
     t0, c0 = time.perf_counter(), time.process_time()
     try:
-        res = loopfield.solve_field_loop(ctx, loop, scale=scale, max_branches=cap)
+        res = loopfield.solve_field_loop(ctx, loop, scale=scale, max_branches=cap, plan_index=plan_index)
         out = (res.inductance_h, res.detail["mesh"])
     except loopfield.FieldSolveError as exc:
         out = (None, {"error": str(exc)})
@@ -83,7 +83,8 @@ def main() -> None:
             print(f"{folder.name} {st.name}: default {L1 * 1e9:.3f} nH, {m1['cells']} cells, fine "
                   f"{m1['fine_mm']} mm, coarse {m1['coarse_mm']} mm, {w1:.1f} s (CPU {c1:.1f} s), "
                   f"peak {p1:.0f} MB; fast {fast * 1e9:.2f} nH ({100 * (fast / L1 - 1):+.1f} %)", flush=True)
-            L2, m2, w2, c2, p2 = timed_solve(ctx, loop, 0.5, a.cap)
+            # the same mesh plan as the default (window, feature lines, growth), every cell halved
+            L2, m2, w2, c2, p2 = timed_solve(ctx, loop, 0.5, a.cap, m1["plan_step"])
             if L2 is None:
                 print(f"  halved: not made ({m2['error']})")
                 continue

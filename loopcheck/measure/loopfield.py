@@ -24,7 +24,7 @@ from ..board import Pad
 from ..physics import loopsolve
 from .netcopper import MeasureContext, layer_thickness_m, layer_z_mm, pad_polygon
 
-MAX_BRANCHES = 3200        # cells of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
+MAX_BRANCHES = 4000        # cells of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
 MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy loop worth meshing
 EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
 EDGE_MAX_LINES = 24         # ... at most this many extra cell edges per axis, those nearest the loop first
@@ -72,9 +72,12 @@ def _pad_size(p: Pad) -> float:
 
 
 def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float | None = None,
-               max_branches: int = MAX_BRANCHES):
+               max_branches: int = MAX_BRANCHES, plan_index: int | None = None):
     """The sheet mesh of the window around ``loop`` (a hotloop.LoopPath); ``scale`` multiplies
-    the cell sizes (the mesh-convergence check halves it). Returns (mesh, island nets, notes)."""
+    the cell sizes (the mesh-convergence check halves it). The first step of the coarsening plan
+    whose mesh fits ``max_branches`` is taken, or step ``plan_index`` whatever its size (a mesh
+    of the same family at another scale). Returns (mesh, island nets, vias, notes, (fine, coarse),
+    plan step)."""
     board = ctx.board
     z_mm = layer_z_mm(board)
     nl = len(board.layers)
@@ -138,7 +141,10 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
             (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 0.6), (False, 2.5, 1.0, 3.5, 0.35)]
     plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 0.35) for k in range(1, 8)]
     bx = (min(xs), min(ys), max(xs), max(ys))
-    for edges, growth, kf, kc, km in plan:
+    steps = list(enumerate(plan))
+    if plan_index is not None:
+        steps = steps[plan_index:plan_index + 1]
+    for step, (edges, growth, kf, kc, km) in steps:
         f, c = fine * kf, coarse * kc
         m = max(1.5, margin * km)      # a smaller window before coarser cells: thin traces stay meshed
         x0, y0, x1, y1 = bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m
@@ -146,8 +152,7 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
         xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f * EDGE_FIRST, c, growth)
         ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f * EDGE_FIRST, c, growth)
         labels, island_net = _labels(ctx, xe, ye, window, nets)
-        ncell = int(np.sum(labels >= 0))
-        if 2 * ncell <= max_branches:
+        if _n_branches(labels) <= max_branches or plan_index is not None:
             break
     fine, coarse = f, c
     vias = [v for v in vias if x0 < v[0] < x1 and y0 < v[1] < y1]
@@ -156,7 +161,14 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
     notes = [f"field solve window {x1 - x0:.1f} x {y1 - y0:.1f} mm around the loop, all {nl} copper layers; "
              f"cells {fine:.2f} mm at the loop's conductor edges growing to {coarse:.2f} mm "
              f"({int(np.sum(labels >= 0))} copper cells)"]
-    return mesh, island_net, vias, notes, (fine, coarse)
+    return mesh, island_net, vias, notes, (fine, coarse), step
+
+
+def _n_branches(labels: np.ndarray) -> int:
+    """Current cells the mesh will have: neighbouring cells of one island, in x and in y."""
+    same_x = (labels[:, :-1, :] == labels[:, 1:, :]) & (labels[:, 1:, :] >= 0)
+    same_y = (labels[:, :, :-1] == labels[:, :, 1:]) & (labels[:, :, 1:] >= 0)
+    return int(same_x.sum() + same_y.sum())
 
 
 def _nearest_first(values, existing, tol, limit: int = None) -> list[float]:
@@ -264,13 +276,16 @@ def _node_cell(mesh, k: int, x_mm: float, y_mm: float, want: set[int] | None, re
 
 
 def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz: float | None = None,
-                     margin_mm: float | None = None, max_branches: int = MAX_BRANCHES) -> FieldLoop:
+                     margin_mm: float | None = None, max_branches: int = MAX_BRANCHES,
+                     plan_index: int | None = None) -> FieldLoop:
     """Field solve of the closed loop ``loop`` (hotloop.LoopPath). Raises FieldSolveError.
 
     ``scale`` multiplies the cell sizes and ``max_branches`` caps the cells (the mesh is
-    coarsened until it fits); the mesh-convergence check halves the cells with a raised cap."""
+    coarsened until it fits); the mesh-convergence check halves the cells of the default mesh's
+    plan step (``plan_index``: the same window, feature lines and growth)."""
     board = ctx.board
-    mesh, island_net, vias, notes, (fine, coarse) = build_mesh(ctx, loop, scale, margin_mm, max_branches)
+    mesh, island_net, vias, notes, (fine, coarse), step = build_mesh(ctx, loop, scale, margin_mm, max_branches,
+                                                                     plan_index)
     names = [l.name for l in board.layers]
     # islands of each loop net
     net_islands: dict[str, set[int]] = {}
@@ -287,7 +302,6 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
     link_names = []
     legs = _legs(ctx, loop.terminals)
     reach = max(1.5 * coarse, 1.0)
-    moved = 0
     for a, b, kind in legs:
         if kind == "net":
             continue
@@ -320,20 +334,17 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
     L = sol.inductance_h
     nb = len(con.bar_nodes)
     # ---- where the inductance sits
-    node = mesh.node_index
-    kk, ii, jj = np.nonzero(node >= 0)
-    flat = np.full(con.n_nodes, -1)
-    flat[node[kk, ii, jj]] = np.arange(len(kk))
-    n0 = flat[con.bar_nodes[:, 0]]
-    bar_layer = kk[n0]
-    bar_label = mesh.labels[kk[n0], ii[n0], jj[n0]]
+    # sheet cells first, then the via barrels (``sheet_conductors``' branch order)
+    n_sheet = len(mesh.bar_cells)
+    bar_layer, bi, bj = mesh.bar_cells[:, 0].T
+    bar_label = mesh.labels[bar_layer, bi, bj]
     groups: dict[str, float] = {}
     is_via = np.zeros(nb, dtype=bool)
     for vb, net in zip(via_branches, via_net):
         for b in vb:
             is_via[b] = True
             groups[f"vias of {net}"] = groups.get(f"vias of {net}", 0.0) + float(sol.energy_share[b])
-    for b in np.nonzero(~is_via)[0]:
+    for b in np.nonzero(~is_via[:n_sheet])[0]:
         net = island_net[bar_label[b]] if bar_label[b] >= 0 else None
         key = f"{net} copper on {names[bar_layer[b]]}" if net else f"other copper on {names[bar_layer[b]]} (eddy)"
         groups[key] = groups.get(key, 0.0) + float(sol.energy_share[b])
@@ -371,7 +382,7 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
     ]
     detail = {
         "inductance_method": "field",
-        "mesh": {"fine_mm": round(fine, 3), "coarse_mm": round(coarse, 3), "cells": int(nb),
+        "mesh": {"fine_mm": round(fine, 3), "coarse_mm": round(coarse, 3), "cells": int(nb), "plan_step": step,
                  "links": len(links), "vias": sum(1 for v in via_branches if v), "loops": sol.n_loops},
         "inductance_shares": shares,
         "eddy_conductors": sum(1 for n in island_net if n is None),

@@ -563,6 +563,7 @@ class SheetMesh:
     z: np.ndarray                  # (n_layers,) layer mid-plane heights
     thickness: np.ndarray          # (n_layers,)
     node_index: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))  # (n_layers, nx, ny), -1
+    bar_cells: np.ndarray = field(default_factory=lambda: np.zeros((0, 2, 3), dtype=int))  # (Nb sheet, 2, (k, i, j))
 
     @property
     def x_centres(self) -> np.ndarray:
@@ -583,7 +584,8 @@ def sheet_conductors(mesh: SheetMesh, resistivity_ohm_m: float,
     Parameters
     ----------
     mesh : SheetMesh
-        Grid and labels; ``mesh.node_index`` is filled in.
+        Grid and labels; ``mesh.node_index`` (cell -> node) and ``mesh.bar_cells`` (the two
+        cells of each sheet cell-to-cell conductor) are filled in.
     resistivity_ohm_m : float
         Copper resistivity [ohm m] for the cell resistances.
     vias : list of (x [m], y [m], layers, barrel diameter [m][, allowed labels])
@@ -605,7 +607,7 @@ def sheet_conductors(mesh: SheetMesh, resistivity_ohm_m: float,
     has = lab >= 0
     node[has] = np.arange(int(has.sum()))
     mesh.node_index = node
-    cen, siz, axs, nod, res = [], [], [], [], []
+    cen, siz, axs, nod, res, cells = [], [], [], [], [], []
     for k in range(nlay):
         t = mesh.thickness[k]
         # x cells between (i, j) and (i + 1, j)
@@ -618,6 +620,8 @@ def sheet_conductors(mesh: SheetMesh, resistivity_ohm_m: float,
             axs.append(np.zeros(len(i), dtype=int))
             nod.append(np.column_stack([node[k, i, j], node[k, i + 1, j]]))
             res.append(resistivity_ohm_m * length / (dy[j] * t))
+            kk = np.full(len(i), k)
+            cells.append(np.stack([np.column_stack([kk, i, j]), np.column_stack([kk, i + 1, j])], axis=1))
         same = (lab[k, :, :-1] == lab[k, :, 1:]) & (lab[k, :, :-1] >= 0)
         i, j = np.nonzero(same)
         if len(i):
@@ -627,6 +631,9 @@ def sheet_conductors(mesh: SheetMesh, resistivity_ohm_m: float,
             axs.append(np.ones(len(i), dtype=int))
             nod.append(np.column_stack([node[k, i, j], node[k, i, j + 1]]))
             res.append(resistivity_ohm_m * length / (dx[i] * t))
+            kk = np.full(len(i), k)
+            cells.append(np.stack([np.column_stack([kk, i, j]), np.column_stack([kk, i, j + 1])], axis=1))
+    mesh.bar_cells = np.concatenate(cells).astype(int) if cells else np.zeros((0, 2, 3), dtype=int)
 
     def cell_of(x, y):
         i = int(np.clip(np.searchsorted(mesh.x_edges, x) - 1, 0, nx - 1))
@@ -685,21 +692,30 @@ def sheet_current_density(mesh: SheetMesh, con: Conductors, currents: np.ndarray
     nlay, nx, ny = mesh.labels.shape
     out = np.zeros((nlay, nx, ny, 2))
     cnt = np.zeros((nlay, nx, ny, 2))
-    I = np.real(currents[:len(con.bar_nodes)])
-    node = mesh.node_index
-    flat = np.full(con.n_nodes, -1)
-    kk, ii, jj = np.nonzero(node >= 0)
-    flat[node[kk, ii, jj]] = np.arange(len(kk))
+    I = np.real(currents[:len(mesh.bar_cells)])
+    axes = con.bar_axes[:len(mesh.bar_cells)]
     dx, dy = np.diff(mesh.x_edges), np.diff(mesh.y_edges)
     for ax in (0, 1):
-        sel = np.nonzero(con.bar_axes == ax)[0]
+        sel = np.nonzero(axes == ax)[0]
         for end in (0, 1):
-            f = flat[con.bar_nodes[sel, end]]
-            k, i, j = kk[f], ii[f], jj[f]
+            k, i, j = mesh.bar_cells[sel, end].T
             width = dy[j] if ax == 0 else dx[i]
             np.add.at(out[..., ax], (k, i, j), I[sel] / width)
             np.add.at(cnt[..., ax], (k, i, j), 1.0)
     return np.where(cnt > 0, out / np.maximum(cnt, 1), 0.0)
+
+
+def _graded_gap(gap: float, fine: float, coarse: float, growth: float) -> np.ndarray:
+    """Cell sizes that fill ``gap`` exactly: the fewest cells of the profile ``fine`` at both
+    ends growing by ``growth`` towards the middle (at most ``coarse``) that reach across, all
+    scaled down alike to fit. No cell at an end exceeds ``fine`` and none is a sliver."""
+    n = max(1, int(gap // max(coarse, fine)))
+    while True:
+        k = np.minimum(np.arange(n), np.arange(n)[::-1])
+        sizes = np.minimum(fine * growth ** k, max(coarse, fine))
+        if sizes.sum() >= gap * (1 - 1e-9):
+            return sizes * (gap / sizes.sum())
+        n += 1
 
 
 def graded_edges(lo: float, hi: float, features, fine: float, coarse: float, growth: float = 1.5) -> np.ndarray:
@@ -718,27 +734,11 @@ def graded_edges(lo: float, hi: float, features, fine: float, coarse: float, gro
         gap = b - a
         if gap <= 1e-12:
             continue
-        # sizes grow from both ends of the gap towards its middle
-        sizes_l, s, tot = [], fine, 0.0
-        while tot + s < gap / 2:
-            sizes_l.append(s)
-            tot += s
-            s = min(s * growth, coarse)
-        n_half = len(sizes_l)
-        rest = gap - 2 * tot
-        mid = [rest] if rest > 1e-12 else []
-        if mid and mid[0] > s and len(sizes_l):
-            mid = [rest / 2, rest / 2] if rest / 2 <= coarse else [rest / math.ceil(rest / coarse)] * math.ceil(rest / coarse)
-        seq = sizes_l + mid + sizes_l[::-1]
-        if not sizes_l:
-            seq = [gap]
-        # merge slivers
         x = a
-        for d in seq:
+        for d in _graded_gap(gap, fine, coarse, growth)[:-1]:
             x += d
-            if d > 1e-12:
-                edges.append(x)
-        edges[-1] = b
+            edges.append(x)
+        edges.append(b)
     e = np.array(edges)
     keep = np.concatenate([[True], np.diff(e) > 1e-9 * max(hi - lo, 1e-30)])
     return e[keep]
