@@ -29,6 +29,7 @@ A case is reproducible from the seed and its number alone: ``--seed S --only N``
 Usage:
     python3 benchmarks/fuzz_boards.py --seed 1 --count 10000          # on demand
     python3 benchmarks/fuzz_boards.py --seed 1 --count 200 --jobs 2   # what the test suite runs
+    python3 benchmarks/fuzz_boards.py --seed 1 --start 2650 --count 7350   # cases 2650-9999
 
 Cases run in forked children of a process that has already imported loopcheck (a case costs
 its own work only, not the imports); ``--subprocess-every N`` runs every Nth case as a real
@@ -1193,8 +1194,10 @@ def summary(outcomes: list[Outcome]) -> str:
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--seed", type=int, required=True)
-    ap.add_argument("--count", type=int, default=200)
-    ap.add_argument("--start", type=int, default=0, help="first case number (to resume a run)")
+    ap.add_argument("--count", type=int, default=200, help="how many cases, numbered from --start")
+    ap.add_argument("--start", type=int, default=0,
+                    help="first case number (to resume a run of N cases stopped at case K: "
+                         "--start K --count N-K)")
     ap.add_argument("--only", type=int, nargs="*", help="run only these case numbers")
     ap.add_argument("--jobs", type=int, default=os.cpu_count() or 1)
     ap.add_argument("--timeout", type=float, default=TIMEOUT_S,
