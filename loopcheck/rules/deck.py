@@ -343,13 +343,14 @@ def _table(value: Any, key: str, path: str) -> dict:
 
 
 def _number(value: Any, key: str, path: str) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(f"{key}: expected a finite number, got {value!r}", path=path)
     try:
         number = float(value)          # a TOML integer has no size limit
-    except (TypeError, ValueError, OverflowError):
-        number = math.nan
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(number):
-        shown = value if not isinstance(value, int) or number == number else f"an integer of {len(str(value))} digits"
-        raise InputError(f"{key}: expected a finite number, got {shown!r}", path=path)
+    except OverflowError:
+        raise InputError(f"{key}: number out of range ({len(str(abs(value)))} digits)", path=path) from None
+    if not math.isfinite(number):
+        raise InputError(f"{key}: expected a finite number, got {value!r}", path=path)
     return number
 
 
