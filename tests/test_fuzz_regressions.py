@@ -393,3 +393,17 @@ def test_rule_deck_threshold_integers_of_any_length(tmp_path, digits):
                          text=True, env=dict(os.environ, PYTHONPATH=str(REPO)), timeout=120)
     assert res.returncode == 2 and "Traceback" not in res.stderr, res.stderr
     assert res.stderr.count("\n") == 1 and "deck.toml" in res.stderr and not out.exists()
+
+
+def test_netlist_outline_coordinate_of_four_hundred_digits(tmp_path):
+    """Fuzz kind huge-number (seed 20261202, case 3813): one X word of a 389 outline record made
+    400 digits long. Free-format words have no column width; int -> float overflowed and the
+    run ended as an internal error. The word is refused naming the file and line."""
+    board = tmp_path / "board"
+    net = write_buck(board)["netlist"]
+    lines = net.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("389"))
+    lines[k] = re.sub(r"X(\d+)Y", lambda m: "X" + "2" + "9" * 400 + "Y", lines[k], count=1)
+    net.write_text("".join(lines))
+    msg = check_refuses(board, tmp_path, net.name, lines=range(k + 1, k + 2))
+    assert "out of range" in msg

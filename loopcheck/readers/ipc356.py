@@ -203,6 +203,7 @@ _UNITS = {
 }
 
 _WORD = re.compile(r"\*|[XY][+-]?\d+")
+_MAX_WORD_DIGITS = 10      # 10^10 units (0.001 mm or 0.0001 inch) is over ten kilometres
 _NNAME = re.compile(r"NNAME[0-9A-Z_]*$", re.IGNORECASE)
 _UNIQUIFIED = re.compile(r".{1,12}#\d+$")      # a cut name a writer made unique: TAIL#1
 _NNAME_COMMENT = re.compile(r"C\s+(NNAME[0-9A-Z_]+)\s+(\S.*)$", re.IGNORECASE)
@@ -428,6 +429,13 @@ class _Parser:
             if "".join(words) != token:
                 raise self.error(lineno, f"unreadable data {token!r} in a {rec['code']} record "
                                          "(X/Y words and * expected)")
+            for word in words:
+                # free-format words have no column width: a run of digits past any board (and,
+                # past 308 digits, past a float) is refused here, where the line is known
+                digits = word.lstrip("XY+-").lstrip("0")
+                if len(digits) > _MAX_WORD_DIGITS:
+                    raise self.error(lineno, f"coordinate {word[:20]}... ({len(digits)} digits) in a "
+                                             f"{rec['code']} record is out of range")
             rec["tokens"].append(words)
 
     def _size_and_paths(self, tokens: list[list[str]], size_first: bool):
