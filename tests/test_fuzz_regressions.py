@@ -407,3 +407,18 @@ def test_netlist_outline_coordinate_of_four_hundred_digits(tmp_path):
     net.write_text("".join(lines))
     msg = check_refuses(board, tmp_path, net.name, lines=range(k + 1, k + 2))
     assert "out of range" in msg
+
+
+def test_step_and_repeat_with_a_zero_step_never_closed(tmp_path):
+    """Fuzz kind step-repeat (seed 20261202, case 3897): %SRX1000Y1I0J0*% opened in a layer and
+    never closed. A zero step stacks all thousand copies exactly on one another; the overlap
+    guard counted distinct steps only (one), saw depth 1, and the merge ran past a minute.
+    Refused as copies on top of each other, naming the file."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("G01")) - 1
+    top.write_text("".join(lines[:k + 1] + ["%SRX1000Y1I0J0*%\n"] + lines[k + 1:]))
+    t0 = time.monotonic()
+    msg = check_refuses(board, tmp_path, top.name)
+    assert "on top of each other" in msg and time.monotonic() - t0 < 30

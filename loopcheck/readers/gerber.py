@@ -115,9 +115,11 @@ def _overlap_depth(objects, offsets: list[tuple[float, float]]) -> int:
             xs.append(pt[0]), ys.append(pt[1])
     if not xs:
         return 1
-    depth = 1
-    for extent, steps in ((max(xs) - min(xs), sorted({round(dx, 9) for dx, _ in offsets})),
-                          (max(ys) - min(ys), sorted({round(dy, 9) for _, dy in offsets}))):
+    distinct = {(round(dx, 9), round(dy, 9)) for dx, dy in offsets}
+    # a zero step (I0 or J0) puts whole copies exactly on one another
+    depth = len(offsets) // len(distinct)
+    for extent, steps in ((max(xs) - min(xs), sorted({dx for dx, _ in distinct})),
+                          (max(ys) - min(ys), sorted({dy for _, dy in distinct}))):
         if len(steps) < 2:
             continue
         step = min(b - a for a, b in zip(steps, steps[1:]))
