@@ -422,3 +422,25 @@ def test_step_and_repeat_with_a_zero_step_never_closed(tmp_path):
     t0 = time.monotonic()
     msg = check_refuses(board, tmp_path, top.name)
     assert "on top of each other" in msg and time.monotonic() - t0 < 30
+
+
+def test_netlist_pin_record_repeated_twenty_thousand_times(tmp_path):
+    """Fuzz kind repeat-lines (seed 20261202, case 7637): one test record of a netlist repeated
+    20 000 times made 20 000 copies of one pin, and the decoupling measurement's routes ran past
+    a minute. A record that repeats an earlier one field for field is read once, and said so."""
+    from loopcheck.readers.ipc356 import read_ipc356
+    board = tmp_path / "board"
+    net = write_buck(board)["netlist"]
+    lines = net.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.startswith("327") and line[20:27].strip())
+    once = read_ipc356(net)
+    net.write_text("".join(lines[:k + 1] + [lines[k]] * 20000 + lines[k + 1:]))
+    many = read_ipc356(net)
+    assert len(many.points) == len(once.points)
+    assert any("20000 test records repeat" in n for n in many.notes)
+    t0 = time.monotonic()
+    res = subprocess.run([sys.executable, "-m", "loopcheck", "check", str(board), "--format", "json",
+                          "--output", str(tmp_path / "r.json")], capture_output=True, text=True,
+                         env=dict(os.environ, PYTHONPATH=str(REPO)), timeout=120)
+    assert res.returncode in (0, 1), res.stderr
+    assert time.monotonic() - t0 < 60

@@ -241,8 +241,9 @@ def test_blank_lines_and_unknown_records_are_tolerated_with_notes(tmp_path):
     rec = card({1: "327", 4: "A", 21: "R1", 27: "-", 28: "1", 39: "A01",
                 42: "X+010000", 50: "Y+000000"})
     n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", "", rec, "379A B C", "   ", rec))
-    assert len(n.points) == 2
+    assert len(n.points) == 1          # the second record repeats the first field for field
     notes = " | ".join(n.notes)
+    assert "1 test records repeat an earlier record" in notes
     assert "2 blank lines" in notes and "'379'" in notes and "no 999 end record" in notes
     assert not n.ended
 
@@ -250,8 +251,10 @@ def test_blank_lines_and_unknown_records_are_tolerated_with_notes(tmp_path):
 def test_panel_image_records_are_skipped(tmp_path):
     rec = card({1: "327", 4: "A", 21: "R1", 27: "-", 28: "1", 39: "A01",
                 42: "X+010000", 50: "Y+000000"})
+    other = card({1: "327", 4: "A", 21: "R1", 27: "-", 28: "2", 39: "A01",
+                  42: "X+012000", 50: "Y+000000"})
     n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", rec, "P  IMAGE PANEL 0001", rec, rec,
-                          "P  IMAGE PRIMARY", rec, "999"))
+                          "P  IMAGE PRIMARY", other, "999"))
     assert [p.line for p in n.points] == [2, 7]
     assert any("2 records of a non-primary IMAGE" in note for note in n.notes)
 
@@ -457,8 +460,8 @@ def test_blank_access_code_after_its_letter(tmp_path):
 
 
 def test_blank_access_code_notes_are_counted_not_repeated(tmp_path):
-    rec = card({**BASE_327, 39: "   "})
-    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", *[rec] * 50, "999"))
+    recs = [card({**BASE_327, 39: "   ", 42: f"X+{10000 + 100 * k:06d}"}) for k in range(50)]
+    n = read_ipc356(write(tmp_path, "P  UNITS CUST 1", *recs, "999"))
     assert len(n.points) == 50
     assert sum("access code" in note for note in n.notes) == 1
 

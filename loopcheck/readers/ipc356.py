@@ -215,6 +215,8 @@ class _Parser:
         self.units = _UNITS["CUST 0"]
         self.units_given = False
         self.points: list[NetPoint] = []
+        self.seen_records: set[tuple] = set()
+        self.repeated_records = 0
         self.conductors: list[Conductor] = []
         self.outline: list[OutlineRecord] = []
         self.parameters: dict[str, str] = {}
@@ -381,6 +383,14 @@ class _Parser:
         if is_via:
             ref, pin = "", ""
         self.max_layer = max(self.max_layer, access)
+        # a record that repeats an earlier one field for field adds nothing; kept once (20 000
+        # copies of one pin made the measurements quadratic: fuzz run seed 20261202, case 7637)
+        key = (net, ref, pin, x, y, access, hole_mm, plated, width, height, rotation, is_via, midpoint,
+               code, soldermask)
+        if key in self.seen_records:
+            self.repeated_records += 1
+            return
+        self.seen_records.add(key)
         self.points.append(NetPoint(net=net, ref=ref, pin=pin, x_mm=x, y_mm=y, access=access,
                                     hole_mm=hole_mm, plated=plated, width_mm=width,
                                     height_mm=height, rotation_deg=rotation, is_via=is_via,
@@ -626,6 +636,9 @@ class _Parser:
         if c["mask unreadable"]:
             notes.append(f"{c['mask unreadable']} solder mask codes are not 0-3 (e.g. "
                          f"S{self.mask_example}); solder mask codes are not used")
+        if self.repeated_records:
+            notes.append(f"{self.repeated_records} test records repeat an earlier record field for "
+                         "field; each is read once")
         holes = [p.hole_mm for p in self.points if p.hole_mm]
         tiny = [h for h in holes if h < 0.1]
         if tiny:
