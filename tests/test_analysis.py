@@ -6,6 +6,7 @@ import pytest
 from loopcheck.analysis import all_quantities, analyse
 from loopcheck.load import load_board
 from loopcheck.measure import QUANTITIES, base_quantity
+from loopcheck.measure.loopfield import PART_LIFT_MM
 from loopcheck.physics.inductance import loop_mutual_inductance, rectangular_loop_inductance
 from loopcheck.project import load_project
 from loopcheck.synth import SynthBoard, SynthComponent, SynthPad, SynthTrace, write_fab
@@ -69,12 +70,17 @@ def test_tidy_layout_figures(tidy):
     fast = hl.detail["fast"]
     assert fast["free_space_nH"] == pytest.approx(grover_nH, rel=0.15)
     # the bottom GND pour 1.53 mm below carries the image current (method of images, Paul 2010):
-    # the mutual inductance of the rectangle with its mirror image 2 x 1.565 mm away
-    # (copper mid-planes), taken off the free-space value
+    # the mutual inductance of the loop with its mirror image in the pour's mid-plane 1.565 mm
+    # below (copper mid-planes), taken off the free-space value. The loop: the rectangle, with
+    # its three parts (Q1 along the top, D1 along the bottom, C1 up the left side) carried
+    # PART_LIFT_MM above their pads in their bodies
     h_m = 1.53e-3 + 35e-6
-    rect = np.array([(0, 0, 0), (6e-3, 0, 0), (6e-3, 3e-3, 0), (0, 3e-3, 0), (0, 0, 0)])
-    image = rect * [1, 1, 0] + [0, 0, -2 * h_m]
-    m_image_nH = loop_mutual_inductance(rect, image) * 1e9
+    up = PART_LIFT_MM * 1e-3
+    path = np.array([(0, 3e-3, 0), (3e-3, 3e-3, 0), (3e-3, 3e-3, up), (6e-3, 3e-3, up), (6e-3, 3e-3, 0),
+                     (6e-3, 0, 0), (6e-3, 0, up), (3e-3, 0, up), (3e-3, 0, 0), (0, 0, 0), (0, 0, up),
+                     (0, 3e-3, up), (0, 3e-3, 0)])
+    image = path * [1, 1, -1] + [0, 0, -2 * h_m]
+    m_image_nH = loop_mutual_inductance(path, image) * 1e9
     assert -fast["plane_image_nH"] == pytest.approx(m_image_nH, rel=0.10)
     assert hl.detail["fast_estimate_nH"] == pytest.approx(fast["free_space_nH"] + fast["plane_image_nH"], rel=1e-9)
     assert hl.detail["fast_estimate_nH"] == pytest.approx(grover_nH - m_image_nH, rel=0.15)

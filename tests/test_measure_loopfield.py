@@ -103,18 +103,19 @@ def test_four_layer_demo_below_the_tidy_two_layer(demo_values):
     assert demo_values["led-driver-tidy"][0] < demo_values["led-driver-sprawl"][0]
 
 
-@pytest.mark.parametrize("name", ["led-driver-sprawl", "sync-buck-4layer"])
+@pytest.mark.parametrize("name", ["led-driver-tidy", "led-driver-sprawl", "sync-buck-4layer"])
 def test_field_and_fast_agree_on_the_demo_boards(demo_values, name):
+    # issue 10: the fast method agrees with the field solve within 15 % on every demo board
     field, fast = demo_values[name]
     assert fast == pytest.approx(field, rel=0.15)
 
 
-def test_fast_reads_high_on_the_tidy_demo_where_current_crowds(demo_values):
+def test_fast_reads_above_the_field_solve_on_the_tidy_demo_where_current_crowds(demo_values):
     # the tidy loop is small (about 5 x 8 mm) in 1.5-2 mm wide copper: at the edge rates the
     # current crowds to the copper's inner edges, which the fast method (uniform current on the
-    # traced centre line) does not see; it reads 10-35 % above the field solve there
+    # traced centre line) does not see, so it cannot read below the field solve there
     field, fast = demo_values["led-driver-tidy"]
-    assert 1.10 * field < fast < 1.35 * field
+    assert fast > field
 
 
 def test_ground_pour_beside_the_tidy_loop_lowers_its_inductance(tmp_path, demo_values):

@@ -3,7 +3,7 @@ what that inductance does at the switching edges (overshoot, ringing, energy per
 
 The loop is the stage's ordered terminal list, closed. Between two terminals of one part the
 current passes through the part (a straight conductor between the pad centres, as wide as the
-smaller pad); between two terminals of one net it follows a route through the copper
+smaller pad, carried in the part's body above the pads: see ``loopfield.PART_LIFT_MM``); between two terminals of one net it follows a route through the copper
 (``routes.route``), attracted towards the loop's other legs because at the edge rates the return
 current takes the path of least inductance, under the conductor that carries it out.
 
@@ -186,8 +186,10 @@ def build_loop(ctx: MeasureContext, terminals: tuple[str, ...]) -> LoopPath:
         widths.append(_part_width(pads[0]))
         kinds.append("part")
     if parts:
+        from .loopfield import PART_LIFT_MM
         notes.append("current through a part is taken as a straight conductor between its pad centres, "
-                     "as wide as its smaller pad (the package's own inductance is not included)")
+                     f"as wide as its smaller pad, {PART_LIFT_MM} mm above them in the part's body with "
+                     "risers to the pads (no table of package inductances is applied)")
     return LoopPath(tuple(terminals), points, widths, kinds, list(final.values()), parts, notes)
 
 
@@ -292,16 +294,35 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
         widths[i] = w * 1e-3
         thick[i] = layer_thickness_m(board, a[2])
         gmd[i] = float(inductance.strip_equivalent_radius(widths[i], thick[i]))
+    # a part's current runs in its body above its pads (the field solve's model): up, across
+    # and down, each piece a strip of the part's width
+    from .loopfield import PART_LIFT_MM
+    pieces: list[list[int]] = []
+    S, E, G, W, T, K = [], [], [], [], [], []
+    bottom = len(board.layers) - 1
+    for i in range(n):
+        if loop.kinds[i] == "part" and loop.points[i][2] == loop.points[(i + 1) % n][2]:
+            lift = (-PART_LIFT_MM if loop.points[i][2] == bottom and bottom > 0 else PART_LIFT_MM) * 1e-3
+            a2 = starts[i] + np.array([0, 0, lift])
+            b2 = ends[i] + np.array([0, 0, lift])
+            segs = [(starts[i], a2), (a2, b2), (b2, ends[i])]
+        else:
+            segs = [(starts[i], ends[i])]
+        pieces.append(list(range(len(S), len(S) + len(segs))))
+        for a_, b_ in segs:
+            S.append(a_); E.append(b_); G.append(gmd[i]); W.append(widths[i]); T.append(thick[i])
+            K.append(loop.kinds[i])
+    starts, ends, gmd, widths, thick = (np.array(v) for v in (S, E, G, W, T))
     seg_len = np.linalg.norm(ends - starts, axis=1)
     keep = seg_len > 1e-9
     notes = []
-    plane_segs = [i for i in range(n) if loop.kinds[i] == "plane" and keep[i]]
+    plane_segs = [e for i in range(n) if loop.kinds[i] == "plane" for e in pieces[i] if keep[e]]
     if plane_segs:
-        return _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, widths, thick)
+        return _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, widths, thick, K)
     mat = inductance.partial_inductance_matrix(starts[keep], ends[keep], gmd[keep],
                                                widths_m=widths[keep], thicknesses_m=thick[keep])
     L_free = float(mat.sum())
-    images = [(j, zp, m) for j, zp, m in _plane_images(ctx, loop, z) if keep[j]]
+    images = [(e, zp, m) for j, zp, m in _plane_images(ctx, loop, z) for e in pieces[j] if keep[e]]
     L_img = 0.0
     if images:
         # mutual inductance with the image loop: each imaged segment mirrored in its plane,
@@ -318,7 +339,7 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
                                                  b0.reshape(-1, 3), b1.reshape(-1, 3), g.reshape(-1))
         L_img = float(np.sum(m))
         layers = sorted({board.layers[m_].name for _, _, m_ in images})
-        notes.append(f"{len(images)} of {n} loop segments run over a solid plane ({', '.join(layers)}): "
+        notes.append(f"{len({j for j, _, _ in _plane_images(ctx, loop, z)})} of {n} loop segments run over a solid plane ({', '.join(layers)}): "
                      f"image currents in the plane counted (perfect-conductor image)")
     L = L_free - L_img
     if L <= 0:
@@ -329,7 +350,7 @@ def loop_inductance(ctx: MeasureContext, loop: LoopPath) -> tuple[float, list[st
     return L, notes, detail
 
 
-def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, widths, thick):
+def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, widths, thick, kinds):
     """A loop whose return runs in its own plane under the outgoing conductor: the plane is a
     perfect-conductor image (the return current is the image current), so the in-plane
     segments are dropped and L = Lp(path) - M(path, mirrored path) over the rest of the loop
@@ -338,10 +359,11 @@ def _own_plane_inductance(ctx, loop, starts, ends, gmd, keep, plane_segs, z, wid
     from ..physics import inductance
 
     board = ctx.board
-    layers = sorted({loop.points[i][2] for i in plane_segs})
+    zs = {round(float(starts[i][2]) * 1e3, 6) for i in plane_segs}
+    layers = sorted(k for k in range(len(z)) if round(z[k], 6) in zs)
     m = layers[0]
     zp = z[m] * 1e-3
-    path = [i for i in range(len(loop.points)) if keep[i] and loop.kinds[i] != "plane"]
+    path = [i for i in range(len(kinds)) if keep[i] and kinds[i] != "plane"]
     a, b, g = starts[path], ends[path], gmd[path]
     w, t = widths[path], thick[path]
     Lp = float(inductance.partial_inductance_matrix(a, b, g, widths_m=w, thicknesses_m=t).sum())

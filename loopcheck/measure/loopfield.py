@@ -1,15 +1,17 @@
 """The hot loop's inductance from a field solve of the copper around it (the default method).
 
 The copper within a window around the loop is meshed on every layer (``physics.loopsolve``):
-a rectilinear grid, fine at the edges of the loop's conductors and pads and coarser away from
-them, whose cells take the copper island their centre lies in. Islands of the loop's nets are
-joined through their vias and plated holes; the loop's parts are straight links between their
-pad centres; islands of other nets (planes, pours) are meshed the same way and carry only the
-eddy currents the loop induces in them. The current of least magnetic energy for 1 A in the
-loop gives the inductance, the current density per layer, the centroid line of the current
-in each leg of the loop, and the share of the inductance that sits in each stretch of copper,
-via group and part.
-"""
+a rectilinear grid, fine at the edges of the loop's conductors and pads, whose cells take the
+copper island their centre lies in; the cells are then merged into rectangular blocks that grow
+with the distance from where the loop's current flows (its route, the copper edges near it,
+its pads and vias, in plan and through the board), so that the cells stay fine where the
+current crowds and the unknowns follow the loop rather than the window. Islands of the loop's
+nets are joined through their vias and plated holes; the loop's parts are straight links
+between their pad centres, lifted into the part's body; islands of other nets (planes, pours)
+are meshed the same way and carry only the eddy currents the loop induces in them. The
+current of least magnetic energy for 1 A in the loop gives the inductance, the current density
+per layer, the centroid line of the current in each leg of the loop, and the share of the
+inductance that sits in each stretch of copper, via group and part."""
 
 from __future__ import annotations
 
@@ -18,20 +20,26 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import shapely
+from scipy import ndimage
 from shapely.geometry import LineString, box
 
 from ..board import Pad
 from ..physics import loopsolve
 from .netcopper import MeasureContext, layer_thickness_m, layer_z_mm, pad_polygon
 
-MAX_BRANCHES = 4000        # cells of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
+MAX_BRANCHES = 5000        # conductors of the dense solve (memory ~ N^2 * 8 bytes, time ~ N^2 .. N^3)
 MIN_OTHER_ISLAND_MM2 = 1.0  # other-net islands smaller than this carry no eddy loop worth meshing
 EDGE_REACH_MM = 2.0         # copper edges of the loop's nets within this of its path grade the mesh
 EDGE_MAX_LINES = 24         # ... at most this many extra cell edges per axis, those nearest the loop first
 FINE_MM = (0.1, 0.4)        # finest cell: a third of the narrowest loop conductor, within these bounds
 EDGE_FIRST = 1.0            # first cell at a copper edge, as a share of the finest cell (edge grading)
 GROWTH = 1.5                # growth of the cells away from the edges
-PACKAGE_INDUCTANCE_NOTE = ("a part is a straight strip between its pad centres, as wide as its smaller pad; "
+#: height of a part's current above its pads [mm]: the current of a chip part or a leaded
+#: package runs in its body, roughly half of a 1 mm body height (an assumption, stated)
+PART_LIFT_MM = 0.5
+PACKAGE_INDUCTANCE_NOTE = (f"a part is a straight strip between its pad centres, {PART_LIFT_MM} mm above them (its "
+                           "current runs in its body, not in the copper plane), with risers down to the pads, "
+                           "as wide as its smaller pad; "
                            "the package's own inductance beyond that strip is taken as zero (no table of "
                            "package inductances is applied)")
 
@@ -112,11 +120,13 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
     # the edges of the loop nets' copper near the loop: the high-frequency current crowds there
     near = path.buffer(EDGE_REACH_MM)
     edge_xy = []
+    edges_on: dict[int, list] = {}      # per layer, the copper edges near the route
     for net in dict.fromkeys(p.net for p in pads):
-        for g in ctx.net_copper(net).values():
+        for k, g in ctx.net_copper(net).items():
             part = g.intersection(near)
             if not part.is_empty:
                 edge_xy.append(shapely.get_coordinates(shapely.boundary(part)))
+                edges_on.setdefault(k, []).append(shapely.intersection(shapely.boundary(g), near))
     ex, ey = [], []
     if edge_xy:
         xy = np.vstack(edge_xy)
@@ -137,38 +147,94 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
                     fy += [vy - dia / 2 - 0.1, vy + dia / 2 + 0.1]
     # within the cell budget: first a faster growth, then without the copper-edge lines, then
     # coarser cells (the finest kept below the narrowest loop conductor as long as possible)
+    # (the window stays: far cells are merged into coarse blocks, which cost little, and a
+    # window cut close to the loop misses the return current's spread in a wide pour)
     plan = [(True, GROWTH, 1.0, 1.0, 1.0), (True, 2.0, 1.0, 1.5, 1.0), (False, 2.0, 1.0, 1.5, 1.0),
-            (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 0.6), (False, 2.5, 1.0, 3.5, 0.35)]
-    plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 0.35) for k in range(1, 8)]
+            (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 1.0)]
+    plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 1.0) for k in range(1, 8)]
     bx = (min(xs), min(ys), max(xs), max(ys))
-    steps = list(enumerate(plan))
-    if plan_index is not None:
-        steps = steps[plan_index:plan_index + 1]
-    for step, (edges, growth, kf, kc, km) in steps:
+    # where the loop's current flows, per layer: along its route, crowded at the edges of its
+    # nets' copper near the route, and spreading from the points where it enters a sheet (the
+    # parts' links at their pad centres, the vias near the route); the cells are fine there and
+    # grow away from it, in plan and through the board
+    flow: dict[int, list] = {}
+    for i in range(n):
+        a, b = loop.points[i], loop.points[(i + 1) % n]
+        if a[2] == b[2] and 0 <= a[2] < nl and (a[0], a[1]) != (b[0], b[1]):
+            flow.setdefault(int(a[2]), []).append(LineString([a[:2], b[:2]]))
+        elif a[2] != b[2]:
+            for k in range(max(0, min(a[2], b[2])), min(nl - 1, max(a[2], b[2])) + 1):
+                flow.setdefault(k, []).append(shapely.points(a[0], a[1]))
+    for k in list(flow):                # the copper edges of the layers the route runs on
+        flow[k] += edges_on.get(k, [])
+    for p in pads:
+        for k in p.layers or (0,):
+            if 0 <= k < nl:
+                flow.setdefault(k, []).extend([shapely.boundary(pad_polygon(p)), shapely.points(p.x_mm, p.y_mm)])
+    for vx, vy, _, layers, _ in vias:
+        if path.distance(shapely.points(vx, vy)) < 1.0:
+            for k in layers:
+                if 0 <= k < nl:
+                    flow.setdefault(k, []).append(shapely.points(vx, vy))
+    flow_lines = {k: shapely.union_all(v) for k, v in flow.items()}
+    def mesh_at(step: int):
+        edges, growth, kf, kc, km = plan[step]
         f, c = fine * kf, coarse * kc
-        m = max(1.5, margin * km)      # a smaller window before coarser cells: thin traces stay meshed
-        x0, y0, x1, y1 = bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m
-        window = box(x0, y0, x1, y1)
-        xe = loopsolve.graded_edges(x0, x1, _thin(fx + (ex if edges else []), f / 2), f * EDGE_FIRST, c, growth)
-        ye = loopsolve.graded_edges(y0, y1, _thin(fy + (ey if edges else []), f / 2), f * EDGE_FIRST, c, growth)
-        labels, island_net = _labels(ctx, xe, ye, window, nets)
-        if _n_branches(labels) <= max_branches or plan_index is not None:
-            break
+        # halving the mesh halves every cell: the growth per cell shrinks with the scale too
+        g = 1.0 + (growth - 1.0) * min(scale, 1.0)
+        m = max(1.5, margin * km)
+        win = (bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m)
+        # a grid graded from the feature lines (long cells along a conductor, fine across it),
+        # its cells then merged into blocks that grow away from where the loop's current flows
+        xe = loopsolve.graded_edges(win[0], win[2], _thin(fx + (ex if edges else []), f / 2), f * EDGE_FIRST, c, g)
+        ye = loopsolve.graded_edges(win[1], win[3], _thin(fy + (ey if edges else []), f / 2), f * EDGE_FIRST, c, g)
+        labels, island_net = _labels(ctx, xe, ye, box(*win), nets)
+        blocks = loopsolve.merge_cells(labels, xe, ye, _block_target(flow_lines, z_mm, xe, ye, f, c, g - 1.0))
+        size = loopsolve.count_sheet_branches(labels, blocks, xe, ye)
+        return step, f, c, win, xe, ye, labels, island_net, blocks, size
+
+    if plan_index is not None:
+        found = mesh_at(plan_index)
+    else:
+        # the first plan step that fits, by halving the range of steps (the sizes fall along the
+        # plan); the last step is taken whatever its size
+        lo, hi = 0, len(plan) - 1
+        found = None
+        while lo < hi:
+            mid = (lo + hi) // 2
+            trial = mesh_at(mid)
+            if trial[-1] <= max_branches:
+                found, hi = trial, mid
+            else:
+                lo = mid + 1
+        if found is None or found[0] != lo:
+            found = mesh_at(lo)
+    step, f, c, (x0, y0, x1, y1), xe, ye, labels, island_net, blocks, _ = found
     fine, coarse = f, c
     vias = [v for v in vias if x0 < v[0] < x1 and y0 < v[1] < y1]
     mesh = loopsolve.SheetMesh(np.asarray(xe) * 1e-3, np.asarray(ye) * 1e-3, labels,
-                               np.asarray(z_mm) * 1e-3, np.array([layer_thickness_m(board, k) for k in range(nl)]))
+                               np.asarray(z_mm) * 1e-3, np.array([layer_thickness_m(board, k) for k in range(nl)]),
+                               blocks=blocks)
     notes = [f"field solve window {x1 - x0:.1f} x {y1 - y0:.1f} mm around the loop, all {nl} copper layers; "
-             f"cells {fine:.2f} mm at the loop's conductor edges growing to {coarse:.2f} mm "
-             f"({int(np.sum(labels >= 0))} copper cells)"]
+             f"cells {fine:.2f} mm at the loop's conductor edges growing to {coarse:.2f} mm away from the loop's "
+             f"copper ({int(blocks.max()) + 1} copper cells)"]
     return mesh, island_net, vias, notes, (fine, coarse), step
 
 
-def _n_branches(labels: np.ndarray) -> int:
-    """Current cells the mesh will have: neighbouring cells of one island, in x and in y."""
-    same_x = (labels[:, :-1, :] == labels[:, 1:, :]) & (labels[:, 1:, :] >= 0)
-    same_y = (labels[:, :, :-1] == labels[:, :, 1:]) & (labels[:, :, 1:] >= 0)
-    return int(same_x.sum() + same_y.sum())
+def _block_target(flow_lines: dict, z_mm, xe, ye, fine: float, coarse: float, grade: float) -> np.ndarray:
+    """Largest cell wanted at every grid cell [mm]: ``fine`` where the loop's current flows
+    (``flow_lines``: per layer, the route, copper edges and entry points), growing by ``grade``
+    times the distance from them (in plan and through the board), at most ``coarse``."""
+    xc = 0.5 * (np.asarray(xe[1:]) + np.asarray(xe[:-1]))
+    yc = 0.5 * (np.asarray(ye[1:]) + np.asarray(ye[:-1]))
+    X, Y = np.meshgrid(xc, yc, indexing="ij")
+    pts = shapely.points(X, Y)
+    d_plan = {l: shapely.distance(g, pts) for l, g in flow_lines.items()}
+    out = np.full((len(z_mm),) + X.shape, float(coarse))
+    for k, z in enumerate(z_mm):
+        for l, d in d_plan.items():
+            out[k] = np.minimum(out[k], fine + grade * np.hypot(d, z - z_mm[l]))
+    return np.maximum(out, fine)
 
 
 def _nearest_first(values, existing, tol, limit: int = None) -> list[float]:
@@ -200,6 +266,7 @@ def _thin(values, tol):
 def _labels(ctx: MeasureContext, xe, ye, window, nets):
     """Island id per cell and layer (-1 no copper), and the net of each loop-net island (None other)."""
     board = ctx.board
+    xe, ye = np.asarray(xe, dtype=float), np.asarray(ye, dtype=float)
     xc = 0.5 * (np.asarray(xe[1:]) + np.asarray(xe[:-1]))
     yc = 0.5 * (np.asarray(ye[1:]) + np.asarray(ye[:-1]))
     X, Y = np.meshgrid(xc, yc, indexing="ij")
@@ -242,13 +309,42 @@ def _labels(ctx: MeasureContext, xe, ye, window, nets):
             if i1 <= i0 or j1 <= j0:
                 continue
             sub = shapely.contains_xy(clip, X[i0:i1, j0:j1], Y[i0:i1, j0:j1])
+            view = labels[k, i0:i1, j0:j1]
+            if ndimage.label(sub)[1] > 1:
+                sub |= _necks(clip, xe, ye, i0, i1, j0, j1, sub, view)
             if not sub.any():
                 continue
             lab = len(island_net)
             island_net.append(owner)
-            view = labels[k, i0:i1, j0:j1]
             view[sub] = lab
     return labels, island_net
+
+
+def _necks(clip, xe, ye, i0: int, i1: int, j0: int, j1: int, sub: np.ndarray, view: np.ndarray) -> np.ndarray:
+    """Cells to add to an island that the cell-centre test split: a neck narrower than the
+    cells there (a thermal spoke, a thin trace) holds no cell centre. A cell the copper touches
+    joins the island where the copper in it is narrower than the cell (outside the island's
+    opening by half the cell's side) and no other island took it; the wide parts keep their
+    outline."""
+    dx, dy = np.diff(xe)[i0:i1], np.diff(ye)[j0:j1]
+    side = np.maximum(dx[:, None], dy[None, :])
+    free = ~sub & (view < 0)
+    cells = shapely.box(xe[i0:i1][:, None], ye[j0:j1][None, :], xe[i0 + 1:i1 + 1][:, None], ye[j0 + 1:j1 + 1][None, :])
+    touch = free & shapely.intersects(clip, cells)
+    out = np.zeros_like(sub)
+    if not touch.any():
+        return out
+    # a few opening radii (cell sides rounded up to powers of 1.5) instead of one per cell
+    r_of = 1.5 ** np.ceil(np.log(0.5 * side[touch]) / np.log(1.5))
+    ii, jj = np.nonzero(touch)
+    for r in np.unique(r_of):
+        thin = shapely.difference(clip, shapely.buffer(shapely.buffer(clip, -r), r))
+        if thin.is_empty:
+            continue
+        sel = r_of == r
+        hit = shapely.intersects(thin, cells[ii[sel], jj[sel]])
+        out[ii[sel][hit], jj[sel][hit]] = True
+    return out
 
 
 def _node_cell(mesh, k: int, x_mm: float, y_mm: float, want: set[int] | None, reach_mm: float):
@@ -320,7 +416,9 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
             i, j = cell
             ends.append((float(mesh.x_centres[i]), float(mesh.y_centres[j]), l))
         width = min(_pad_size(a), _pad_size(b)) * 1e-3
-        links.append((ends[0], ends[1], width, 0.0))
+        # away from the board on the side the part sits (the bottom layer's parts hang below)
+        lift = (-PART_LIFT_MM if ends[0][2] == len(board.layers) - 1 and len(board.layers) > 1 else PART_LIFT_MM) * 1e-3
+        links.append((ends[0], ends[1], width, 0.0, lift))
         link_names.append(f"{a.terminal}-{b.terminal}" if kind == "part" else f"{a.terminal}~{b.terminal} (gap)")
     if not links:
         raise FieldSolveError("the loop passes no part: nothing to drive it")
@@ -350,7 +448,7 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
         groups[key] = groups.get(key, 0.0) + float(sol.energy_share[b])
     for k, nm in enumerate(link_names):
         key = f"part {nm}"
-        groups[key] = groups.get(key, 0.0) + float(sol.energy_share[nb + k])
+        groups[key] = groups.get(key, 0.0) + float(np.sum(sol.energy_share[nb:][con.link_part == k]))
     # copper carrying only eddy current has no share: at the least-energy current its loops
     # satisfy C_e^T Lp I = 0, so sum I_e (Lp I)_e = 0; its effect shows as the lower mutual
     # terms in the shares of the loop's own copper
@@ -360,16 +458,13 @@ def solve_field_loop(ctx: MeasureContext, loop, scale: float = 1.0, frequency_hz
     J = loopsolve.sheet_current_density(mesh, con, sol.currents)
     mag = np.hypot(J[..., 0], J[..., 1])
     jmax = float(mag.max()) if mag.size else 0.0
-    dxm, dym = np.diff(mesh.x_edges) * 1e3, np.diff(mesh.y_edges) * 1e3
-    xcm, ycm = mesh.x_centres * 1e3, mesh.y_centres * 1e3
     density: dict[str, list] = {}
-    for k in range(len(names)):
-        sel = np.nonzero(mag[k] > 0.02 * jmax)
-        if len(sel[0]) == 0:
+    for k, bx0, by0, bx1, by1, jx, jy in loopsolve.block_current_density(mesh, J):
+        if math.hypot(jx, jy) <= 0.02 * jmax:
             continue
-        density[names[k]] = [[round(float(xcm[i]), 3), round(float(ycm[j]), 3), round(float(dxm[i]), 3),
-                              round(float(dym[j]), 3), round(float(J[k, i, j, 0]) * 1e-3, 4),
-                              round(float(J[k, i, j, 1]) * 1e-3, 4)] for i, j in zip(*sel)]
+        density.setdefault(names[k], []).append(
+            [round(500 * (bx0 + bx1), 3), round(500 * (by0 + by1), 3), round(1e3 * (bx1 - bx0), 3),
+             round(1e3 * (by1 - by0), 3), round(jx * 1e-3, 4), round(jy * 1e-3, 4)])
     legs_out, loop_pts = _centroid_legs(ctx, loop, mesh, mag, legs)
     notes += [
         "partial-element field solve (Ruehli 1974; Kamon, Tsuk and White 1994): rectangular sheet cells with "

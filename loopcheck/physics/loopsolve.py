@@ -20,11 +20,18 @@ source link, and the loop inductance is
 Copper that is not connected to the loop (another net's plane, a pour) is meshed the same way;
 its loops carry the induced (eddy) currents and its net current is zero by construction.
 
+Sheets are meshed on a rectilinear grid whose cells may be merged into rectangular blocks
+(``merge_cells``): fine where the current crowds, coarse elsewhere. A conductor joins two
+neighbouring blocks across their common face; where the face is not centred on a block, it ends
+on the block's centre line and a rail along that line carries the current to the block's
+centre, so that current crossing between blocks of unequal size pays for moving along them.
+
 Partial inductances of cells: the exact closed form for two parallel bars of rectangular
 section with uniform current (Hoer and Love 1965, the sextuple integral of 1/R in closed form)
-for near pairs and the self terms; the closed form of parallel filaments with axial offset
-(Grover 1946) for pairs further apart than ``NEAR_RATIO`` times the larger cell's size, where it
-agrees with the bar formula to better than 0.5 % (tests/test_physics_loopsolve.py).
+for the self terms and pairs whose sections are close (``NEAR_RATIO``); parallel filaments with
+axial offset (Grover 1946), two across each cell's width or one, further out; the filament pair
+at the centres, mu0/4pi l1 l2 / R, beyond ``POINT_RATIO`` sizes. Together they agree with the
+bar formula within 0.6 % (tests/test_physics_loopsolve.py).
 """
 
 from __future__ import annotations
@@ -40,13 +47,19 @@ from scipy.sparse.csgraph import breadth_first_order, connected_components
 from loopcheck.physics._checks import as_finite, as_positive
 from loopcheck.physics.constants import MU0_OVER_4PI
 
-#: Pairs of parallel cells whose centre distance is below NEAR_RATIO times the larger of their
-#: largest dimensions use the exact bar formula (Hoer and Love); the others parallel filaments.
-NEAR_RATIO = 2.0
+#: Pairs of parallel cells whose axes are nearer than NEAR_RATIO times the larger section side
+#: (and whose ends are less than one section side apart along the current) use the exact bar
+#: formula (Hoer and Love); the others parallel filaments (two across the width: within 0.4 %
+#: of the exact formula there, tests/test_physics_loopsolve.py).
+NEAR_RATIO = 1.5
 #: ... pairs nearer than FAR_RATIO times the larger in-plane width: two filaments across each
 #: cell's width (Gauss-Legendre), beyond one (the filament's error falls as (width/distance)^2,
 #: 0.25 % at 8 widths; its length along the current is exact).
 FAR_RATIO = 8.0
+
+#: ... pairs further apart than POINT_RATIO times the larger of their largest dimensions: two
+#: filaments at the centres, mu0/4pi l1 l2 / R (error within (size / R)^2 / 6: 0.5 % at 6)
+POINT_RATIO = 6.0
 
 _CHUNK = 400_000   # pairs per vectorised block
 
@@ -152,12 +165,27 @@ def _bar_mutual(c1, s1, c2, s2, axis):
     a = s1 / scale[:, None]
     b = s2 / scale[:, None]
     zero = np.zeros(len(d))
-    diffs = [_differences(d[:, k], a[:, k], zero, b[:, k]) for k in range(3)]
     total = np.zeros(len(d))
-    for xi, sx in zip(*diffs[0]):
-        for yj, sy in zip(*diffs[1]):
-            for zk, sz in zip(*diffs[2]):
-                total += sx * sy * sz * _hl_f(xi, yj, zk)
+    # f is even in each argument: along an axis where the two bars are centred on one another
+    # with equal extents, the four differences are (e, -e, 0, 0) and their terms 2 f(e) - 2 f(0),
+    # two evaluations instead of four (a cell with itself: 8 instead of 64; coplanar cells of one
+    # layer: 32)
+    sym = np.stack([(d[:, k] == 0) & (a[:, k] == b[:, k]) for k in range(3)], axis=1)
+    code = sym[:, 0] * 1 + sym[:, 1] * 2 + sym[:, 2] * 4
+    for cval in np.unique(code):
+        sel = np.nonzero(code == cval)[0]
+        terms = []
+        for k in range(3):
+            if sym[sel[0], k]:
+                terms.append(((a[sel, k], zero[sel]), (2.0, -2.0)))
+            else:
+                terms.append(_differences(d[sel, k], a[sel, k], zero[sel], b[sel, k]))
+        part = np.zeros(len(sel))
+        for xi, sx in zip(*terms[0]):
+            for yj, sy in zip(*terms[1]):
+                for zk, sz in zip(*terms[2]):
+                    part += sx * sy * sz * _hl_f(xi, yj, zk)
+        total[sel] = part
     idx = np.arange(len(d))
     sec1 = np.prod(a, axis=1) / a[idx, axis]
     sec2 = np.prod(b, axis=1) / b[idx, axis]
@@ -262,15 +290,33 @@ def partial_inductance_bars(centres_m, sizes_m, axes):
         if m == 0:
             continue
         cc, ss, bb, ww = c[idx], s[idx], big[idx], across[idx]
+        length = ss[:, a]
+        cross = np.delete(ss, a, axis=1).max(axis=1)       # the larger side of each section
+        La = np.empty((m, m))
         rows = max(1, _CHUNK // m)
         for r0 in range(0, m, rows):
             r1 = min(m, r0 + rows)
-            i = np.repeat(np.arange(r0, r1), m)
-            j = np.tile(np.arange(m), r1 - r0)
-            keep = j >= i
-            i, j = i[keep], j[keep]
-            d = np.linalg.norm(cc[i] - cc[j], axis=1)
-            near = d < NEAR_RATIO * np.maximum(bb[i], bb[j])
+            dv = cc[r0:r1, None, :] - cc[None, :, :]
+            D = np.sqrt(np.einsum("ijk,ijk->ij", dv, dv))
+            lim = np.maximum(bb[r0:r1, None], bb[None, :])
+            # far pairs: two filaments at their centres' distance R, M = mu0/4pi l1 l2 / R (the
+            # first term of the Neumann integral's expansion; largest error, (l / R)^2 / 6, for
+            # collinear filaments: 0.5 % at POINT_RATIO = 6 sizes)
+            with np.errstate(divide="ignore"):
+                blk = MU0_OVER_4PI * length[r0:r1, None] * length[None, :] / D
+            close = (D < POINT_RATIO * lim) & (np.arange(m)[None, :] >= np.arange(r0, r1)[:, None])
+            ci, cj = np.nonzero(close)
+            i = ci + r0
+            j = cj
+            d = D[ci, cj]
+            # the exact bar formula where the two sections are close (within NEAR_RATIO section
+            # sizes across the current and one section size along it); the filament formula
+            # takes the lengths exactly, so only the sections' nearness calls for it
+            du = np.abs(cc[j, a] - cc[i, a])
+            sep = np.sqrt(np.maximum(d * d - du * du, 0.0))
+            gap = np.maximum(du - 0.5 * (length[i] + length[j]), 0.0)
+            sec = np.maximum(cross[i], cross[j])
+            near = (sep < NEAR_RATIO * sec) & (gap < sec)
             axv = np.full(len(i), a)
             vals = np.empty(len(i))
             if np.any(near):
@@ -281,8 +327,11 @@ def partial_inductance_bars(centres_m, sizes_m, axes):
                 f = np.nonzero(sel)[0]
                 if len(f):
                     vals[f] = _filament_mutual(cc[i[f]], ss[i[f]], cc[j[f]], ss[j[f]], axv[f], two)
-            L[idx[i], idx[j]] = vals
-            L[idx[j], idx[i]] = vals
+            blk[ci, cj] = vals
+            La[r0:r1] = blk
+        # the close pairs were computed above the diagonal: mirror them below it
+        La = np.triu(La) + np.triu(La, 1).T
+        L[np.ix_(idx, idx)] = La
     return L
 
 
@@ -319,6 +368,7 @@ class Conductors:
     link_widths: np.ndarray        # (Nl,) section width [m] of the link's strip
     link_thickness: np.ndarray     # (Nl,)
     link_extra_inductance: np.ndarray = field(default_factory=lambda: np.zeros(0))   # (Nl,) [H], package
+    link_part: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))    # (Nl,) the part each link is of
 
     @property
     def n_branches(self) -> int:
@@ -346,7 +396,9 @@ def link_partial_inductance(con: Conductors) -> tuple[np.ndarray, np.ndarray]:
     gb = 0.2235 * (np.sort(con.bar_sizes, axis=1)[:, :2].sum(axis=1))
     gl = 0.2235 * (con.link_widths + con.link_thickness)
     for k in np.nonzero(ok)[0]:
-        g = 0.5 * (gb + gl[k])
+        # softening of the link-cell pair: the larger of the two strips' own GMDs (a narrow cell
+        # inside the link's footprint lies at about the link's GMD from it, however small the cell)
+        g = np.maximum(gb, gl[k])
         rows[k] = ind.segment_mutual_inductance(np.broadcast_to(a0[k], b0.shape), np.broadcast_to(a1[k], b0.shape),
                                                 b0, b1, g)
     among = np.zeros((nl, nl))
@@ -564,6 +616,13 @@ class SheetMesh:
     thickness: np.ndarray          # (n_layers,)
     node_index: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))  # (n_layers, nx, ny), -1
     bar_cells: np.ndarray = field(default_factory=lambda: np.zeros((0, 2, 3), dtype=int))  # (Nb sheet, 2, (k, i, j))
+    #: (n_layers, nx, ny) int: the block (one node of the circuit) each grid cell belongs to, -1
+    #: no copper; blocks are rectangles of grid cells of one island (``merge_cells``). Empty:
+    #: every copper cell is its own block.
+    blocks: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
+    #: (Nb sheet, 2) int: the blocks at the two ends of each sheet conductor (the same block
+    #: twice for a conductor inside one block, along its centre line)
+    bar_blocks: np.ndarray = field(default_factory=lambda: np.zeros((0, 2), dtype=int))
 
     @property
     def x_centres(self) -> np.ndarray:
@@ -591,49 +650,104 @@ def sheet_conductors(mesh: SheetMesh, resistivity_ohm_m: float,
     vias : list of (x [m], y [m], layers, barrel diameter [m][, allowed labels])
         Vertical conductors joining the nodes of the given layers; a via whose cell holds no
         copper on a layer (or copper of a label not in ``allowed labels``) is not joined there.
-    links : list of ((x, y, layer), (x, y, layer), width [m], extra inductance [H])
-        Lumped links (components) between two points.
+    links : list of ((x, y, layer), (x, y, layer), width [m], extra inductance [H][, lift [m]])
+        Lumped links (components) between two points; with a lift, the link rises by it (a
+        signed height) at one end, runs across and comes down at the other (three conductors,
+        ``Conductors.link_part`` says whose).
 
     Returns
     -------
     (Conductors, via branch indices per via (empty when not connected), node per link end
     (2 per link, -1 where no copper lies under the end))
     """
-    xc, yc = mesh.x_centres, mesh.y_centres
-    dx, dy = np.diff(mesh.x_edges), np.diff(mesh.y_edges)
     lab = mesh.labels
     nlay, nx, ny = lab.shape
-    node = np.full(lab.shape, -1, dtype=int)
-    has = lab >= 0
-    node[has] = np.arange(int(has.sum()))
+    blocks = _blocks_of(mesh)
+    node = blocks
     mesh.node_index = node
-    cen, siz, axs, nod, res, cells = [], [], [], [], [], []
+    n_blocks = int(blocks.max()) + 1 if blocks.size and blocks.max() >= 0 else 0
+    bx0, bx1, by0, by1 = block_bounds(mesh.x_edges, mesh.y_edges, blocks, n_blocks)
+    bxc, byc = 0.5 * (bx0 + bx1), 0.5 * (by0 + by1)
+    kk_, ii_, jj_ = np.nonzero(blocks >= 0)
+    first_cell = np.zeros((n_blocks, 3), dtype=int)
+    first_cell[blocks[kk_, ii_, jj_][::-1]] = np.column_stack([kk_, ii_, jj_])[::-1]
+    # Where a face between two blocks is not centred on a block (blocks of different size side
+    # by side), the conductor across it ends on the block's centre line at the face's centre
+    # (a "rail" node), and the rail joins it to the block's centre through conductors of the
+    # block's own size: current that crosses such a face moves along the block at the cost of
+    # its inductance instead of jumping to the block's centre for free (which let a mesh of
+    # mixed sizes read up to 10 % low).
+    rail_nodes: dict[tuple[int, int, int], int] = {}
+    tol = 1e-6 * float(min(np.min(np.diff(mesh.x_edges)), np.min(np.diff(mesh.y_edges)))) if nx and ny else 0.0
+    n_nodes = n_blocks
+
+    def attach(blk, ax, pos):
+        nonlocal n_nodes
+        centre = byc[blk] if ax == 0 else bxc[blk]
+        out = blk.copy()
+        for q in np.nonzero(np.abs(pos - centre) > tol)[0]:
+            key = (int(blk[q]), ax, int(round(float(pos[q]) / tol)) if tol else 0)
+            if key not in rail_nodes:
+                rail_nodes[key] = n_nodes
+                n_nodes += 1
+            out[q] = rail_nodes[key]
+        return out
+
+    cen, siz, axs, nod, res, cells, bblk = [], [], [], [], [], [], []
     for k in range(nlay):
         t = mesh.thickness[k]
-        # x cells between (i, j) and (i + 1, j)
-        same = (lab[k, :-1, :] == lab[k, 1:, :]) & (lab[k, :-1, :] >= 0)
-        i, j = np.nonzero(same)
-        if len(i):
-            length = xc[i + 1] - xc[i]
-            cen.append(np.column_stack([0.5 * (xc[i] + xc[i + 1]), yc[j], np.full(len(i), mesh.z[k])]))
-            siz.append(np.column_stack([length, dy[j], np.full(len(i), t)]))
-            axs.append(np.zeros(len(i), dtype=int))
-            nod.append(np.column_stack([node[k, i, j], node[k, i + 1, j]]))
-            res.append(resistivity_ohm_m * length / (dy[j] * t))
-            kk = np.full(len(i), k)
-            cells.append(np.stack([np.column_stack([kk, i, j]), np.column_stack([kk, i + 1, j])], axis=1))
-        same = (lab[k, :, :-1] == lab[k, :, 1:]) & (lab[k, :, :-1] >= 0)
-        i, j = np.nonzero(same)
-        if len(i):
-            length = yc[j + 1] - yc[j]
-            cen.append(np.column_stack([xc[i], 0.5 * (yc[j] + yc[j + 1]), np.full(len(i), mesh.z[k])]))
-            siz.append(np.column_stack([dx[i], length, np.full(len(i), t)]))
-            axs.append(np.ones(len(i), dtype=int))
-            nod.append(np.column_stack([node[k, i, j], node[k, i, j + 1]]))
-            res.append(resistivity_ohm_m * length / (dx[i] * t))
-            kk = np.full(len(i), k)
-            cells.append(np.stack([np.column_stack([kk, i, j]), np.column_stack([kk, i, j + 1])], axis=1))
+        for ax in (0, 1):
+            pairs = _face_pairs(lab[k], blocks[k], mesh.x_edges, mesh.y_edges, ax)
+            if pairs is None:
+                continue
+            A, B, width, mid, ci, cj = pairs
+            if ax == 0:
+                length = bxc[B] - bxc[A]
+                cen.append(np.column_stack([0.5 * (bxc[A] + bxc[B]), mid, np.full(len(A), mesh.z[k])]))
+                siz.append(np.column_stack([length, width, np.full(len(A), t)]))
+                nxt = np.column_stack([np.full(len(A), k), ci + 1, cj])
+            else:
+                length = byc[B] - byc[A]
+                cen.append(np.column_stack([mid, 0.5 * (byc[A] + byc[B]), np.full(len(A), mesh.z[k])]))
+                siz.append(np.column_stack([width, length, np.full(len(A), t)]))
+                nxt = np.column_stack([np.full(len(A), k), ci, cj + 1])
+            axs.append(np.full(len(A), ax, dtype=int))
+            nod.append(np.column_stack([attach(A, ax, mid), attach(B, ax, mid)]))
+            res.append(resistivity_ohm_m * length / (width * t))
+            cells.append(np.stack([np.column_stack([np.full(len(A), k), ci, cj]), nxt], axis=1))
+            bblk.append(np.column_stack([A, B]))
+    # the rails: along each block's centre line, between its attachment points and its centre
+    by_rail: dict[tuple[int, int], list[tuple[float, int]]] = {}
+    for (blk, ax, _), nd in rail_nodes.items():
+        by_rail.setdefault((blk, ax), []).append(nd)
+    if by_rail:
+        # positions of the rail nodes (recovered from the key's rounded coordinate)
+        pos_of = {nd: key[2] * tol for key, nd in rail_nodes.items()}
+        for (blk, ax), nds in by_rail.items():
+            k = int(first_cell[blk, 0])
+            t = mesh.thickness[k]
+            # x faces (ax 0) put their nodes on the block's vertical centre line (varying y)
+            centre = byc[blk] if ax == 0 else bxc[blk]
+            pts = sorted([(pos_of[nd], nd) for nd in nds] + [(float(centre), blk)])
+            for (pa, na), (pb, nb_) in zip(pts[:-1], pts[1:]):
+                ln = pb - pa
+                if ln <= 0:
+                    continue
+                if ax == 0:     # a y conductor along the vertical centre line, the block's width
+                    cen.append(np.array([[bxc[blk], 0.5 * (pa + pb), mesh.z[k]]]))
+                    siz.append(np.array([[bx1[blk] - bx0[blk], ln, t]]))
+                    axs.append(np.array([1]))
+                    res.append(np.array([resistivity_ohm_m * ln / ((bx1[blk] - bx0[blk]) * t)]))
+                else:
+                    cen.append(np.array([[0.5 * (pa + pb), byc[blk], mesh.z[k]]]))
+                    siz.append(np.array([[ln, by1[blk] - by0[blk], t]]))
+                    axs.append(np.array([0]))
+                    res.append(np.array([resistivity_ohm_m * ln / ((by1[blk] - by0[blk]) * t)]))
+                nod.append(np.array([[na, nb_]]))
+                cells.append(np.array([[first_cell[blk], first_cell[blk]]]))
+                bblk.append(np.array([[blk, blk]]))
     mesh.bar_cells = np.concatenate(cells).astype(int) if cells else np.zeros((0, 2, 3), dtype=int)
+    mesh.bar_blocks = np.concatenate(bblk).astype(int) if bblk else np.zeros((0, 2), dtype=int)
 
     def cell_of(x, y):
         i = int(np.clip(np.searchsorted(mesh.x_edges, x) - 1, 0, nx - 1))
@@ -664,45 +778,219 @@ def sheet_conductors(mesh: SheetMesh, resistivity_ohm_m: float,
             mine.append(count)
             count += 1
         via_branches.append(mine)
-    ln, ls, le, lw, lt, lx = [], [], [], [], [], []
+    ln, ls, le, lw, lt, lx, lp = [], [], [], [], [], [], []
     ends: list[int] = []
-    for (pa, pb, width, extra) in links:
+    tk = float(np.mean(mesh.thickness))
+    for q, link in enumerate(links):
+        pa, pb, width, extra = link[:4]
+        lift = float(link[4]) if len(link) > 4 else 0.0
         na = node[pa[2], cell_of(pa[0], pa[1])[0], cell_of(pa[0], pa[1])[1]]
         nb_ = node[pb[2], cell_of(pb[0], pb[1])[0], cell_of(pb[0], pb[1])[1]]
         ends += [int(na), int(nb_)]
-        ln.append((na, nb_))
-        ls.append((pa[0], pa[1], mesh.z[pa[2]]))
-        le.append((pb[0], pb[1], mesh.z[pb[2]]))
-        lw.append(width)
-        lt.append(float(np.mean(mesh.thickness)))
-        lx.append(extra)
+        a = (pa[0], pa[1], mesh.z[pa[2]])
+        b = (pb[0], pb[1], mesh.z[pb[2]])
+        if lift == 0.0 or na < 0 or nb_ < 0:
+            pieces = [(na, nb_, a, b, extra)]
+        else:
+            # the part's current runs in its body, ``lift`` above (or below) its pads: up from
+            # one pad, across, down to the other, through two nodes of its own
+            a2, b2 = (a[0], a[1], a[2] + lift), (b[0], b[1], b[2] + lift)
+            n1, n2 = n_nodes, n_nodes + 1
+            n_nodes += 2
+            pieces = [(na, n1, a, a2, 0.0), (n1, n2, a2, b2, extra), (n2, nb_, b2, b, 0.0)]
+        for (u, v, s0, s1, ex) in pieces:
+            ln.append((u, v)); ls.append(s0); le.append(s1)
+            lw.append(width); lt.append(tk); lx.append(ex); lp.append(q)
     cat = (lambda parts, shape: np.concatenate(parts) if parts else np.zeros(shape))
     con = Conductors(
-        n_nodes=int(has.sum()), bar_nodes=cat(nod, (0, 2)).astype(int), bar_centres=cat(cen, (0, 3)),
+        n_nodes=int(n_nodes), bar_nodes=cat(nod, (0, 2)).astype(int), bar_centres=cat(cen, (0, 3)),
         bar_sizes=cat(siz, (0, 3)), bar_axes=cat(axs, (0,)).astype(int), bar_resistance=cat(res, (0,)),
         link_nodes=np.array(ln, dtype=int).reshape(-1, 2), link_starts=np.array(ls, dtype=float).reshape(-1, 3),
         link_ends=np.array(le, dtype=float).reshape(-1, 3), link_widths=np.array(lw, dtype=float),
-        link_thickness=np.array(lt, dtype=float), link_extra_inductance=np.array(lx, dtype=float))
+        link_thickness=np.array(lt, dtype=float), link_extra_inductance=np.array(lx, dtype=float),
+        link_part=np.array(lp, dtype=int))
     return con, via_branches, ends
 
 
 def sheet_current_density(mesh: SheetMesh, con: Conductors, currents: np.ndarray) -> np.ndarray:
-    """Sheet current density at every cell centre [A/m], shape (n_layers, nx, ny, 2) (Jx, Jy):
-    the mean of the currents of the x (y) cells meeting at the node over the cell's width."""
+    """Sheet current density at every grid cell [A/m], shape (n_layers, nx, ny, 2) (Jx, Jy): per
+    block, the current through each face that has conductors, over the block's width, averaged
+    over those faces (a grid cell of its own block: the mean of its x (y) cells' I / width);
+    every cell of a block takes the block's value."""
     nlay, nx, ny = mesh.labels.shape
-    out = np.zeros((nlay, nx, ny, 2))
-    cnt = np.zeros((nlay, nx, ny, 2))
+    blocks = _blocks_of(mesh)
+    n = int(blocks.max()) + 1 if blocks.size and blocks.max() >= 0 else 0
+    bx0, bx1, by0, by1 = block_bounds(mesh.x_edges, mesh.y_edges, blocks, n)
     I = np.real(currents[:len(mesh.bar_cells)])
+    nodes = mesh.bar_blocks
     axes = con.bar_axes[:len(mesh.bar_cells)]
-    dx, dy = np.diff(mesh.x_edges), np.diff(mesh.y_edges)
-    for ax in (0, 1):
-        sel = np.nonzero(axes == ax)[0]
-        for end in (0, 1):
-            k, i, j = mesh.bar_cells[sel, end].T
-            width = dy[j] if ax == 0 else dx[i]
-            np.add.at(out[..., ax], (k, i, j), I[sel] / width)
-            np.add.at(cnt[..., ax], (k, i, j), 1.0)
-    return np.where(cnt > 0, out / np.maximum(cnt, 1), 0.0)
+    Jb = np.zeros((n, 2))
+    across = nodes[:, 0] != nodes[:, 1]          # conductors through a face (not along a rail)
+    for ax, span in ((0, by1 - by0), (1, bx1 - bx0)):
+        sel = np.nonzero((axes == ax) & across)[0]
+        face = np.zeros((n, 2))        # current through the block's low and high face
+        has = np.zeros((n, 2))
+        np.add.at(face[:, 1], nodes[sel, 0], I[sel])
+        np.add.at(has[:, 1], nodes[sel, 0], 1.0)
+        np.add.at(face[:, 0], nodes[sel, 1], I[sel])
+        np.add.at(has[:, 0], nodes[sel, 1], 1.0)
+        sides = (has > 0).sum(axis=1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            Jb[:, ax] = np.where(sides > 0, face.sum(axis=1) / np.maximum(sides, 1) / np.where(span > 0, span, 1), 0.0)
+    out = np.zeros((nlay, nx, ny, 2))
+    cu = blocks >= 0
+    out[cu] = Jb[blocks[cu]]
+    return out
+
+
+def block_current_density(mesh: SheetMesh, J: np.ndarray) -> list[tuple[int, float, float, float, float, float, float]]:
+    """One row per block: (layer, x0, y0, x1, y1 [m], Jx, Jy [A/m]) from the per-cell density of
+    ``sheet_current_density`` (every cell of a block holds the block's value)."""
+    blocks = _blocks_of(mesh)
+    n = int(blocks.max()) + 1 if blocks.size and blocks.max() >= 0 else 0
+    bx0, bx1, by0, by1 = block_bounds(mesh.x_edges, mesh.y_edges, blocks, n)
+    k, i, j = np.nonzero(blocks >= 0)
+    b = blocks[k, i, j]
+    _, first = np.unique(b, return_index=True)
+    return [(int(k[f]), float(bx0[b[f]]), float(by0[b[f]]), float(bx1[b[f]]), float(by1[b[f]]),
+             float(J[k[f], i[f], j[f], 0]), float(J[k[f], i[f], j[f], 1])) for f in first]
+
+
+def _blocks_of(mesh: SheetMesh) -> np.ndarray:
+    """The block index array of a mesh (every copper cell its own block when none is set)."""
+    if mesh.blocks.shape == mesh.labels.shape:
+        return mesh.blocks
+    out = np.full(mesh.labels.shape, -1, dtype=int)
+    has = mesh.labels >= 0
+    out[has] = np.arange(int(has.sum()))
+    return out
+
+
+def block_bounds(x_edges, y_edges, blocks: np.ndarray, n: int):
+    """(x0, x1, y0, y1) arrays [m] of the n blocks' rectangles."""
+    k, i, j = np.nonzero(blocks >= 0)
+    b = blocks[k, i, j]
+    x0 = np.full(n, np.inf); x1 = np.full(n, -np.inf)
+    y0 = np.full(n, np.inf); y1 = np.full(n, -np.inf)
+    xe, ye = np.asarray(x_edges), np.asarray(y_edges)
+    np.minimum.at(x0, b, xe[i]); np.maximum.at(x1, b, xe[i + 1])
+    np.minimum.at(y0, b, ye[j]); np.maximum.at(y1, b, ye[j + 1])
+    return x0, x1, y0, y1
+
+
+def _face_pairs(lab: np.ndarray, blk: np.ndarray, x_edges, y_edges, ax: int):
+    """Conductors across the faces between neighbouring blocks of one island on one layer,
+    along ``ax``: (low block, high block, face width [m], face centre across [m], grid index i
+    and j of one low-side cell). None when there are none."""
+    if ax == 0:
+        a_lab, b_lab, a_blk, b_blk = lab[:-1, :], lab[1:, :], blk[:-1, :], blk[1:, :]
+    else:
+        a_lab, b_lab, a_blk, b_blk = lab[:, :-1], lab[:, 1:], blk[:, :-1], blk[:, 1:]
+    same = (a_lab == b_lab) & (a_lab >= 0) & (a_blk != b_blk)
+    i, j = np.nonzero(same)
+    if len(i) == 0:
+        return None
+    A, B = a_blk[i, j], b_blk[i, j]
+    if ax == 0:
+        w = np.diff(np.asarray(y_edges))[j]
+        c = 0.5 * (np.asarray(y_edges)[j] + np.asarray(y_edges)[j + 1])
+    else:
+        w = np.diff(np.asarray(x_edges))[i]
+        c = 0.5 * (np.asarray(x_edges)[i] + np.asarray(x_edges)[i + 1])
+    key = A.astype(np.int64) * (int(blk.max()) + 1) + B
+    uq, first, inv = np.unique(key, return_index=True, return_inverse=True)
+    inv = np.asarray(inv).reshape(-1)
+    width = np.bincount(inv, weights=w)
+    mid = np.bincount(inv, weights=w * c) / width
+    return A[first], B[first], width, mid, i[first], j[first]
+
+
+def count_sheet_branches(labels: np.ndarray, blocks: np.ndarray, x_edges, y_edges) -> int:
+    """Sheet conductors ``sheet_conductors`` will make of a mesh: one across each face between
+    neighbouring blocks of one island, and one along a block's centre line for each face that
+    is not centred on the block (see there)."""
+    total = 0
+    n = int(blocks.max()) + 1 if blocks.size and blocks.max() >= 0 else 0
+    if n == 0:
+        return 0
+    bx0, bx1, by0, by1 = block_bounds(x_edges, y_edges, blocks, n)
+    centre = (0.5 * (by0 + by1), 0.5 * (bx0 + bx1))
+    span = min(float(np.min(np.diff(x_edges))), float(np.min(np.diff(y_edges))))
+    for k in range(labels.shape[0]):
+        for ax in (0, 1):
+            pairs = _face_pairs(labels[k], blocks[k], x_edges, y_edges, ax)
+            if pairs is None:
+                continue
+            A, B, _, mid, _, _ = pairs
+            total += len(A)
+            for blk in (A, B):
+                off = np.abs(mid - centre[ax][blk]) > 1e-6 * span
+                total += len(np.unique(np.column_stack([blk[off], np.round(mid[off] / (1e-6 * span))]), axis=0))
+    return total
+
+
+def merge_cells(labels: np.ndarray, x_edges, y_edges, target_m: np.ndarray) -> np.ndarray:
+    """Blocks of grid cells: rectangles of one island no larger than the target size of every
+    cell they hold, found by halving the grid (a quadtree over the cell indices).
+
+    A graded grid carries the fine lines of the loop's conductor edges across the whole window
+    and onto every layer; merging the cells far from where the loop's current flows (large
+    target) keeps them fine there and coarse elsewhere, so the number of unknowns follows the
+    loop's outline rather than the grid's product. A block holds copper of one island only
+    and no empty cell: the copper outline stays as the grid draws it (merging across a gap or a
+    slot would close it).
+
+    Parameters
+    ----------
+    labels : array (n_layers, nx, ny) of int
+        Island id per grid cell, -1 no copper.
+    x_edges, y_edges : array (nx + 1,), (ny + 1,)
+        Grid lines [m] (or any length unit, the same for ``target_m``).
+    target_m : array (n_layers, nx, ny)
+        Largest block side wanted at each cell [m] (a single cell is always a block).
+
+    Returns
+    -------
+    array (n_layers, nx, ny) of int
+        Block index per cell (0 .. n_blocks - 1), -1 where there is no copper.
+
+    Examples
+    --------
+    A 4 x 4 grid of 1 m cells, one island, a target of 2 m everywhere: four 2 x 2 blocks.
+
+    >>> lab = np.zeros((1, 4, 4), dtype=int)
+    >>> b = merge_cells(lab, np.arange(5.0), np.arange(5.0), np.full((1, 4, 4), 2.0))
+    >>> int(b.max()) + 1, b[0, :2, :2].tolist()
+    (4, [[0, 0], [0, 0]])
+    """
+    lab = np.asarray(labels)
+    xe, ye = np.asarray(x_edges, dtype=float), np.asarray(y_edges, dtype=float)
+    tgt = np.asarray(target_m, dtype=float)
+    out = np.full(lab.shape, -1, dtype=int)
+    count = 0
+    tol = 1e-9 * max(float(xe[-1] - xe[0]), float(ye[-1] - ye[0]), 1e-30)
+    for k in range(lab.shape[0]):
+        stack = [(0, lab.shape[1], 0, lab.shape[2])]
+        while stack:
+            i0, i1, j0, j1 = stack.pop()    # the low half was pushed last: blocks numbered low first
+            sub = lab[k, i0:i1, j0:j1]
+            lo, hi = int(sub.min()), int(sub.max())
+            if hi < 0:
+                continue
+            w, h = xe[i1] - xe[i0], ye[j1] - ye[j0]
+            single = i1 - i0 == 1 and j1 - j0 == 1
+            if single or (lo == hi and max(w, h) <= float(tgt[k, i0:i1, j0:j1].min()) + tol):
+                out[k, i0:i1, j0:j1] = count
+                count += 1
+                continue
+            # halve the longer side at its physical middle (graded grids keep blocks square)
+            if (w >= h and i1 - i0 > 1) or j1 - j0 == 1:
+                m = int(np.clip(np.searchsorted(xe, 0.5 * (xe[i0] + xe[i1])), i0 + 1, i1 - 1))
+                stack += [(m, i1, j0, j1), (i0, m, j0, j1)]
+            else:
+                m = int(np.clip(np.searchsorted(ye, 0.5 * (ye[j0] + ye[j1])), j0 + 1, j1 - 1))
+                stack += [(i0, i1, m, j1), (i0, i1, j0, m)]
+    return out
 
 
 def _graded_gap(gap: float, fine: float, coarse: float, growth: float) -> np.ndarray:

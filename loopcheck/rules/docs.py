@@ -128,9 +128,10 @@ _DOCS = (
                 "1974; Kamon, Tsuk and White 1994). Fast: L = sum_i sum_j s_i s_j M_ij over the "
                 "traced path's flat-strip segments (Grover's bar formula, Neumann mutuals), "
                 "minus the mutual with its mirror image where a solid plane lies under it.",
-        limits="Field: copper beyond the window is not seen; parts are straight strips between "
-               "their pad centres (package inductance not included); the high-frequency limit "
-               "(no resistance). Fast: copper at its traced centre line with uniform current.",
+        limits="Field: copper beyond the window is not seen; a part's current is a straight strip "
+               "between its pad centres 0.5 mm above them, with risers to the pads (no package "
+               "table); the high-frequency limit (no resistance). Fast: copper at its traced "
+               "centre line with uniform current, parts as in the field solve.",
         group="switching loop",
     ),
     RuleDoc(
