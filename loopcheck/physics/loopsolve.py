@@ -293,6 +293,8 @@ def partial_inductance_bars(centres_m, sizes_m, axes):
         length = ss[:, a]
         cross = np.delete(ss, a, axis=1).max(axis=1)       # the larger side of each section
         La = np.empty((m, m))
+        near_i: list[np.ndarray] = []
+        near_j: list[np.ndarray] = []
         rows = max(1, _CHUNK // m)
         for r0 in range(0, m, rows):
             r1 = min(m, r0 + rows)
@@ -319,16 +321,21 @@ def partial_inductance_bars(centres_m, sizes_m, axes):
             near = (sep < NEAR_RATIO * sec) & (gap < sec)
             axv = np.full(len(i), a)
             vals = np.empty(len(i))
-            if np.any(near):
-                k = np.nonzero(near)[0]
-                vals[k] = _near_unique(cc[i[k]], ss[i[k]], cc[j[k]], ss[j[k]], a)
+            # the exact pairs of all row blocks are computed together below (one pass finds
+            # the repeated geometries of the whole grid)
+            k = np.nonzero(near)[0]
+            near_i.append(i[k]); near_j.append(j[k])
             mid = ~near & (d < FAR_RATIO * np.maximum(ww[i], ww[j]))
             for sel, two in ((mid, True), (~near & ~mid, False)):
                 f = np.nonzero(sel)[0]
                 if len(f):
                     vals[f] = _filament_mutual(cc[i[f]], ss[i[f]], cc[j[f]], ss[j[f]], axv[f], two)
-            blk[ci, cj] = vals
+            keep = ~near
+            blk[ci[keep], cj[keep]] = vals[keep]
             La[r0:r1] = blk
+        ni, nj = np.concatenate(near_i), np.concatenate(near_j)
+        if len(ni):
+            La[ni, nj] = _near_unique(cc[ni], ss[ni], cc[nj], ss[nj], a)
         # the close pairs were computed above the diagonal: mirror them below it
         La = np.triu(La) + np.triu(La, 1).T
         L[np.ix_(idx, idx)] = La
