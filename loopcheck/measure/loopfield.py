@@ -149,9 +149,10 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
     # coarser cells (the finest kept below the narrowest loop conductor as long as possible)
     # (the window stays: far cells are merged into coarse blocks, which cost little, and a
     # window cut close to the loop misses the return current's spread in a wide pour)
-    plan = [(True, GROWTH, 1.0, 1.0, 1.0), (True, 2.0, 1.0, 1.5, 1.0), (False, 2.0, 1.0, 1.5, 1.0),
-            (False, 2.0, 1.0, 2.5, 1.0), (False, 2.5, 1.0, 3.5, 1.0)]
-    plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k, 1.0) for k in range(1, 8)]
+    # (edge lines, growth, fine and coarse factors)
+    plan = [(True, GROWTH, 1.0, 1.0), (True, 2.0, 1.0, 1.5), (False, 2.0, 1.0, 1.5), (False, 2.0, 1.0, 2.5),
+            (False, 2.5, 1.0, 3.5)]
+    plan += [(False, 2.5, 1.3 ** k, 3.5 * 1.3 ** k) for k in range(1, 8)]
     bx = (min(xs), min(ys), max(xs), max(ys))
     # where the loop's current flows, per layer: along its route, crowded at the edges of its
     # nets' copper near the route, and spreading from the points where it enters a sheet (the
@@ -177,13 +178,14 @@ def build_mesh(ctx: MeasureContext, loop, scale: float = 1.0, margin_mm: float |
                 if 0 <= k < nl:
                     flow.setdefault(k, []).append(shapely.points(vx, vy))
     flow_lines = {k: shapely.union_all(v) for k, v in flow.items()}
+    m = max(1.5, margin)
+    win = (bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m)
+
     def mesh_at(step: int):
-        edges, growth, kf, kc, km = plan[step]
+        edges, growth, kf, kc = plan[step]
         f, c = fine * kf, coarse * kc
         # halving the mesh halves every cell: the growth per cell shrinks with the scale too
         g = 1.0 + (growth - 1.0) * min(scale, 1.0)
-        m = max(1.5, margin * km)
-        win = (bx[0] - m, bx[1] - m, bx[2] + m, bx[3] + m)
         # a grid graded from the feature lines (long cells along a conductor, fine across it),
         # its cells then merged into blocks that grow away from where the loop's current flows
         xe = loopsolve.graded_edges(win[0], win[2], _thin(fx + (ex if edges else []), f / 2), f * EDGE_FIRST, c, g)
