@@ -160,3 +160,56 @@ def test_route_across_stitched_pours_and_via_in_pad(pitch):
     # straight line between the pads along the board
     assert len(r.vias) == 1
     assert r.length_mm == pytest.approx(16.0, abs=2 * r.pitch_mm + 0.05)
+
+
+def test_a_board_sized_pour_is_rastered_within_the_node_cap(monkeypatch):
+    # memory bound (issue 11): past MAX_NODES copper cells the pitch grows beyond MAX_PITCH_MM;
+    # the route across the pour is still made, and still straight
+    import loopcheck.measure.routes as routes
+
+    monkeypatch.setattr(routes, "MAX_NODES", 20_000)
+    plane = box(0, 0, 100, 100)                  # 10,000 mm2: 40,000 cells at the 0.5 mm pitch
+    b = make_board([plane, []], [smd("G", "A", 1, 5, 5, 2.0), smd("G", "B", 1, 95, 95, 2.0)])
+    ctx = MeasureContext(b)
+    r = route(ctx, b.terminals["A.1"], b.terminals["B.1"])
+    assert r.pitch_mm > routes.MAX_PITCH_MM
+    nr = routes.net_raster(ctx, "G", None, None)
+    assert len(nr.nodes) <= 1.05 * routes.MAX_NODES    # cells along the edges round up
+    assert r.length_mm == pytest.approx(math.hypot(90, 90), rel=0.03)
+
+
+def test_rasters_kept_stay_within_their_copper_cell_budget(monkeypatch):
+    # two board-sized pours of two nets: the second raster pushes the first out of the cache
+    # before it is built, so the two are never held at once; small rasters are kept as before
+    import loopcheck.measure.routes as routes
+
+    monkeypatch.setattr(routes, "RASTER_NODES_KEPT", 50_000)
+    b = make_board([box(0, 0, 100, 100), box(0, 0, 100, 100)],
+                   [smd("G", "A", 1, 5, 5), smd("G", "B", 1, 95, 95),
+                    smd("H", "C", 1, 5, 5, layer=1), smd("H", "D", 1, 95, 95, layer=1)])
+    ctx = MeasureContext(b)
+    g = routes.net_raster(ctx, "G", 0.5, None)           # 40,000 cells
+    assert len(g.nodes) == pytest.approx(40_000, rel=0.02)
+    routes.net_raster(ctx, "H", 0.5, None)               # 40,000 more: over the budget together
+    kept = ctx.cache["rasters"]
+    assert [k[1] for k in kept] == ["H"]
+    assert sum(len(r.nodes) for r in kept.values()) <= routes.RASTER_NODES_KEPT
+    # three small rasters fit beside each other, a fourth drops the oldest (RASTERS_KEPT)
+    for w in [(0, 0, 10, 10), (20, 20, 30, 30), (40, 40, 50, 50), (60, 60, 70, 70)]:
+        routes.net_raster(ctx, "G", 0.5, w)
+    assert len(kept) == routes.RASTERS_KEPT
+    assert [k[3] for k in kept] == [(20, 20, 30, 30), (40, 40, 50, 50), (60, 60, 70, 70)]
+
+
+def test_a_failed_route_is_remembered_without_the_search_that_failed():
+    # the error kept for the next asker must not hold the search's frames: through them it kept
+    # a board-sized raster and its graph alive (a 4-layer 614 x 342 mm board peaked at 2.3 GB)
+    t = unary_union([trace([(0, 0), (8, 0)], 0.5), trace([(12, 0), (20, 0)], 0.5)])
+    b = make_board([t, []], [smd("N", "A", 1, 0, 0), smd("N", "B", 1, 20, 0)])
+    ctx = MeasureContext(b)
+    for _ in range(2):            # traced, then from the cache: the same reason both times
+        with pytest.raises(RouteError, match="no copper of net N joins A.1"):
+            route(ctx, b.terminals["A.1"], b.terminals["B.1"])
+    kept = [v for k, v in ctx.cache.items() if isinstance(k, tuple) and k[0] == "route"]
+    assert len(kept) == 1 and isinstance(kept[0], RouteError)
+    assert kept[0].__traceback__ is None

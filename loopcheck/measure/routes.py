@@ -44,6 +44,11 @@ MIN_PITCH_MM = 0.05
 MAX_PITCH_MM = 0.5     # coarser than this, thin traces drop out of the raster (the route is then not made)
 MAX_GRID_CELLS = 3_000_000   # raster cells of the bounding box over all layers (memory: about 30 B a cell)
 MAX_CELLS = 200_000    # raster cells of one net's copper over all its layers (speed: about 0.2 s a route)
+# copper cells of one raster, a hard cap: a copper cell costs about 0.8 kB with its graph and a
+# search on it (measured: 836,000 cells of a 614 x 342 mm pour took 680 MB), so a net of more
+# copper than MAX_CELLS at MAX_PITCH_MM gets a coarser pitch still rather than memory without bound
+MAX_NODES = 1_000_000
+RASTER_NODES_KEPT = 1_200_000   # copper cells of all the rasters kept per board, the newest included
 ATTRACT_GAIN = 3.0     # loop return: extra cost per mm away from the outgoing conductor
 ATTRACT_CAP_MM = 10.0
 SIMPLIFY_MAX_MM = 0.3   # the simplified path stays this close to the raster path (planes)
@@ -244,6 +249,10 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     p = pitch_mm or choose_pitch(area)
     # the grid spans the bounding box on every layer: keep it bounded too (memory)
     p = max(p, math.sqrt((maxx - minx) * (maxy - miny) * len(layers) / MAX_GRID_CELLS))
+    # and the copper cells, past MAX_PITCH_MM if need be: on a board-sized pour, thin traces may
+    # then drop out of the raster, and a route through them is not made (a stated gap)
+    p = max(p, math.sqrt(area / MAX_NODES))
+    _make_room(kept, area / (p * p))
     grid = grid_covering((minx, miny, maxx, maxy), p)
     masks = np.stack([rasterise(copper[l], grid) for l in layers])
     edt = np.stack([(ndimage.distance_transform_edt(m) * p).astype(np.float32) for m in masks])
@@ -304,9 +313,16 @@ def net_raster(ctx: MeasureContext, net: str, pitch_mm: float | None = None,
     base = 1.0 + ALPHA * p / np.maximum(e, p)
     out = NetRaster(net, grid, layers, masks, edt, index, nodes, edge_a, edge_b, edge_len, is_via, base, z)
     kept[key] = out
-    while len(kept) > RASTERS_KEPT:
-        kept.popitem(last=False)
     return out
+
+
+def _make_room(kept, new_nodes: float) -> None:
+    """Drop the least recently used rasters until one of ``new_nodes`` copper cells fits beside
+    the rest: at most RASTERS_KEPT rasters, RASTER_NODES_KEPT cells in all (a board-sized pour's
+    raster is most of that alone; the windowed rasters of an ordinary board are far below it)."""
+    while kept and (len(kept) >= RASTERS_KEPT
+                    or sum(len(r.nodes) for r in kept.values()) + new_nodes > RASTER_NODES_KEPT):
+        kept.popitem(last=False)
 
 
 RASTERS_KEPT = 3      # net rasters kept per board (the routes traced on them are kept apart)
@@ -396,7 +412,9 @@ def route(ctx: MeasureContext, start: Pad, ends: list[Pad] | Pad,
         r = _route(ctx, start, ends, attract_to, pitch_mm)
     except RouteError as exc:
         if key is not None:
-            ctx.cache[key] = exc
+            # a fresh error, not ``exc``: its traceback holds the frames of the search and with
+            # them the net's raster, graph and distances (hundreds of MB on a board-sized pour)
+            ctx.cache[key] = RouteError(str(exc))
         raise
     if key is not None:
         ctx.cache[key] = r
