@@ -3,7 +3,8 @@
 Target (issue 9, issue 11): under 10 s and 2 GB each on a 2-core machine.
 
     python3 benchmarks/bench_realboards.py [BOARD_DIR ...]     # default: every ../shared/realboards/*
-    python3 benchmarks/bench_realboards.py --large [W H]       # and a synthesized W x H mm board (614 x 342)
+    python3 benchmarks/bench_realboards.py --large [W H]       # and synthesized W x H mm boards (614 x 342),
+                                                               # of two layers and of four (three planes)
 
 The default large board has ten times the area of the largest corpus board (194 x 108 mm of
 copper, 21,000 mm2), each side scaled by the square root of ten: issue 11 asks for memory under
@@ -77,11 +78,13 @@ def run(board: Path) -> dict:
         return out
 
 
-def large_board(folder: Path, width_mm: float = 614.0, height_mm: float = 342.0) -> Path:
-    """A discrete LED buck in one corner of a ``width_mm`` x ``height_mm`` two-layer board whose
-    bottom is one ground pour, fed by a connector at the far corner through a long VIN trace:
-    the ground path and the input path cross the whole board, so the routes' rasters and the DC
-    solves must stay windowed or capped to keep memory bounded."""
+def large_board(folder: Path, width_mm: float = 614.0, height_mm: float = 342.0, layers: int = 2) -> Path:
+    """A discrete LED buck in one corner of a ``width_mm`` x ``height_mm`` board fed by a
+    connector at the far corner through a long VIN trace: the ground path and the input path cross
+    the whole board, so the routes' rasters and the DC solves must stay windowed or capped to keep
+    memory bounded. Two layers: the bottom is one ground pour. Four layers: ground planes on
+    inner1 and the bottom and an input-voltage plane on inner2, so that the ground net alone is
+    two board-sized planes."""
     from loopcheck.synth import SynthBoard, SynthComponent, SynthPad, SynthTrace, SynthVia, pours_with_clearance, write_fab
 
     def two(ref, value, a, b, size=(1.2, 1.2)):
@@ -90,7 +93,7 @@ def large_board(folder: Path, width_mm: float = 614.0, height_mm: float = 342.0)
     W, H = width_mm, height_mm
     comps = [
         SynthComponent("J1", "IN", [SynthPad("1", "VIN", W - 10, H - 20, 2.0, 2.0, hole_mm=1.0),
-                                    SynthPad("2", "GND", W - 10, H - 30, 2.0, 2.0, hole_mm=1.0)]),
+                                    SynthPad("2", "GND", W - 20, H - 20, 2.0, 2.0, hole_mm=1.0)]),
         two("C1", "10uF", ("VIN", 10, 20), ("GND", 10, 17)),
         SynthComponent("Q1", "NMOS", [SynthPad("1", "GATE", 14.5, 22.5, 1.0, 1.0), SynthPad("2", "SW", 16, 20, 1.2, 1.2),
                                       SynthPad("3", "VIN", 13, 20, 1.2, 1.2)]),
@@ -118,8 +121,10 @@ def large_board(folder: Path, width_mm: float = 614.0, height_mm: float = 342.0)
          SynthTrace("LEDS", 1, 0.3, [(31.5, 18.5), (31.5, 27), (24, 27)])]
     vias = [SynthVia("GND", 13, 15.5, 0.4, 0.8), SynthVia("GND", 10, 15.5, 0.4, 0.8),
             SynthVia("GND", 18.5, 27, 0.4, 0.8), SynthVia("GND", 28, 31, 0.4, 0.8)]
-    b = SynthBoard(f"large-{W:g}x{H:g}", W, H, 2, comps, t, [], vias)
-    b.pours += pours_with_clearance(b, "GND", 2, [(0.5, 0.5), (W - 0.5, 0.5), (W - 0.5, H - 0.5), (0.5, H - 0.5)], 0.4)
+    b = SynthBoard(f"large-{W:g}x{H:g}" + ("-4layer" if layers == 4 else ""), W, H, layers, comps, t, [], vias)
+    edge = [(0.5, 0.5), (W - 0.5, 0.5), (W - 0.5, H - 0.5), (0.5, H - 0.5)]
+    for net, layer in ([("GND", 2)] if layers == 2 else [("GND", 2), ("VIN", 3), ("GND", 4)]):
+        b.pours += pours_with_clearance(b, net, layer, edge, 0.4)
     write_fab(b, folder)
     (folder / "loopcheck.toml").write_text('[components]\nRS1 = "0.1"\n[operating_point]\nvin_v = [20, 30]\n'
                                           'vout_v = 12\niout_a = 1.0\n')
@@ -138,6 +143,7 @@ def main(argv: list[str]) -> int:
         tmp = tempfile.TemporaryDirectory()
         sys.path.insert(0, str(ROOT))
         boards.append(large_board(Path(tmp.name) / "large", *large))
+        boards.append(large_board(Path(tmp.name) / "large-4layer", *large, layers=4))
     if not boards:
         print(f"no boards (looked in {REALBOARDS})")
         return 0
