@@ -434,3 +434,64 @@ def test_netlist_pin_record_repeated_twenty_thousand_times(tmp_path):
                          env=dict(os.environ, PYTHONPATH=str(REPO)), timeout=120)
     assert res.returncode in (0, 1), res.stderr
     assert time.monotonic() - t0 < 60
+
+
+def test_region_contour_retracing_one_segment_twenty_thousand_times(tmp_path):
+    """Fuzz kind repeat-lines (seed 20261202, cases 1723 and 2733): two vertex lines of a pour's
+    contour repeated 20 000 times drew one segment 40 000 times over; repairing that contour
+    (make_valid) grows with the square of the repeats and took 12.7 GB and 43 s before the
+    geometry library gave up. Such a contour is refused before the repair, in one line naming
+    the file; a writer's cut-ins (each segment drawn twice) are still repaired
+    (test_reader_gerber.test_region_cut_in_makes_a_hole)."""
+    board = tmp_path / "board"
+    bottom = write_buck(board)["L2"]
+    lines = bottom.read_text().splitlines(keepends=True)
+    k = _first(lines, "G36") + 2               # the contour's first two D01 vertices
+    assert lines[k].endswith("D01*\n") and lines[k + 1].endswith("D01*\n")
+    bottom.write_text("".join(lines[:k + 2] + lines[k:k + 2] * 20000 + lines[k + 2:]))
+    started = time.perf_counter()
+    msg = check_refuses(board, tmp_path, bottom.name)
+    assert "region contour" in msg and "40001 times" in msg
+    assert time.perf_counter() - started < 30
+
+
+def test_step_and_repeat_of_a_pour_past_the_vertex_limit(tmp_path):
+    """Fuzz kinds step-repeat and delete-lines (seed 20261202, case 7210): 10 000 copies of a
+    block holding a 13 000-vertex pour were 10 000 objects, under the object limit, but 130
+    million vertices: 5.8 GB and 36 s. Copies now count their region vertices against
+    InputLimits.max_step_repeat_vertices (here lowered to the 5-vertex pour times 99 copies)."""
+    from loopcheck.errors import InputError
+    from loopcheck.limits import InputLimits
+    from loopcheck.readers.gerber import read_gerber
+
+    board = tmp_path / "board"
+    bottom = write_buck(board)["L2"]
+    lines = bottom.read_text().splitlines(keepends=True)
+    g36, g37 = _first(lines, "G36"), _first(lines, "G37")
+    assert g37 - g36 == 6                      # D02 + four D01 vertices: a 5-vertex contour
+    bottom.write_text("".join(lines[:g36] + ["%SRX100Y1I70J0*%\n"] + lines[g36:g37 + 1] + ["%SR*%\n"]
+                              + lines[g37 + 1:]))
+    tight = InputLimits(max_step_repeat_vertices=5 * 99 - 1)
+    with pytest.raises(InputError, match=r"100 copies x 5 region vertices would add 495 vertices"):
+        read_gerber(bottom, tight)
+    assert read_gerber(bottom, InputLimits(max_step_repeat_vertices=5 * 99)) is not None
+
+
+def test_outline_with_two_lines_drawn_twenty_thousand_times_over(tmp_path):
+    """Fuzz kind repeat-lines on the profile (seed 20261202, case 3820): two outline lines
+    repeated 20 000 times made 40 000 coincident lines whose noding grows with their square
+    (killed at 23.8 GB after 96 s). A line drawn again adds nothing to an outline: each is
+    joined once, and the board reads as if it were drawn once."""
+    from loopcheck.readers.gerber import read_profile
+
+    board = tmp_path / "board"
+    profile = write_buck(board)["profile"]
+    clean = read_profile(profile)
+    lines = profile.read_text().splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.endswith("D01*\n"))
+    profile.write_text("".join(lines[:k + 2] + lines[k:k + 2] * 20000 + lines[k + 2:]))
+    started = time.perf_counter()
+    damaged = read_profile(profile)
+    assert time.perf_counter() - started < 20
+    assert damaged.area == pytest.approx(clean.area, rel=1e-9)
+    assert damaged.bounds == pytest.approx(clean.bounds)

@@ -186,6 +186,7 @@ class _Parser(GerberParser):
         self.sr_blocks: list[_SRBlock] = []
         self.sr_open: tuple[int, list[tuple[float, float]]] | None = None
         self.sr_extra = 0
+        self.sr_extra_vertices = 0
         self.image_negative = False
         self.mirror = "N"
         self.rotation_deg = 0.0
@@ -396,6 +397,13 @@ class _Parser(GerberParser):
                 raise _LimitExceeded(
                     f"step-and-repeat of {len(offsets)} copies x {end - start} objects would make "
                     f"{total} graphic objects, over the limit of {self.limits.max_step_repeat_objects}")
+            vertices = sum(len(o.outline) for o in self.target.objects[start:end] if isinstance(o, go.Region))
+            self.sr_extra_vertices += (len(offsets) - 1) * vertices
+            if self.sr_extra_vertices > self.limits.max_step_repeat_vertices:
+                raise _LimitExceeded(
+                    f"step-and-repeat of {len(offsets)} copies x {vertices} region vertices would add "
+                    f"{self.sr_extra_vertices} vertices, over the limit of "
+                    f"{self.limits.max_step_repeat_vertices}")
             depth = _overlap_depth(self.target.objects[start:end], offsets)
             if depth > MAX_SR_OVERLAP:
                 raise _LimitExceeded(
@@ -696,6 +704,39 @@ def arc_points(x1, y1, x2, y2, cx, cy, clockwise: bool, tol_mm: float) -> np.nda
     return pts
 
 
+# How much retracing an invalid region contour may have before its repair is refused: the sum,
+# over the contour's segments drawn more than once, of n * (n - 1) for a segment drawn n times.
+# Repairing (make_valid) costs time and memory growing with that sum: a segment drawn 4,000
+# times took 6.5 s and 1.6 GB, 40,000 times (a fuzzed file) 12 GB. A writer's cut-ins draw a
+# segment twice (2 each); a thousand of them are 2,000.
+MAX_RETRACE = 1_000_000
+
+
+class _RetracedContour(Exception):
+    """A region contour that draws the same segments over and over: a damaged file."""
+
+
+def _check_retrace(pts: np.ndarray) -> None:
+    """Raise _RetracedContour when the closed contour ``pts`` retraces itself past MAX_RETRACE."""
+    a, b = pts, np.roll(pts, -1, axis=0)
+    swap = (a[:, 0] > b[:, 0]) | ((a[:, 0] == b[:, 0]) & (a[:, 1] > b[:, 1]))
+    ends = np.where(swap[:, None], np.hstack([b, a]), np.hstack([a, b]))   # each segment either way round
+    _, counts = np.unique(ends, axis=0, return_counts=True)
+    counts = counts.astype(np.int64)
+    work = int((counts * (counts - 1)).sum())
+    if work > MAX_RETRACE:
+        raise _RetracedContour(f"a region contour draws one segment {int(counts.max())} times over "
+                               f"({len(pts)} vertices): a damaged file, not a shape that can be repaired "
+                               "in bounded time")
+
+
+def _repaired(pts) -> BaseGeometry:
+    """The invalid contour ``pts`` [mm] made valid (cut-ins, touching rings), unless it retraces
+    itself too much for that to be done in bounded time and memory."""
+    _check_retrace(np.asarray(pts, dtype=float))
+    return shp._polygonal(shapely.make_valid(Polygon(pts)))
+
+
 def region_polygon(region: go.Region, f: float, tol_mm: float) -> BaseGeometry:
     """A region's contour (lines and arcs) as a valid shapely polygon [mm]."""
     outline = region.outline
@@ -708,7 +749,7 @@ def region_polygon(region: go.Region, f: float, tol_mm: float) -> BaseGeometry:
             return EMPTY
         poly = Polygon(pts)
         if not poly.is_valid:
-            poly = shp._polygonal(shapely.make_valid(poly))
+            poly = _repaired(pts)
         return poly
     pts: list = [(outline[0][0] * f, outline[0][1] * f)]
     for k in range(1, len(outline)):
@@ -724,7 +765,7 @@ def region_polygon(region: go.Region, f: float, tol_mm: float) -> BaseGeometry:
         return EMPTY
     poly = Polygon(pts)
     if not poly.is_valid:
-        poly = shp._polygonal(shapely.make_valid(poly))
+        poly = _repaired(pts)
     return poly
 
 
@@ -1093,6 +1134,8 @@ def read_gerber(path, limits: InputLimits = DEFAULT_LIMITS, *, tol_mm: float = D
                          path=str(path)) from None
     except shapely.errors.GEOSException as e:
         raise InputError(f"geometry error while building the layer: {e}", path=str(path)) from None
+    except _RetracedContour as e:
+        raise InputError(str(e), path=str(path)) from None
 
     attributes = {}
     for name, value in target.file_attrs.items():
@@ -1176,7 +1219,10 @@ def read_profile(path, limits: InputLimits = DEFAULT_LIMITS, *, join_tol_mm: flo
             pts = arc_points(x1, y1, obj.x2 * f, obj.y2 * f, x1 + obj.cx * f, y1 + obj.cy * f,
                              obj.clockwise, tol_mm)
         elif isinstance(obj, go.Region) and obj.polarity_dark:
-            g = region_polygon(obj, f, tol_mm)
+            try:
+                g = region_polygon(obj, f, tol_mm)
+            except _RetracedContour as e:
+                raise InputError(str(e), path=str(path)) from None
             for dx, dy in offsets_of[k]:
                 regions.append(shapely.affinity.translate(g, dx * f_sr, dy * f_sr))
             continue
@@ -1208,6 +1254,10 @@ def _profile_polygon(lines: list, regions: list, join_tol_mm: float) -> Polygon:
         if not lines:
             break
         snapped = shapely.set_precision(np.array(lines, dtype=object), grid)
+        # a line drawn again adds nothing to the outline, but noding n copies of it costs n^2
+        # (20,000 copies of two lines took 4.4 GB; found by fuzzing): each line once, either way round
+        _, once = np.unique(shapely.to_wkb(shapely.normalize(snapped)), return_index=True)
+        snapped = snapped[np.sort(once)]
         noded = shapely.union_all(snapped)
         faces = list(shapely.polygonize([noded]).geoms) if not noded.is_empty else []
         faces = [p for p in faces if p.area > 0]
