@@ -14,6 +14,8 @@ with a time limit, and judges the run by the bad-input contract:
 - exit code 0, 1 or 2, or 3 only with an internal-error message that names the module (an
   internal error is accepted by the contract but is a bug all the same: the summary lists them
   by class, from the traceback file the message names, and they are kept like failures);
+- at most 2 GB of resident memory at its peak (the case's process, or the largest of its reader
+  processes);
 - done within 60 s of CPU time (the case's process group, its reader pool included; a
   wall-clock limit of ten times that stops it anyway): on a machine shared with other work, wall
   time measures the load, not the case;
@@ -66,6 +68,10 @@ REPO = Path(__file__).resolve().parents[1]
 REALBOARDS = REPO.parent / "shared" / "realboards"
 TIMEOUT_S = 60.0
 MEMORY_LIMIT_BYTES = 6 * 1024 ** 3      # address space of one case: a runaway case fails alone
+# peak resident memory of a case (its process and the largest of its reader processes) past
+# which it fails: the bound issue 11 sets. Under the address-space limit a runaway case used to
+# end in the geometry library's bad_alloc, exit 2, and pass
+MEMORY_FAIL_MB = 2048
 # exit code 3 is accepted only with loopcheck's internal-error message, which names where it
 # happened: "loopcheck: the check could not be completed: 1 internal error ..." and then one line
 # per error, "  hot loop measurement of stage1: IndexError: ... (report id 1a2b3c4d5e)"
@@ -1030,11 +1036,13 @@ def judge(run: Running, status: int, rusage, keep: Path | None, timeout: float) 
                 failures.append("no-report")      # none, or stray files beside the reports
         except (OSError, ValueError):
             failures.append("no-report")
+    peak_mb = rusage.ru_maxrss / 1024 if rusage is not None else 0.0
+    if peak_mb > MEMORY_FAIL_MB:
+        failures.append("memory")
     verdict = failures[0] if failures else ("exit-3-internal" if rc == 3 else f"exit-{rc}")
     stderr = stderr[-3000:]
     if rc == 3 and traceback_text:            # the saved traceback tells one bug from another
         stderr = stderr + "\n[saved traceback]\n" + traceback_text[-4000:]
-    peak_mb = rusage.ru_maxrss / 1024 if rusage is not None else 0.0
     outcome = Outcome(case=case, rc=rc, seconds=seconds, cpu_s=cpu, peak_mb=peak_mb, verdict=verdict,
                       failures=failures, stderr=stderr)
     if (failures or rc == 3) and keep is not None:        # an internal error is a bug to fix too
