@@ -15,7 +15,7 @@ class InputLimits:
     # a minute (2 000 000 took over ten; found by fuzzing)
     max_step_repeat_objects: int = 100_000
     # region contour vertices the step-and-repeat copies add: a copied pour brings all its
-    # vertices (10,000 copies of a 7,000-vertex pour took 5.8 GB; found by fuzzing); a 2 x 2
+    # vertices (10,000 copies of a 13,000-vertex pour took 5.8 GB; found by fuzzing); a 2 x 2
     # panel of a board with 200,000 pour vertices adds 600,000
     max_step_repeat_vertices: int = 4_000_000
     max_objects_per_layer: int = 5_000_000

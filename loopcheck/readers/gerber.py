@@ -1255,7 +1255,7 @@ def _profile_polygon(lines: list, regions: list, join_tol_mm: float) -> Polygon:
             break
         snapped = shapely.set_precision(np.array(lines, dtype=object), grid)
         # a line drawn again adds nothing to the outline, but noding n copies of it costs n^2
-        # (20,000 copies of two lines took 4.4 GB; found by fuzzing): each line once, either way round
+        # (20,000 copies of two lines reached 23.8 GB in 96 s; found by fuzzing): each line once, either way round
         _, once = np.unique(shapely.to_wkb(shapely.normalize(snapped)), return_index=True)
         snapped = snapped[np.sort(once)]
         noded = shapely.union_all(snapped)
