@@ -495,3 +495,29 @@ def test_outline_with_two_lines_drawn_twenty_thousand_times_over(tmp_path):
     assert time.perf_counter() - started < 20
     assert damaged.area == pytest.approx(clean.area, rel=1e-9)
     assert damaged.bounds == pytest.approx(clean.bounds)
+
+
+def test_stroke_drawn_back_and_forth_twenty_thousand_times(tmp_path):
+    """Fuzz kind repeat-lines (seed 20261202, case 8959, caught by the 2 GB criterion): two
+    stroke lines of a trace repeated 20 000 times drew one segment back and forth 40 000 times
+    in one polyline, whose buffer ended in bad_alloc past 3 GB (exit 2 under the harness's
+    address-space limit; unbounded without it). Such a polyline is taken apart into its distinct
+    segments: the copper is the same set, and the board checks as if drawn once."""
+    board = tmp_path / "board"
+    top = write_buck(board)["L1"]
+    lines = top.read_text().splitlines(keepends=True)
+    k = next(i for i in range(1, len(lines) - 1)
+             if lines[i - 1].endswith(("D01*\n", "D02*\n")) and lines[i].endswith("D01*\n")
+             and lines[i + 1].endswith("D01*\n"))
+    top.write_text("".join(lines[:k + 2] + lines[k:k + 2] * 20000 + lines[k + 2:]))
+    clean = tmp_path / "clean"
+    write_buck(clean)
+    damaged, reference = tmp_path / "a", tmp_path / "b"
+    damaged.mkdir()
+    reference.mkdir()
+    got, want = check_completes(board, damaged), check_completes(clean, reference)
+    assert got["result"] == want["result"]
+    for a, b in zip(got["layers"], want["layers"], strict=True):
+        assert a["copper_area_mm2"] == pytest.approx(b["copper_area_mm2"], rel=1e-3)
+    assert [(f["rule"], f["severity"], f["stage"]) for f in got["findings"]] == \
+           [(f["rule"], f["severity"], f["stage"]) for f in want["findings"]]
