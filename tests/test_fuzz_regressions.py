@@ -69,6 +69,22 @@ def damaged_copper(tmp_path: Path, change) -> tuple[Path, str, int]:
     return board, top.name, k
 
 
+def assert_checks_as_clean(board: Path, tmp_path: Path, area_rel: float) -> None:
+    """``board`` (a damaged synthesized buck) checks as the undamaged one does: the same result
+    and findings, each layer's copper area within ``area_rel``."""
+    clean = tmp_path / "clean"
+    write_buck(clean)
+    damaged, reference = tmp_path / "a", tmp_path / "b"
+    damaged.mkdir()
+    reference.mkdir()
+    got, want = check_completes(board, damaged), check_completes(clean, reference)
+    assert got["result"] == want["result"]
+    for a, b in zip(got["layers"], want["layers"], strict=True):
+        assert a["copper_area_mm2"] == pytest.approx(b["copper_area_mm2"], rel=area_rel)
+    assert [(f["rule"], f["severity"], f["stage"]) for f in got["findings"]] == \
+           [(f["rule"], f["severity"], f["stage"]) for f in want["findings"]]
+
+
 def _first(lines: list[str], prefix: str) -> int:
     return next(i for i, line in enumerate(lines) if line.startswith(prefix))
 
@@ -135,17 +151,7 @@ def test_one_flash_repeated_twenty_thousand_times(tmp_path):
     lines = top.read_text().splitlines(keepends=True)
     k = next(i for i, line in enumerate(lines) if line.endswith("D03*\n"))
     top.write_text("".join(lines[:k] + [lines[k]] * 20000 + lines[k:]))
-    clean = tmp_path / "clean"
-    write_buck(clean)
-    damaged, reference = tmp_path / "a", tmp_path / "b"
-    damaged.mkdir()
-    reference.mkdir()
-    got, want = check_completes(board, damaged), check_completes(clean, reference)
-    assert got["result"] == want["result"]
-    for a, b in zip(got["layers"], want["layers"], strict=True):
-        assert a["copper_area_mm2"] == pytest.approx(b["copper_area_mm2"], rel=1e-9)
-    assert [(f["rule"], f["severity"], f["stage"]) for f in got["findings"]] == \
-           [(f["rule"], f["severity"], f["stage"]) for f in want["findings"]]
+    assert_checks_as_clean(board, tmp_path, area_rel=1e-9)
 
 
 def test_outline_drawn_thirty_thousand_times_by_step_and_repeat(tmp_path):
@@ -510,14 +516,4 @@ def test_stroke_drawn_back_and_forth_twenty_thousand_times(tmp_path):
              if lines[i - 1].endswith(("D01*\n", "D02*\n")) and lines[i].endswith("D01*\n")
              and lines[i + 1].endswith("D01*\n"))
     top.write_text("".join(lines[:k + 2] + lines[k:k + 2] * 20000 + lines[k + 2:]))
-    clean = tmp_path / "clean"
-    write_buck(clean)
-    damaged, reference = tmp_path / "a", tmp_path / "b"
-    damaged.mkdir()
-    reference.mkdir()
-    got, want = check_completes(board, damaged), check_completes(clean, reference)
-    assert got["result"] == want["result"]
-    for a, b in zip(got["layers"], want["layers"], strict=True):
-        assert a["copper_area_mm2"] == pytest.approx(b["copper_area_mm2"], rel=1e-3)
-    assert [(f["rule"], f["severity"], f["stage"]) for f in got["findings"]] == \
-           [(f["rule"], f["severity"], f["stage"]) for f in want["findings"]]
+    assert_checks_as_clean(board, tmp_path, area_rel=1e-3)
