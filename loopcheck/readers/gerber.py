@@ -716,12 +716,16 @@ class _RetracedContour(Exception):
     """A region contour that draws the same segments over and over: a damaged file."""
 
 
+def _undirected(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Segments a[k] -> b[k] as rows (x1, y1, x2, y2) with the lesser end first, so that a
+    segment drawn either way round gives the same row."""
+    swap = (a[:, 0] > b[:, 0]) | ((a[:, 0] == b[:, 0]) & (a[:, 1] > b[:, 1]))
+    return np.where(swap[:, None], np.hstack([b, a]), np.hstack([a, b]))
+
+
 def _check_retrace(pts: np.ndarray) -> None:
     """Raise _RetracedContour when the closed contour ``pts`` retraces itself past MAX_RETRACE."""
-    a, b = pts, np.roll(pts, -1, axis=0)
-    swap = (a[:, 0] > b[:, 0]) | ((a[:, 0] == b[:, 0]) & (a[:, 1] > b[:, 1]))
-    ends = np.where(swap[:, None], np.hstack([b, a]), np.hstack([a, b]))   # each segment either way round
-    _, counts = np.unique(ends, axis=0, return_counts=True)
+    _, counts = np.unique(_undirected(pts, np.roll(pts, -1, axis=0)), axis=0, return_counts=True)
     counts = counts.astype(np.int64)
     work = int((counts * (counts - 1)).sum())
     if work > MAX_RETRACE:
@@ -917,8 +921,7 @@ def _without_retraces(lines: np.ndarray) -> np.ndarray:
     a, b, who = xy[:-1][same], xy[1:][same], owner[1:][same]
     if len(who) < 2:
         return lines
-    swap = (a[:, 0] > b[:, 0]) | ((a[:, 0] == b[:, 0]) & (a[:, 1] > b[:, 1]))
-    keys = np.column_stack((who, np.where(swap[:, None], np.hstack([b, a]), np.hstack([a, b]))))
+    keys = np.column_stack((who, _undirected(a, b)))
     uniq, first, counts = np.unique(keys, axis=0, return_index=True, return_counts=True)
     counts = counts.astype(np.int64)
     work = np.bincount(uniq[:, 0].astype(np.int64), weights=counts * (counts - 1), minlength=len(lines))
